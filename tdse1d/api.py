@@ -1,0 +1,83 @@
+"""What the commands do, as functions for notebooks and scripts.
+
+Each command of the ``tdse1d`` program is a thin layer over one of these::
+
+    import tdse1d
+    config = tdse1d.load_input("inputs/argon_800nm.toml", overrides=["laser.0.peak_intensity=\\"2e14 W/cm^2\\""])
+    states = tdse1d.states(config)            # bound states on the run's grid
+    report = tdse1d.estimate(config)          # semiclassical numbers and advised grid
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .config import RunConfig, load_input
+from .estimates import GridAdvice, PulseEstimate, estimates_json
+from .problem import Problem, build_problem
+from .states import BoundStates
+
+__all__ = ["load_input", "states", "estimate", "StatesResult", "EstimateResult"]
+
+
+@dataclass(frozen=True)
+class StatesResult:
+    """Bound states of an input's model on its own grid."""
+
+    problem: Problem
+
+    @property
+    def states(self) -> BoundStates:
+        return self.problem.states
+
+    @property
+    def softening(self) -> float | None:
+        """Softening of the (first) soft-core centre (bohr), fitted or given; None otherwise."""
+        centres = getattr(self.problem.potential, "centres", None)
+        return float(centres[0].softening) if centres else None
+
+    def to_json(self) -> dict:
+        return {"softening": self.softening, "energies": [float(e) for e in self.states.energies]}
+
+
+@dataclass(frozen=True)
+class EstimateResult:
+    """Semiclassical estimates of an input's pulses and the advised grid."""
+
+    problem: Problem
+
+    @property
+    def pulses(self) -> tuple[PulseEstimate, ...]:
+        return self.problem.pulse_estimates
+
+    @property
+    def advice(self) -> GridAdvice:
+        return self.problem.advice
+
+    def to_json(self) -> dict:
+        return estimates_json(list(self.pulses), self.advice)
+
+
+def states(config: RunConfig | str, count: int | None = None) -> StatesResult:
+    """Bound states of the model on the run's own grid.
+
+    Parameters
+    ----------
+    config : RunConfig or path
+    count : int, optional
+        Number of states (overrides ``atom.bound_states``).
+    """
+    if not isinstance(config, RunConfig):
+        config = load_input(config)
+    if count is not None:
+        from dataclasses import replace
+
+        config = replace(config, atom=replace(config.atom, bound_states=count))
+    return StatesResult(build_problem(config))
+
+
+def estimate(config: RunConfig | str) -> EstimateResult:
+    """Semiclassical estimates for the input's pulses (see :mod:`tdse1d.estimates`)."""
+    if not isinstance(config, RunConfig):
+        config = load_input(config)
+    return EstimateResult(build_problem(config, with_states=False))

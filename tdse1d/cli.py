@@ -1,0 +1,96 @@
+"""The ``tdse1d`` command line: a thin layer over :mod:`tdse1d.api`.
+
+Each command lives in its own module under :mod:`tdse1d.commands` and is listed in
+:data:`COMMANDS`. A command module provides ``HELP`` (one line), ``add_arguments(parser)``
+and ``main(args) -> int``. Adding a command is adding one module and one line here.
+
+Exit status: 0 success, 1 a numerical or runtime failure, 2 bad input (one line on
+stderr naming the file and key; ``--debug`` shows the traceback).
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from . import __version__
+from .config import InputError
+
+#: command name -> module implementing it
+COMMANDS = {
+    "states": "tdse1d.commands.states",
+    "estimate": "tdse1d.commands.estimate",
+}
+
+EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
+
+
+class CommandError(RuntimeError):
+    """A failure that is not bad input: reported in one line, exit status 1."""
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="tdse1d",
+        description="Full quantum runs of 1-D model atoms in strong laser fields, beside the semiclassical picture.",
+    )
+    parser.add_argument("--version", action="version", version=f"tdse1d {__version__}")
+    parser.add_argument("--debug", action="store_true", help="show Python tracebacks")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for name, module_name in COMMANDS.items():
+        module = importlib.import_module(module_name)
+        p = sub.add_parser(name, help=module.HELP, description=module.HELP)
+        p.add_argument("--debug", action="store_true", help="show Python tracebacks")
+        module.add_arguments(p)
+        p.set_defaults(_main=module.main)
+    return parser
+
+
+def add_input_arguments(parser: argparse.ArgumentParser) -> None:
+    """The INPUT argument and ``--set`` overrides shared by the commands that read an input."""
+    parser.add_argument("input", metavar="INPUT", help="input file (TOML)")
+    parser.add_argument(
+        "--set",
+        dest="overrides",
+        action="append",
+        default=[],
+        metavar="KEY=VALUE",
+        help='override a key, e.g. --set laser.0.peak_intensity="2e14 W/cm^2" (repeatable)',
+    )
+
+
+def main(argv=None) -> int:
+    argv = sys.argv[1:] if argv is None else list(argv)
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # argparse already printed its message
+        return EXIT_BAD_INPUT if exc.code not in (0, None) else EXIT_OK
+    if not getattr(args, "_main", None):
+        parser.print_help()
+        return EXIT_BAD_INPUT
+    debug = args.debug or "--debug" in argv
+    try:
+        return int(args._main(args) or 0)
+    except InputError as exc:
+        if debug:
+            raise
+        print(f"tdse1d: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except CommandError as exc:
+        if debug:
+            raise
+        print(f"tdse1d: error: {exc}", file=sys.stderr)
+        return EXIT_FAILURE
+    except KeyboardInterrupt:
+        print("tdse1d: interrupted", file=sys.stderr)
+        return 130
+
+
+def entry_point():  # console script
+    sys.exit(main())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    entry_point()

@@ -1,0 +1,661 @@
+"""Input files: TOML in, validated frozen dataclasses in atomic units out.
+
+One TOML file describes one run. :func:`load_input` reads it, applies ``--set``
+overrides (:func:`apply_override`), and validates every table against the dataclasses
+below, whose fields carry their own specification (:class:`Spec`) as metadata: the
+dataclass *is* the schema, so adding a key is adding one field. ``docs/input.md``
+documents every key.
+
+Every error is an :class:`InputError` naming the file, the dotted key and what is
+wrong; the command line turns it into one line on stderr and exit status 2.
+"""
+
+from __future__ import annotations
+
+import copy
+import dataclasses
+import difflib
+import math
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from . import units
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+__all__ = [
+    "InputError",
+    "RunConfig",
+    "AtomConfig",
+    "CentreConfig",
+    "GridConfig",
+    "LaserConfig",
+    "PropagationConfig",
+    "AbsorberConfig",
+    "OutputConfig",
+    "SpectraConfig",
+    "load_input",
+    "parse_input",
+    "apply_override",
+    "parse_override",
+    "dump_toml",
+]
+
+AUTO = "auto"
+_REQUIRED = object()
+
+
+class InputError(ValueError):
+    """A problem with an input file, naming the file and the key.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong.
+    key : str, optional
+        Dotted path of the offending key, e.g. ``laser.0.wavelength``.
+    source : str, optional
+        The input file.
+    """
+
+    def __init__(self, message: str, key: str | None = None, source: str | None = None):
+        self.message = message
+        self.key = key
+        self.source = source
+        super().__init__(str(self))
+
+    def __str__(self):
+        where = f"{self.source}: " if self.source else ""
+        key = f"key '{self.key}': " if self.key else ""
+        return f"{where}{key}{self.message}"
+
+
+# --------------------------------------------------------------------------- specs
+
+
+@dataclass(frozen=True)
+class Spec:
+    """How one input key is read.
+
+    Parameters
+    ----------
+    kind : {"quantity", "int", "float", "str", "bool", "choice", "int_list", "float_list"}
+    dimension : str, optional
+        For quantities, a key of :data:`tdse1d.units.DIMENSIONS`.
+    bare_allowed : bool
+        Whether a bare number (atomic units) is accepted for a quantity.
+    auto : bool
+        Whether the string ``"auto"`` is accepted (read as None: chosen by the program).
+    minimum : float, optional
+        Smallest allowed value; ``strict`` makes it exclusive.
+    choices : tuple of str
+        Allowed strings for ``kind="choice"``; a callable returning them is also
+        accepted, so that registries filled later are consulted at validation time.
+    doc : str
+        One-line description (used in messages).
+    """
+
+    kind: str
+    dimension: str | None = None
+    bare_allowed: bool = True
+    auto: bool = False
+    minimum: float | None = None
+    strict: bool = True
+    maximum: float | None = None
+    choices: Any = ()
+    doc: str = ""
+
+    def allowed_choices(self):
+        return tuple(self.choices() if callable(self.choices) else self.choices)
+
+
+def key(spec: Spec, default=_REQUIRED):
+    """A dataclass field carrying its input specification."""
+    if default is _REQUIRED:
+        return field(metadata={"spec": spec})
+    return field(default=default, metadata={"spec": spec})
+
+
+def _check_range(value, spec: Spec, path: str):
+    if not math.isfinite(value):
+        raise InputError(f"must be finite, got {value!r}", path)
+    if spec.minimum is not None:
+        if spec.strict and value <= spec.minimum:
+            word = "positive" if spec.minimum == 0 else f"greater than {spec.minimum:g}"
+            raise InputError(f"must be {word}, got {value!r}", path)
+        if not spec.strict and value < spec.minimum:
+            word = "zero or positive" if spec.minimum == 0 else f"at least {spec.minimum:g}"
+            raise InputError(f"must be {word}, got {value!r}", path)
+    if spec.maximum is not None and value > spec.maximum:
+        raise InputError(f"must be at most {spec.maximum:g}, got {value!r}", path)
+    return value
+
+
+def _read_value(raw, spec: Spec, path: str):
+    if spec.auto and raw == AUTO:
+        return None
+    kind = spec.kind
+    if kind == "quantity":
+        try:
+            value = units.to_atomic(raw, spec.dimension, bare_allowed=spec.bare_allowed)
+        except units.UnitError as exc:
+            raise InputError(str(exc), path) from None
+        return _check_range(value, spec, path)
+    if kind == "int":
+        if isinstance(raw, bool) or not isinstance(raw, int):
+            extra = ' or "auto"' if spec.auto else ""
+            raise InputError(f"must be an integer{extra}, got {raw!r}", path)
+        return int(_check_range(raw, spec, path))
+    if kind == "float":
+        if isinstance(raw, bool) or not isinstance(raw, (int, float)):
+            extra = ' or "auto"' if spec.auto else ""
+            raise InputError(f"must be a number{extra}, got {raw!r}", path)
+        return float(_check_range(float(raw), spec, path))
+    if kind == "bool":
+        if not isinstance(raw, bool):
+            raise InputError(f"must be true or false, got {raw!r}", path)
+        return raw
+    if kind == "str":
+        if not isinstance(raw, str) or not raw:
+            raise InputError(f"must be a non-empty string, got {raw!r}", path)
+        return raw
+    if kind == "choice":
+        options = spec.allowed_choices()
+        if isinstance(raw, bool) or raw not in options:
+            near = difflib.get_close_matches(str(raw), list(map(str, options)), n=1)
+            hint = f" (did you mean '{near[0]}'?)" if near else ""
+            raise InputError(
+                f"unknown value {raw!r}{hint}; choose one of {', '.join(map(str, options))}", path
+            )
+        return raw
+    if kind in ("int_list", "float_list"):
+        items = raw if isinstance(raw, list) else [raw]
+        item_spec = dataclasses.replace(spec, kind=kind.split("_")[0])
+        return tuple(_read_value(v, item_spec, f"{path}[{i}]") for i, v in enumerate(items))
+    raise AssertionError(f"unknown spec kind {kind}")  # pragma: no cover
+
+
+def _read_table(cls, table, path: str, nested: dict | None = None):
+    """Validate one TOML table against the dataclass ``cls`` whose fields carry specs.
+
+    ``nested`` maps sub-table names to a callable reading them (arrays of tables).
+    """
+    if not isinstance(table, dict):
+        raise InputError(f"must be a table, got {type(table).__name__}", path)
+    nested = nested or {}
+    fields_ = {f.name: f for f in dataclasses.fields(cls) if "spec" in f.metadata}
+    known = list(fields_) + list(nested)
+    for name in table:
+        if name not in known:
+            near = difflib.get_close_matches(name, known, n=1)
+            hint = f"; did you mean '{near[0]}'?" if near else f"; known keys: {', '.join(known)}"
+            raise InputError(f"unknown key{hint}", _join(path, name))
+    values = {}
+    for name, f in fields_.items():
+        if name in table:
+            values[name] = _read_value(table[name], f.metadata["spec"], _join(path, name))
+        elif f.default is dataclasses.MISSING:
+            raise InputError(f"missing required key ({f.metadata['spec'].doc})", _join(path, name))
+    for name, reader in nested.items():
+        if name in table:
+            values[name] = reader(table[name], _join(path, name))
+    return cls(**values)
+
+
+def _join(path, name):
+    return f"{path}.{name}" if path else str(name)
+
+
+def _read_array(cls, items, path):
+    if isinstance(items, dict):
+        items = [items]
+    if not isinstance(items, list) or not items:
+        raise InputError("must be a non-empty array of tables", path)
+    return tuple(_read_table(cls, item, f"{path}.{i}") for i, item in enumerate(items))
+
+
+# ----------------------------------------------------------------------- sections
+
+
+def _potential_names():
+    from .potentials import POTENTIALS
+
+    return tuple(POTENTIALS)
+
+
+def _envelope_names():
+    from .pulses import ENVELOPES
+
+    return tuple(ENVELOPES)
+
+
+def _absorber_names():
+    from .absorb import ABSORBERS
+
+    return tuple(ABSORBERS)
+
+
+def _window_names():
+    from .spectra import WINDOWS
+
+    return tuple(WINDOWS)
+
+
+_POSITIVE = dict(minimum=0.0)
+
+
+@dataclass(frozen=True)
+class CentreConfig:
+    """One soft-core centre of a molecular ion (``[[atom.centre]]``)."""
+
+    position: float = key(Spec("quantity", "length", doc="position of the centre (bohr)"), 0.0)
+    charge: float = key(Spec("float", **_POSITIVE, doc="nuclear charge Z (a.u.)"), 1.0)
+    softening: float | None = key(Spec("quantity", "length", **_POSITIVE, doc="softening a (bohr)"), None)
+
+
+@dataclass(frozen=True)
+class AtomConfig:
+    """The model atom or molecular ion (``[atom]``)."""
+
+    model: str = key(Spec("choice", choices=_potential_names, doc="model potential"), "soft-core")
+    charge: float = key(Spec("float", **_POSITIVE, doc="nuclear charge Z (a.u.)"), 1.0)
+    softening: float | None = key(Spec("quantity", "length", **_POSITIVE, doc="softening a (bohr)"), None)
+    ionization_potential: float | None = key(
+        Spec("quantity", "energy", **_POSITIVE, doc="ionization potential to fit (Hartree)"), None
+    )
+    initial_state: tuple[int, ...] = key(
+        Spec("int_list", minimum=0, strict=False, doc="index or indices of the initial state"), (0,)
+    )
+    initial_amplitudes: tuple[float, ...] | None = key(
+        Spec("float_list", doc="amplitudes of a superposition initial state"), None
+    )
+    initial_phases: tuple[float, ...] | None = key(
+        Spec("float_list", doc="phases (rad) of a superposition initial state"), None
+    )
+    bound_states: int | None = key(
+        Spec("int", auto=True, minimum=1, strict=False, doc="number of bound states to compute"), None
+    )
+    depth_parameter: float = key(Spec("float", **_POSITIVE, doc="Poschl-Teller l"), 2.0)
+    trap_frequency: float = key(Spec("float", **_POSITIVE, doc="harmonic-oscillator frequency (a.u.)"), 1.0)
+    centres: tuple[CentreConfig, ...] = ()
+
+    @property
+    def fit_softening(self) -> bool:
+        return self.ionization_potential is not None
+
+
+@dataclass(frozen=True)
+class GridConfig:
+    """The spatial grid (``[grid]``); ``None`` means chosen from the estimates."""
+
+    points: int | None = key(Spec("int", auto=True, minimum=16, strict=False, doc="number of points"), None)
+    spacing: float | None = key(Spec("quantity", "length", auto=True, **_POSITIVE, doc="spacing (bohr)"), None)
+
+
+@dataclass(frozen=True)
+class LaserConfig:
+    """One pulse (``[[laser]]``). Quantities in a.u.; None where not given."""
+
+    wavelength: float | None = key(
+        Spec("quantity", "length", bare_allowed=False, **_POSITIVE, doc="vacuum wavelength"), None
+    )
+    photon_energy: float | None = key(Spec("quantity", "energy", **_POSITIVE, doc="photon energy"), None)
+    peak_intensity: float | None = key(
+        Spec("quantity", "intensity", bare_allowed=False, **_POSITIVE, doc="peak (cycle-averaged) intensity"), None
+    )
+    peak_field: float | None = key(Spec("quantity", "electric_field", **_POSITIVE, doc="peak field"), None)
+    envelope: str = key(Spec("choice", choices=_envelope_names, doc="envelope shape"), "sin2")
+    cycles: float | None = key(Spec("float", **_POSITIVE, doc="length in optical cycles"), None)
+    fwhm: float | None = key(
+        Spec("quantity", "time", bare_allowed=False, **_POSITIVE, doc="intensity FWHM"), None
+    )
+    ramp_cycles: float = key(Spec("float", **_POSITIVE, doc="flat-top ramp length in cycles"), 2.0)
+    cep: float = key(Spec("quantity", "angle", doc="carrier-envelope phase (rad)"), 0.0)
+    delay: float = key(Spec("quantity", "time", bare_allowed=False, doc="time of the envelope centre"), 0.0)
+    chirp: float = key(Spec("quantity", "chirp_rate", doc="linear chirp rate d(omega)/dt (a.u.)"), 0.0)
+    field_file: str | None = key(Spec("str", doc="two-column file: time, field"), None)
+    time_unit: str | None = key(Spec("str", doc="unit of the file's time column"), None)
+    field_unit: str | None = key(Spec("str", doc="unit of the file's field column"), None)
+
+    @property
+    def omega(self) -> float | None:
+        """Carrier angular frequency (a.u.)."""
+        if self.photon_energy is not None:
+            return self.photon_energy
+        if self.wavelength is not None:
+            return 2 * math.pi * units.SPEED_OF_LIGHT_AU / self.wavelength
+        return None
+
+    @property
+    def amplitude(self) -> float | None:
+        """Peak field amplitude E0 (a.u.)."""
+        if self.peak_field is not None:
+            return self.peak_field
+        if self.peak_intensity is not None:
+            return math.sqrt(self.peak_intensity)
+        return None
+
+
+@dataclass(frozen=True)
+class PropagationConfig:
+    """Time propagation (``[propagation]``)."""
+
+    time_step: float | None = key(Spec("quantity", "time", auto=True, **_POSITIVE, doc="time step"), None)
+    gauge: str = key(Spec("choice", choices=("length", "velocity"), doc="gauge"), "length")
+    order: int = key(Spec("choice", choices=(2, 4), doc="order of the splitting"), 2)
+    after_pulse: float | None = key(
+        Spec("quantity", "time", auto=True, minimum=0, strict=False, doc="field-free time after the pulses"), None
+    )
+
+
+@dataclass(frozen=True)
+class AbsorberConfig:
+    """Absorbing boundaries (``[absorber]``)."""
+
+    type: str = key(Spec("choice", choices=_absorber_names, doc="absorber"), "mask")
+    width: float | None = key(Spec("quantity", "length", auto=True, **_POSITIVE, doc="width of each side"), None)
+    exponent: float = key(Spec("float", **_POSITIVE, doc="exponent of the cos mask"), 0.125)
+    strength: float | None = key(
+        Spec("float", auto=True, **_POSITIVE, doc="peak of the complex absorbing potential (Hartree)"), None
+    )
+
+
+@dataclass(frozen=True)
+class OutputConfig:
+    """What is written (``[output]``)."""
+
+    file: str | None = key(Spec("str", doc="result file"), None)
+    snapshots: int = key(Spec("int", minimum=0, strict=False, doc="number of wavefunction snapshots"), 100)
+    snapshot_stride: int = key(Spec("int", minimum=1, strict=False, doc="keep every n-th grid point"), 1)
+    population_interval: float | None = key(
+        Spec("quantity", "time", auto=True, **_POSITIVE, doc="time between bound-state projections"), None
+    )
+    checkpoint_interval: float | None = key(
+        Spec("quantity", "time", bare_allowed=False, **_POSITIVE, doc="wall-clock time between checkpoints"), None
+    )
+
+
+@dataclass(frozen=True)
+class SpectraConfig:
+    """How spectra are computed (``[spectra]``)."""
+
+    window: str = key(Spec("choice", choices=_window_names, doc="window of the harmonic spectrum"), "hann")
+
+
+@dataclass(frozen=True)
+class RunConfig:
+    """A validated run: every quantity in atomic units.
+
+    Attributes
+    ----------
+    raw : dict
+        The input as read, with overrides applied (the "resolved input").
+    source : str
+        The input file's path, for messages ("<string>" for text input).
+    base_dir : Path
+        Directory against which relative paths in the input are resolved.
+    """
+
+    atom: AtomConfig
+    lasers: tuple[LaserConfig, ...]
+    grid: GridConfig = GridConfig()
+    propagation: PropagationConfig = PropagationConfig()
+    absorber: AbsorberConfig = AbsorberConfig()
+    output: OutputConfig = OutputConfig()
+    spectra: SpectraConfig = SpectraConfig()
+    raw: dict = field(default_factory=dict, compare=False, repr=False)
+    source: str = "<string>"
+    base_dir: Path = Path(".")
+
+    @property
+    def resolved_toml(self) -> str:
+        """The resolved input as TOML text."""
+        return dump_toml(self.raw)
+
+    def resolve_path(self, name: str) -> Path:
+        """A path from the input, relative to the input file's directory."""
+        p = Path(name)
+        return p if p.is_absolute() else self.base_dir / p
+
+
+_SECTIONS = {
+    "grid": GridConfig,
+    "propagation": PropagationConfig,
+    "absorber": AbsorberConfig,
+    "output": OutputConfig,
+    "spectra": SpectraConfig,
+}
+
+
+def _read_atom(table, path):
+    atom = _read_table(
+        AtomConfig, table, path, nested={"centre": lambda t, p: _read_array(CentreConfig, t, p)}
+    )
+    centres = atom.centres
+    if atom.model == "soft-core":
+        if centres:
+            for name in ("softening", "charge"):
+                if name in table:
+                    raise InputError(
+                        f"give '{name}' in each [[atom.centre]] table when centres are listed", _join(path, name)
+                    )
+            given = [c.softening is not None for c in centres]
+            if atom.fit_softening and any(given):
+                i = given.index(True)
+                raise InputError(
+                    "give either the softening of each centre or atom.ionization_potential, not both",
+                    f"{path}.centre.{i}.softening",
+                )
+            if not atom.fit_softening and not all(given):
+                i = given.index(False)
+                raise InputError(
+                    "missing softening (or give atom.ionization_potential to fit it)", f"{path}.centre.{i}.softening"
+                )
+        else:
+            if (atom.softening is None) == (not atom.fit_softening):
+                which = "both" if atom.fit_softening else "neither"
+                raise InputError(
+                    f"give exactly one of 'softening' and 'ionization_potential' ({which} given)",
+                    _join(path, "softening"),
+                )
+            centres = (CentreConfig(0.0, atom.charge, atom.softening),)
+        atom = dataclasses.replace(atom, centres=centres)
+    elif atom.fit_softening:
+        raise InputError(f"the {atom.model} model has no softening to fit", _join(path, "ionization_potential"))
+    n = len(atom.initial_state)
+    for name in ("initial_amplitudes", "initial_phases"):
+        got = getattr(atom, name)
+        if got is not None and len(got) != n:
+            raise InputError(f"needs {n} entries, one per initial_state, got {len(got)}", _join(path, name))
+    if atom.initial_amplitudes is not None and not any(a != 0 for a in atom.initial_amplitudes):
+        raise InputError("at least one amplitude must be non-zero", _join(path, "initial_amplitudes"))
+    if len(set(atom.initial_state)) != n:
+        raise InputError("lists a state twice", _join(path, "initial_state"))
+    return atom
+
+
+def _read_laser(table, path, base_dir: Path):
+    laser = _read_table(LaserConfig, table, path)
+    tabulated = laser.field_file is not None
+    if laser.wavelength is not None and laser.photon_energy is not None:
+        raise InputError("give either 'wavelength' or 'photon_energy', not both", _join(path, "photon_energy"))
+    if tabulated:
+        for name in ("time_unit", "field_unit"):
+            if getattr(laser, name) is None:
+                raise InputError(f"a field_file needs '{name}' (e.g. \"fs\", \"V/m\" or \"au\")", _join(path, name))
+        for name in ("peak_intensity", "peak_field", "cycles", "fwhm"):
+            if name in table:
+                raise InputError("does not apply to a pulse read from field_file", _join(path, name))
+        return laser
+    if laser.omega is None:
+        raise InputError("missing 'wavelength' or 'photon_energy'", _join(path, "wavelength"))
+    if laser.peak_intensity is not None and laser.peak_field is not None:
+        raise InputError("give either 'peak_intensity' or 'peak_field', not both", _join(path, "peak_field"))
+    if laser.amplitude is None:
+        raise InputError("missing 'peak_intensity' (e.g. \"1e14 W/cm^2\")", _join(path, "peak_intensity"))
+    if (laser.cycles is None) == (laser.fwhm is None):
+        which = "both" if laser.cycles is not None else "neither"
+        raise InputError(f"give exactly one of 'cycles' and 'fwhm' ({which} given)", _join(path, "cycles"))
+    if laser.envelope == "flat-top":
+        if laser.cycles is None:
+            raise InputError("a flat-top pulse is given by 'cycles' (total length)", _join(path, "cycles"))
+        if 2 * laser.ramp_cycles > laser.cycles:
+            raise InputError(
+                f"two ramps of {laser.ramp_cycles:g} cycles do not fit in {laser.cycles:g} cycles",
+                _join(path, "ramp_cycles"),
+            )
+    return laser
+
+
+def parse_input(raw: dict, source: str = "<string>", base_dir: Path | str = ".") -> RunConfig:
+    """Validate a parsed input (a dict as from TOML) into a :class:`RunConfig`.
+
+    Parameters
+    ----------
+    raw : dict
+        The input tables.
+    source : str
+        Name of the input, used in messages.
+    base_dir : path
+        Directory for relative paths in the input.
+
+    Raises
+    ------
+    InputError
+        With ``source`` and the dotted key filled in.
+    """
+    base_dir = Path(base_dir)
+    try:
+        if not isinstance(raw, dict):
+            raise InputError("the input must be a TOML document of tables")
+        known = ["atom", "laser"] + list(_SECTIONS)
+        for name in raw:
+            if name not in known:
+                near = difflib.get_close_matches(name, known, n=1)
+                hint = f"; did you mean '{near[0]}'?" if near else f"; known tables: {', '.join(known)}"
+                raise InputError(f"unknown table{hint}", name)
+        if "atom" not in raw:
+            raise InputError("missing required table [atom]", "atom")
+        atom = _read_atom(raw["atom"], "atom")
+        lasers = ()
+        if "laser" in raw:
+            items = raw["laser"]
+            if isinstance(items, dict):
+                items = [items]
+            if not isinstance(items, list):
+                raise InputError("must be an array of tables [[laser]]", "laser")
+            lasers = tuple(_read_laser(t, f"laser.{i}", base_dir) for i, t in enumerate(items))
+        sections = {name: _read_table(cls, raw.get(name, {}), name) for name, cls in _SECTIONS.items()}
+        return RunConfig(atom=atom, lasers=lasers, raw=copy.deepcopy(raw), source=source, base_dir=base_dir, **sections)
+    except InputError as exc:
+        if exc.source is None:
+            exc.source = source
+        raise
+
+
+def parse_override(assignment: str) -> tuple[str, Any]:
+    """Split ``KEY=VALUE`` from the command line; VALUE is read as a TOML value if it
+    is one (``3``, ``2.5``, ``"800 nm"``, ``[0, 1]``) and as a plain string otherwise."""
+    if "=" not in assignment:
+        raise InputError(f"an override must look like KEY=VALUE, got {assignment!r}", "--set")
+    path, text = assignment.split("=", 1)
+    path = path.strip()
+    if not path:
+        raise InputError(f"an override must name a key, got {assignment!r}", "--set")
+    try:
+        value = tomllib.loads(f"v = {text}")["v"]
+    except tomllib.TOMLDecodeError:
+        value = text.strip()
+    return path, value
+
+
+def apply_override(raw: dict, path: str, value) -> dict:
+    """Set the dotted ``path`` (e.g. ``laser.0.peak_intensity``) in a copy of ``raw``.
+
+    Integer segments index arrays of tables; missing tables are created. Unknown keys
+    are left for validation to report.
+    """
+    raw = copy.deepcopy(raw)
+    parts = path.split(".")
+    node = raw
+    for i, part in enumerate(parts[:-1]):
+        here = ".".join(parts[: i + 1])
+        if isinstance(node, list):
+            index = _index(part, node, here)
+            node = node[index]
+            continue
+        if part not in node:
+            nxt = parts[i + 1]
+            node[part] = [] if nxt.isdigit() else {}
+        node = node[part]
+        if not isinstance(node, (dict, list)):
+            raise InputError(f"is a value, not a table, so '{path}' cannot be set", here)
+    last = parts[-1]
+    if isinstance(node, list):
+        node[_index(last, node, path)] = value
+    else:
+        node[last] = value
+    return raw
+
+
+def _index(part, node, here):
+    if not part.isdigit():
+        raise InputError(f"expected an index into an array of {len(node)} tables", here)
+    index = int(part)
+    if index >= len(node):
+        raise InputError(f"index {index} is out of range: there are {len(node)} tables", here)
+    return index
+
+
+def load_input(path, overrides=(), text: str | None = None) -> RunConfig:
+    """Read, override and validate one input file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+    overrides : iterable of (str, value) or of "KEY=VALUE" strings
+        Applied in order before validation.
+    text : str, optional
+        TOML text to use instead of reading ``path`` (``path`` then only names it).
+
+    Returns
+    -------
+    RunConfig
+
+    Raises
+    ------
+    InputError
+        For a missing file, a TOML syntax error (with its line) or any invalid key.
+    """
+    path = Path(path)
+    source = str(path)
+    if text is None:
+        try:
+            text = path.read_text(encoding="utf-8")
+        except OSError as exc:
+            raise InputError(f"cannot read the input file ({exc.strerror})", source=source) from None
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"TOML syntax error: {exc}", source=source) from None
+    try:
+        for item in overrides:
+            k, v = parse_override(item) if isinstance(item, str) else item
+            raw = apply_override(raw, k, v)
+    except InputError as exc:
+        exc.source = source
+        raise
+    return parse_input(raw, source=source, base_dir=path.parent)
+
+
+def dump_toml(raw: dict) -> str:
+    """Write a dict of TOML-compatible values back to TOML text."""
+    import tomli_w
+
+    return tomli_w.dumps(raw)

@@ -1,0 +1,276 @@
+"""Assemble the physics objects of a run from a validated :class:`~tdse1d.config.RunConfig`.
+
+This is the one layer between the input and the physics core: it reads a tabulated
+field file if the input names one, resolves every ``"auto"`` (grid, time step,
+field-free time, absorber width) from the semiclassical estimates, fits the softening
+to an ionization potential on the run's own grid, and finds the bound states. The
+physics modules it hands these objects to never read files.
+
+Order of resolution (the grid needs Ip, and the fit needs the grid): a provisional Ip
+(the input's, or the ground state of the model on a fine provisional grid) gives the
+estimates; they give the grid; the softening is then fitted on that grid.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from functools import cached_property
+
+import numpy as np
+
+from . import units
+from .config import InputError, RunConfig
+from .estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
+from .grid import Grid, fast_fft_size
+from .potentials import POTENTIALS, Potential
+from .pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
+from .states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
+
+__all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
+
+#: provisional grid for a first look at the ground state before the real grid is known
+_PROVISIONAL = Grid(1024, 0.1)
+#: default field-free time after the pulses, in optical cycles of the first pulse
+AFTER_PULSE_CYCLES = 2.0
+#: field-free run length when there is no pulse at all (a.u.)
+FIELD_FREE_DURATION = 100.0
+
+
+@dataclass(frozen=True)
+class TimeAxis:
+    """Uniform time steps from ``start`` to ``end`` (a.u.)."""
+
+    start: float
+    end: float
+    steps: int
+
+    @property
+    def step(self) -> float:
+        return (self.end - self.start) / self.steps
+
+    @property
+    def times(self) -> np.ndarray:
+        return self.start + self.step * np.arange(self.steps + 1)
+
+
+@dataclass(frozen=True)
+class Problem:
+    """Everything a run needs, in atomic units.
+
+    Attributes
+    ----------
+    config : RunConfig
+    grid : Grid
+    potential : Potential
+        With the softening fitted when the input asked for an ionization potential.
+    field : Field
+    time : TimeAxis
+    states : BoundStates
+    pulse_estimates : tuple of PulseEstimate
+    advice : GridAdvice
+    warnings : tuple of str
+        Things the user should know (non-zero field area, a grid coarser than advised).
+    """
+
+    config: RunConfig
+    grid: Grid
+    potential: Potential
+    field: Field
+    time: TimeAxis
+    states: BoundStates
+    pulse_estimates: tuple[PulseEstimate, ...]
+    advice: GridAdvice
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def ionization_potential(self) -> float:
+        """-E of the (lowest listed) initial state (Hartree)."""
+        return -float(self.states.energies[min(self.config.atom.initial_state)])
+
+    @cached_property
+    def absorber_width(self) -> float:
+        width = self.config.absorber.width
+        return self.advice.absorber_width if width is None else width
+
+
+def _read_field_table(config: RunConfig, index: int, laser):
+    path = config.resolve_path(laser.field_file)
+    key = f"laser.{index}.field_file"
+    try:
+        data = np.loadtxt(path, comments="#", delimiter=None, ndmin=2)
+    except OSError:
+        raise InputError(f"cannot read the field file {str(path)!r}", key, config.source) from None
+    except ValueError as exc:
+        raise InputError(f"the field file {str(path)!r} is malformed ({exc})", key, config.source) from None
+    if data.shape[1] != 2 or data.shape[0] < 4:
+        raise InputError(
+            f"the field file {str(path)!r} must have two columns (time, field) and at least 4 rows, "
+            f"got shape {data.shape}",
+            key,
+            config.source,
+        )
+    if not np.all(np.isfinite(data)):
+        raise InputError(f"the field file {str(path)!r} holds non-finite values", key, config.source)
+    for name, dim in (("time_unit", "time"), ("field_unit", "electric_field")):
+        try:
+            scale = units.to_atomic(f"1 {getattr(laser, name)}", dim)
+        except units.UnitError as exc:
+            raise InputError(str(exc), f"laser.{index}.{name}", config.source) from None
+        if name == "time_unit":
+            t = data[:, 0] * scale
+        else:
+            e = data[:, 1] * scale
+    if np.any(np.diff(t) <= 0):
+        raise InputError(f"the times in {str(path)!r} must increase strictly", key, config.source)
+    return t, e
+
+
+def _dominant_frequency(t, e):
+    tt = np.linspace(t[0], t[-1], 4 * len(t))
+    ee = np.interp(tt, t, e)
+    power = np.abs(np.fft.rfft(ee)) ** 2
+    freq = 2 * np.pi * np.fft.rfftfreq(len(tt), tt[1] - tt[0])
+    return float(freq[1 + np.argmax(power[1:])])
+
+
+def build_field(config: RunConfig) -> Field:
+    """The run's total field from its ``[[laser]]`` tables."""
+    pulses = []
+    for i, laser in enumerate(config.lasers):
+        if laser.field_file is not None:
+            t, e = _read_field_table(config, i, laser)
+            omega = laser.omega if laser.omega is not None else _dominant_frequency(t, e)
+            pulses.append(TabulatedPulse(t, e, omega, delay=laser.delay))
+        else:
+            envelope = ENVELOPES[laser.envelope].from_config(laser, laser.omega)
+            pulses.append(AnalyticPulse(envelope, laser.omega, laser.amplitude, laser.cep, laser.delay, laser.chirp))
+    return Field(pulses)
+
+
+def _potential(config: RunConfig) -> Potential:
+    atom = config.atom
+    cls = POTENTIALS[atom.model]
+    if atom.fit_softening:
+        # a placeholder softening, replaced by the fit
+        atom = replace(atom, centres=tuple(replace(c, softening=1.0) for c in atom.centres))
+    return cls.from_config(atom)
+
+
+def model_estimates(potential: Potential, field: Field, ionization_potential: float):
+    """Semiclassical estimates for each pulse of ``field`` and the grid they call for."""
+    from .classical import barrier_suppression_field
+
+    bsi = barrier_suppression_field(potential, -ionization_potential)
+    pulses = [pulse_estimate(p.omega, p.peak_field, ionization_potential, bsi) for p in field.pulses]
+    depth = -float(np.min(potential.value(np.linspace(-20, 20, 4001))))
+    return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0))
+
+
+def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
+    """Resolve a configuration into a :class:`Problem`.
+
+    Parameters
+    ----------
+    config : RunConfig
+    with_states : bool
+        Compute all bound states (otherwise only what the fit and estimates need).
+
+    Raises
+    ------
+    InputError
+        For a field file that cannot be read, an unreachable ionization potential, or
+        an initial state that does not exist.
+    """
+    atom = config.atom
+    field = build_field(config)
+    potential = _potential(config)
+    notes = []
+    initial = min(atom.initial_state)
+
+    # provisional Ip, for the estimates that fix the grid
+    if atom.fit_softening:
+        ip = atom.ionization_potential
+        try:
+            potential = potential.with_softening(fit_softening(_PROVISIONAL, potential, ip))
+        except SofteningFitError as exc:
+            raise InputError(str(exc), "atom.ionization_potential", config.source) from None
+    if initial == 0:
+        ip = -ground_state_energy(_PROVISIONAL, potential)
+    else:
+        ip = -float(bound_states(_PROVISIONAL, potential, count=initial + 1).energies[initial])
+    if not ip > 0:
+        ip = 1.0  # a trap without continuum: estimates only size the box
+    pulses, advice = model_estimates(potential, field, ip)
+
+    grid_cfg = config.grid
+    spacing = grid_cfg.spacing if grid_cfg.spacing is not None else advice.spacing
+    if grid_cfg.points is not None:
+        points = grid_cfg.points
+    else:
+        points = fast_fft_size(int(math.ceil(2 * advice.half_width / spacing)))
+    if points % 2:
+        raise InputError(f"must be even for the Fourier grid, got {points}", "grid.points", config.source)
+    grid = Grid(points, spacing)
+    if grid.half_width < advice.half_width * 0.75:
+        notes.append(
+            f"the box half-width {grid.half_width:.1f} bohr is well below the advised {advice.half_width:.1f} bohr "
+            "(quiver excursion plus absorber)"
+        )
+    if grid.max_momentum < advice.max_momentum / 1.5:
+        notes.append(
+            f"the grid's largest momentum {grid.max_momentum:.2f} a.u. is below the {advice.max_momentum / 1.5:.2f} a.u. "
+            "the pulse can give an electron"
+        )
+
+    if atom.fit_softening:
+        try:
+            a = fit_softening(grid, potential, atom.ionization_potential)
+        except SofteningFitError as exc:
+            raise InputError(str(exc), "atom.ionization_potential", config.source) from None
+        potential = potential.with_softening(a)
+
+    count = atom.bound_states
+    if count is not None:
+        count = max(count, max(atom.initial_state) + 1)
+    if not with_states:
+        count = max(atom.initial_state) + 1
+    states = bound_states(grid, potential, count=count)
+    if max(atom.initial_state) >= len(states):
+        raise InputError(
+            f"state {max(atom.initial_state)} requested but the model has {len(states)} bound states on this grid",
+            "atom.initial_state",
+            config.source,
+        )
+    ip = -float(states.energies[initial])
+    if ip > 0:
+        pulses, _ = model_estimates(potential, field, ip)
+
+    prop = config.propagation
+    dt = prop.time_step if prop.time_step is not None else advice.time_step
+    if prop.after_pulse is not None:
+        after = prop.after_pulse
+    elif field.pulses:
+        after = AFTER_PULSE_CYCLES * 2 * math.pi / field.omega
+    else:
+        after = FIELD_FREE_DURATION
+    start = field.start
+    end = field.end + after
+    steps = max(1, int(math.ceil((end - start) / dt - 1e-9)))
+    for p in field.pulses:
+        if isinstance(p, TabulatedPulse) and abs(p.area) > 1e-6 * max(p.peak_field, 1e-300) * (p.end - p.start):
+            notes.append(
+                f"the tabulated field has a non-zero area, int E dt = {p.area:.3e} a.u., so A = {-p.area:.3e} a.u. "
+                "remains after the pulse"
+            )
+    return Problem(
+        config=config,
+        grid=grid,
+        potential=potential,
+        field=field,
+        time=TimeAxis(start, end, steps),
+        states=states,
+        pulse_estimates=tuple(pulses),
+        advice=advice,
+        warnings=tuple(notes),
+    )

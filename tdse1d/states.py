@@ -1,0 +1,259 @@
+"""Bound states of the model on the run's own Fourier grid.
+
+The Hamiltonian is H = T + V with the Fourier-grid kinetic operator T = F^-1 (k^2/2) F,
+the same operator the split-operator propagator applies (Kosloff, J. Phys. Chem. 92,
+2087 (1988), from memory), so the states found here are stationary under propagation to
+the accuracy of the time step.
+
+Method: bound states are localised, so they are first found by dense diagonalisation
+(LAPACK via :func:`scipy.linalg.eigh`) of H on a window of the grid around the origin
+(the whole grid when it is small). When the grid is larger than the window, the window
+eigenvectors are padded to the full grid and refined with LOBPCG (Knyazev, SIAM J. Sci.
+Comput. 23, 517 (2001)) using H applied by FFT and a kinetic-energy preconditioner,
+until the eigenvalue residual corresponds to an energy error below ``tolerance``.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+from scipy.optimize import brentq
+from scipy.sparse.linalg import LinearOperator, lobpcg
+
+from .grid import Grid
+from .potentials import Potential
+
+__all__ = [
+    "BoundStates",
+    "kinetic_matrix",
+    "hamiltonian_matrix",
+    "bound_states",
+    "ground_state_energy",
+    "fit_softening",
+    "initial_wavefunction",
+    "SofteningFitError",
+]
+
+#: half-width (bohr) of the window in which states are looked for
+STATE_WINDOW = 150.0
+#: half-width (bohr) of the window used while fitting a softening (ground state only)
+FIT_WINDOW = 40.0
+#: most points of a dense window (the dense solve costs points^3)
+MAX_WINDOW_POINTS = 2048
+#: most bound states kept when their number is "auto"
+MAX_AUTO_STATES = 30
+
+
+class SofteningFitError(ValueError):
+    """No softening gives the requested ionization potential."""
+
+
+@dataclass(frozen=True)
+class BoundStates:
+    """Bound states on a grid.
+
+    Attributes
+    ----------
+    energies : ndarray, shape (n,)
+        Eigenvalues in Hartree, ascending.
+    wavefunctions : ndarray, shape (n, points)
+        Real eigenfunctions normalised to sum |phi|^2 dx = 1, each with its largest
+        component positive.
+    grid : Grid
+    """
+
+    energies: np.ndarray
+    wavefunctions: np.ndarray
+    grid: Grid
+
+    def __len__(self):
+        return len(self.energies)
+
+
+def kinetic_matrix(points: int, spacing: float) -> np.ndarray:
+    """Dense Fourier-grid kinetic matrix (Hartree) of a periodic grid.
+
+    T is circulant: its first column is the inverse FFT of k^2/2.
+    """
+    k = 2 * np.pi * np.fft.fftfreq(points, spacing)
+    column = np.fft.ifft(0.5 * k**2).real
+    return scipy.linalg.circulant(column)
+
+
+def hamiltonian_matrix(grid: Grid, potential: Potential) -> np.ndarray:
+    """Dense H = T + V on ``grid`` (for small grids and independent checks)."""
+    h = kinetic_matrix(grid.points, grid.spacing)
+    h[np.diag_indices_from(h)] += potential.value(grid.x)
+    return h
+
+
+def _window(grid: Grid, half_width: float) -> tuple[Grid, slice]:
+    n = min(grid.points, MAX_WINDOW_POINTS, 2 * int(np.ceil(half_width / grid.spacing)))
+    n = max(n + n % 2, 16)
+    if n >= grid.points:
+        return grid, slice(0, grid.points)
+    start = grid.points // 2 - n // 2
+    return Grid(n, grid.spacing), slice(start, start + n)
+
+
+def _dense_states(grid: Grid, potential: Potential, count: int | None):
+    h = hamiltonian_matrix(grid, potential)
+    if count is None:
+        energies, vectors = scipy.linalg.eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
+        energies, vectors = energies[:MAX_AUTO_STATES], vectors[:, :MAX_AUTO_STATES]
+        if len(energies) == 0:  # e.g. a harmonic trap: keep its lowest levels
+            energies, vectors = scipy.linalg.eigh(h, subset_by_index=(0, 9), driver="evr")
+    else:
+        count = min(count, grid.points)
+        energies, vectors = scipy.linalg.eigh(h, subset_by_index=(0, count - 1), driver="evr")
+    return energies, vectors
+
+
+def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: float):
+    """LOBPCG refinement of approximate eigenvectors (columns of ``guess``) on ``grid``."""
+    v = potential.value(grid.x)
+    t = grid.kinetic_energy()
+    shift = max(1.0, -float(v.min()))
+
+    def apply_h(block):
+        block = block.reshape(grid.points, -1)
+        out = np.fft.ifft(t[:, None] * np.fft.fft(block, axis=0), axis=0).real
+        return out + v[:, None] * block
+
+    def apply_precond(block):
+        block = block.reshape(grid.points, -1)
+        return np.fft.ifft(np.fft.fft(block, axis=0) / (t[:, None] + shift), axis=0).real
+
+    op = LinearOperator((grid.points,) * 2, matvec=apply_h, matmat=apply_h, dtype=float)
+    pre = LinearOperator((grid.points,) * 2, matvec=apply_precond, matmat=apply_precond, dtype=float)
+    # energy error ~ |residual|^2 / gap; ask for a residual well below sqrt(tolerance)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        energies, vectors = lobpcg(
+            op, guess, M=pre, tol=0.1 * np.sqrt(tolerance), maxiter=400, largest=False
+        )
+    order = np.argsort(energies)
+    return energies[order], vectors[:, order]
+
+
+def _normalise(vectors: np.ndarray, spacing: float) -> np.ndarray:
+    vectors = vectors / np.sqrt(np.sum(vectors**2, axis=0) * spacing)
+    peak = np.argmax(np.abs(vectors), axis=0)
+    signs = np.sign(vectors[peak, np.arange(vectors.shape[1])])
+    return (vectors * signs).T.copy()
+
+
+def bound_states(
+    grid: Grid,
+    potential: Potential,
+    count: int | None = None,
+    tolerance: float = 1e-10,
+    window: float = STATE_WINDOW,
+) -> BoundStates:
+    """Lowest eigenstates of H = T + V on ``grid``.
+
+    Parameters
+    ----------
+    grid : Grid
+    potential : Potential
+    count : int, optional
+        Number of states. By default all states with E < 0 that fit in the window
+        (at most :data:`MAX_AUTO_STATES`).
+    tolerance : float
+        Energy accuracy (Hartree) asked of the refinement on large grids.
+    window : float
+        Half-width (bohr) of the region where the states are first looked for.
+
+    Returns
+    -------
+    BoundStates
+    """
+    sub, where = _window(grid, window)
+    energies, vectors = _dense_states(sub, potential, count)
+    if sub.points < grid.points:
+        guess = np.zeros((grid.points, vectors.shape[1]))
+        guess[where] = vectors
+        energies, vectors = _refine(grid, potential, guess, tolerance)
+    return BoundStates(np.asarray(energies), _normalise(vectors, grid.spacing), grid)
+
+
+def ground_state_energy(grid: Grid, potential: Potential, window: float = FIT_WINDOW) -> float:
+    """Lowest eigenvalue of H on ``grid`` (Hartree), via a dense window solve."""
+    sub, _ = _window(grid, window)
+    h = hamiltonian_matrix(sub, potential)
+    return float(scipy.linalg.eigh(h, eigvals_only=True, subset_by_index=(0, 0), driver="evr")[0])
+
+
+def fit_softening(
+    grid: Grid,
+    potential: Potential,
+    ionization_potential: float,
+    bracket: tuple[float, float] = (1e-3, 50.0),
+    tolerance: float = 1e-10,
+) -> float:
+    """Softening a for which the ground-state energy on ``grid`` is -Ip.
+
+    Root finding (Brent's method) on E0(a) + Ip, which increases monotonically with a.
+
+    Parameters
+    ----------
+    grid : Grid
+    potential : Potential
+        A potential with a softening (``with_softening``).
+    ionization_potential : float
+        Ip in Hartree (> 0).
+    bracket : (float, float)
+        Range of softenings searched (bohr).
+    tolerance : float
+        Accuracy of the ground-state energy at the root (Hartree).
+
+    Raises
+    ------
+    SofteningFitError
+        If Ip is out of the reach of the model on this grid.
+    """
+
+    def mismatch(a):
+        return ground_state_energy(grid, potential.with_softening(a)) + ionization_potential
+
+    lo, hi = bracket
+    f_lo, f_hi = mismatch(lo), mismatch(hi)
+    if f_lo > 0 or f_hi < 0:
+        deepest = -(f_lo - ionization_potential)
+        shallowest = -(f_hi - ionization_potential)
+        raise SofteningFitError(
+            f"an ionization potential of {ionization_potential:.6g} Hartree is out of reach of this model on "
+            f"this grid: softenings from {lo:g} to {hi:g} bohr give {shallowest:.4g} to {deepest:.4g} Hartree "
+            "(change the charge, or use a finer grid for deep states)"
+        )
+    # the energy is smooth in a; ask for a far tighter root than the energy tolerance
+    return float(brentq(mismatch, lo, hi, xtol=1e-14, rtol=1e-14, maxiter=200))
+
+
+def initial_wavefunction(states: BoundStates, indices, amplitudes=None, phases=None) -> np.ndarray:
+    """Normalised initial wavefunction: one bound state or a superposition.
+
+    Parameters
+    ----------
+    states : BoundStates
+    indices : sequence of int
+        Which states.
+    amplitudes, phases : sequence of float, optional
+        Relative amplitudes and phases (rad); equal amplitudes and zero phases by default.
+
+    Returns
+    -------
+    ndarray of complex, shape (points,)
+    """
+    indices = list(indices)
+    if max(indices) >= len(states):
+        raise IndexError(f"initial state {max(indices)} requested but only {len(states)} bound states were found")
+    amplitudes = np.ones(len(indices)) if amplitudes is None else np.asarray(amplitudes, dtype=float)
+    phases = np.zeros(len(indices)) if phases is None else np.asarray(phases, dtype=float)
+    coeffs = amplitudes * np.exp(1j * phases)
+    coeffs = coeffs / np.sqrt(np.sum(np.abs(coeffs) ** 2))
+    psi = np.tensordot(coeffs, states.wavefunctions[indices], axes=1).astype(complex)
+    return psi / np.sqrt(np.sum(np.abs(psi) ** 2) * states.grid.spacing)

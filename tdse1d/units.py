@@ -1,0 +1,239 @@
+"""Conversions between laboratory units and atomic units.
+
+Everything inside tdse1d is in Hartree atomic units (hbar = m_e = e = 4 pi eps0 = 1).
+This module is the one place where laboratory units enter or leave. All constants are
+CODATA values taken from :mod:`scipy.constants`; the unit *parser* (pint) is used only
+to turn a string such as ``"800 nm"`` into SI, never for the atomic-unit constants.
+
+Conventions
+-----------
+* Peak intensity means the cycle-averaged intensity of a linearly polarised field of
+  peak amplitude E0: ``I = c * eps0 * E0**2 / 2``. With this definition the atomic unit
+  of intensity (E0 = 1 a.u.) is 3.51e16 W/cm^2.
+* Photon energies and frequencies are angular: ``omega = 2 pi c / lambda`` and the
+  photon energy is ``hbar * omega`` (in a.u. the two are the same number).
+* ``"au"`` or ``"a.u."`` after a number means atomic units of the quantity's own
+  dimension (pint would read ``au`` as the astronomical unit, so it is handled here).
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+import re
+
+import scipy.constants as sc
+
+__all__ = [
+    "HARTREE_EV",
+    "BOHR_M",
+    "AU_TIME_S",
+    "AU_FIELD_V_M",
+    "AU_INTENSITY_W_CM2",
+    "FINE_STRUCTURE",
+    "SPEED_OF_LIGHT_AU",
+    "UnitError",
+    "DIMENSIONS",
+    "to_atomic",
+    "from_atomic",
+    "ev_to_au",
+    "au_to_ev",
+    "fs_to_au",
+    "au_to_fs",
+    "nm_to_omega",
+    "omega_to_nm",
+    "intensity_to_field",
+    "field_to_intensity",
+    "optical_period",
+]
+
+HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]
+HARTREE_J = sc.physical_constants["Hartree energy"][0]
+BOHR_M = sc.physical_constants["Bohr radius"][0]
+AU_TIME_S = sc.physical_constants["atomic unit of time"][0]
+AU_FIELD_V_M = sc.physical_constants["atomic unit of electric field"][0]
+AU_MOMENTUM = sc.physical_constants["atomic unit of momentum"][0]
+FINE_STRUCTURE = sc.physical_constants["fine-structure constant"][0]
+SPEED_OF_LIGHT_AU = 1.0 / FINE_STRUCTURE
+#: cycle-averaged intensity of a field of 1 a.u. amplitude, W/m^2 and W/cm^2
+AU_INTENSITY_W_M2 = 0.5 * sc.c * sc.epsilon_0 * AU_FIELD_V_M**2
+AU_INTENSITY_W_CM2 = AU_INTENSITY_W_M2 * 1e-4
+
+
+class UnitError(ValueError):
+    """A quantity could not be read or has the wrong dimension."""
+
+
+class Dimension:
+    """One physical dimension a quantity may have.
+
+    Parameters
+    ----------
+    name : str
+        Name used in messages, e.g. ``"time"``.
+    si_unit : str
+        The pint expression of the SI unit the quantity is converted to.
+    au_in_si : float
+        The size of one atomic unit of this dimension in ``si_unit``.
+    example : str
+        An example written with a customary unit, shown in error messages.
+    """
+
+    def __init__(self, name: str, si_unit: str, au_in_si: float, example: str):
+        self.name = name
+        self.si_unit = si_unit
+        self.au_in_si = au_in_si
+        self.example = example
+
+
+#: The dimensions quantities in input files can have, keyed by name.
+DIMENSIONS: dict[str, Dimension] = {
+    d.name: d
+    for d in (
+        Dimension("length", "m", BOHR_M, '"800 nm"'),
+        Dimension("time", "s", AU_TIME_S, '"10 fs"'),
+        Dimension("energy", "J", HARTREE_J, '"15.76 eV"'),
+        Dimension("intensity", "W/m^2", AU_INTENSITY_W_M2, '"1.6e14 W/cm^2"'),
+        Dimension("electric_field", "V/m", AU_FIELD_V_M, '"5e10 V/m"'),
+        Dimension("momentum", "kg*m/s", AU_MOMENTUM, '"1 au"'),
+        # d(omega)/dt, the rate of a linear chirp: a.u. are 1/time^2
+        Dimension("chirp_rate", "1/s^2", AU_TIME_S**-2, '"1e-3 fs^-2"'),
+        Dimension("angle", "radian", 1.0, '"0.5 rad"'),
+    )
+}
+
+_ATOMIC = re.compile(r"^\s*(?P<num>[-+0-9.eE]+)\s*(a\.u\.|au)\s*$")
+
+
+@functools.lru_cache(maxsize=1)
+def _registry():
+    import pint  # imported lazily: building the registry costs about a second
+
+    ureg = pint.UnitRegistry()
+    return ureg
+
+
+def to_atomic(value, dimension: str, *, bare_allowed: bool = True) -> float:
+    """Convert a number or a string with a unit to atomic units.
+
+    Parameters
+    ----------
+    value : float, int or str
+        A bare number (already in atomic units) or a string such as ``"800 nm"``,
+        ``"1.6e14 W/cm^2"``, ``"0.057 au"``.
+    dimension : str
+        A key of :data:`DIMENSIONS`.
+    bare_allowed : bool
+        When False a bare number is refused, for quantities that have a customary
+        laboratory unit (wavelength, intensity, duration, delay).
+
+    Returns
+    -------
+    float
+        The value in atomic units of ``dimension``.
+
+    Raises
+    ------
+    UnitError
+        If the string cannot be parsed, has the wrong dimension, or is a bare number
+        where a unit is required.
+    """
+    dim = DIMENSIONS[dimension]
+    if isinstance(value, bool):
+        raise UnitError(f"expected a {dim.name} such as {dim.example}, got {value!r}")
+    if isinstance(value, (int, float)):
+        if not bare_allowed:
+            raise UnitError(
+                f"a bare number is ambiguous for a {dim.name}; write it with a unit, "
+                f"e.g. {dim.example}"
+            )
+        return float(value)
+    if not isinstance(value, str):
+        raise UnitError(f"expected a {dim.name} such as {dim.example}, got {value!r}")
+    match = _ATOMIC.match(value)
+    if match:
+        try:
+            return float(match.group("num"))
+        except ValueError:
+            raise UnitError(f"cannot read the number in {value!r}") from None
+    ureg = _registry()
+    try:
+        quantity = ureg.Quantity(value.replace("^", "**"))
+    except Exception as exc:  # pint raises several unrelated exception types
+        raise UnitError(f"cannot read {value!r} as a {dim.name} ({exc})") from None
+    if not hasattr(quantity, "to"):
+        raise UnitError(f"cannot read {value!r} as a {dim.name}")
+    if quantity.dimensionless and dim.name not in ("angle",):
+        if not bare_allowed:
+            raise UnitError(
+                f"{value!r} has no unit; write the {dim.name} with a unit, e.g. {dim.example}"
+            )
+        return float(quantity.magnitude)
+    try:
+        si = quantity.to(dim.si_unit).magnitude
+    except Exception:
+        # An energy-per-time chirp rate (e.g. eV/fs) is d(hbar omega)/dt.
+        if dim.name == "chirp_rate":
+            try:
+                return float(quantity.to("J/s").magnitude / HARTREE_J * AU_TIME_S)
+            except Exception:
+                pass
+        raise UnitError(
+            f"{value!r} is not a {dim.name} (expected something like {dim.example})"
+        ) from None
+    return float(si) / dim.au_in_si
+
+
+def from_atomic(value: float, dimension: str, unit: str) -> float:
+    """Convert a value in atomic units of ``dimension`` to ``unit`` (a pint expression)."""
+    dim = DIMENSIONS[dimension]
+    ureg = _registry()
+    return float(ureg.Quantity(value * dim.au_in_si, dim.si_unit).to(unit).magnitude)
+
+
+def ev_to_au(energy_ev: float) -> float:
+    """Energy in eV to Hartree."""
+    return energy_ev / HARTREE_EV
+
+
+def au_to_ev(energy_au):
+    """Energy in Hartree to eV (works on arrays)."""
+    return energy_au * HARTREE_EV
+
+
+def fs_to_au(time_fs: float) -> float:
+    """Time in femtoseconds to atomic units of time."""
+    return time_fs * 1e-15 / AU_TIME_S
+
+
+def au_to_fs(time_au):
+    """Time in atomic units to femtoseconds (works on arrays)."""
+    return time_au * AU_TIME_S * 1e15
+
+
+def nm_to_omega(wavelength_nm: float) -> float:
+    """Vacuum wavelength in nm to angular frequency (= photon energy) in a.u."""
+    return 2 * math.pi * sc.c / (wavelength_nm * 1e-9) * AU_TIME_S
+
+
+def omega_to_nm(omega_au):
+    """Angular frequency in a.u. to vacuum wavelength in nm."""
+    return 2 * math.pi * sc.c / (omega_au / AU_TIME_S) * 1e9
+
+
+def intensity_to_field(intensity_w_cm2: float) -> float:
+    """Cycle-averaged intensity in W/cm^2 to peak field amplitude in a.u.
+
+    Uses ``I = c eps0 E0^2 / 2`` for a linearly polarised field.
+    """
+    return math.sqrt(intensity_w_cm2 / AU_INTENSITY_W_CM2)
+
+
+def field_to_intensity(field_au: float) -> float:
+    """Peak field amplitude in a.u. to cycle-averaged intensity in W/cm^2."""
+    return field_au**2 * AU_INTENSITY_W_CM2
+
+
+def optical_period(omega_au: float) -> float:
+    """Optical period 2 pi / omega in a.u. of time."""
+    return 2 * math.pi / omega_au
