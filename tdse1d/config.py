@@ -183,7 +183,8 @@ def _read_value(raw, spec: Spec, path: str):
 def _read_table(cls, table, path: str, nested: dict | None = None):
     """Validate one TOML table against the dataclass ``cls`` whose fields carry specs.
 
-    ``nested`` maps sub-table names to a callable reading them (arrays of tables).
+    ``nested`` maps sub-table names to ``(field name, reader)``: the dataclass field
+    that receives the sub-table and a callable reading it (arrays of tables).
     """
     if not isinstance(table, dict):
         raise InputError(f"must be a table, got {type(table).__name__}", path)
@@ -201,9 +202,9 @@ def _read_table(cls, table, path: str, nested: dict | None = None):
             values[name] = _read_value(table[name], f.metadata["spec"], _join(path, name))
         elif f.default is dataclasses.MISSING:
             raise InputError(f"missing required key ({f.metadata['spec'].doc})", _join(path, name))
-    for name, reader in nested.items():
+    for name, (target, reader) in nested.items():
         if name in table:
-            values[name] = reader(table[name], _join(path, name))
+            values[target] = reader(table[name], _join(path, name))
     return cls(**values)
 
 
@@ -434,7 +435,7 @@ _SECTIONS = {
 
 def _read_atom(table, path):
     atom = _read_table(
-        AtomConfig, table, path, nested={"centre": lambda t, p: _read_array(CentreConfig, t, p)}
+        AtomConfig, table, path, nested={"centre": ("centres", lambda t, p: _read_array(CentreConfig, t, p))}
     )
     centres = atom.centres
     if atom.model == "soft-core":
