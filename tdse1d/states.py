@@ -136,7 +136,9 @@ def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: floa
             op, guess, M=pre, tol=0.1 * np.sqrt(tolerance), maxiter=400, largest=False
         )
     order = np.argsort(energies)
-    return energies[order], vectors[:, order]
+    energies, vectors = energies[order], vectors[:, order]
+    residuals = np.linalg.norm(apply_h(vectors) - vectors * energies, axis=0) / np.linalg.norm(vectors, axis=0)
+    return energies, vectors, residuals
 
 
 def _normalise(vectors: np.ndarray, spacing: float) -> np.ndarray:
@@ -161,7 +163,8 @@ def bound_states(
     potential : Potential
     count : int, optional
         Number of states. By default all states with E < 0 that fit in the window
-        (at most :data:`MAX_AUTO_STATES`).
+        (at most :data:`MAX_AUTO_STATES`); on a grid larger than the window, only the
+        lowest of these whose refinement converged.
     tolerance : float
         Energy accuracy (Hartree) asked of the refinement on large grids.
     window : float
@@ -176,7 +179,14 @@ def bound_states(
     if sub.points < grid.points:
         guess = np.zeros((grid.points, vectors.shape[1]))
         guess[where] = vectors
-        energies, vectors = _refine(grid, potential, guess, tolerance)
+        energies, vectors, residuals = _refine(grid, potential, guess, tolerance)
+        if count is None:
+            # Near-threshold states of the window are box states; on the larger grid they
+            # crowd together and LOBPCG may leave some unconverged (even at E > 0). Keep
+            # the leading states that converged and are bound.
+            good = (residuals <= 0.1 * np.sqrt(tolerance)) & (energies < 0)
+            keep = len(good) if good.all() else max(int(np.argmin(good)), 1)
+            energies, vectors = energies[:keep], vectors[:, :keep]
     return BoundStates(np.asarray(energies), _normalise(vectors, grid.spacing), grid)
 
 
