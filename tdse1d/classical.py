@@ -319,7 +319,13 @@ class ThreeStepSummary:
         ``(k, 2)`` with columns emission (first return) time and photon
         energy ``Ip + E_return``, sorted by photon energy.  The branches of a
         half cycle are split at its largest first-return energy; that point
-        belongs to both.
+        belongs to both.  Half cycles are delimited by sign changes of the
+        field at birth.
+
+    Notes
+    -----
+    Quantities that need a return are NaN, and the branches empty, when no
+    trajectory returns.
     """
 
     max_return_energy: float
@@ -360,17 +366,11 @@ def summary(traj, ionization_potential):
         raise ValueError(f"ionization_potential must be positive and finite, got {ip}")
 
     t0 = traj.birth_time
-    cutoff = max(
-        (_refined_peak(t0, traj.return_energy[:, k], traj.return_time[:, k])
-         for k in range(traj.max_returns)),
-        key=lambda peak: peak[1],
-    )
+    cutoff = _highest(_refined_peak(t0, traj.return_energy[:, k], traj.return_time[:, k])
+                      for k in range(traj.max_returns))
     direct = _refined_peak(t0, 0.5 * traj.drift_momentum ** 2)
-    backscattered = max(
-        (_refined_peak(t0, 0.5 * traj.backscattered_momentum[:, k] ** 2)
-         for k in range(traj.max_returns)),
-        key=lambda peak: peak[1],
-    )
+    backscattered = _highest(_refined_peak(t0, 0.5 * traj.backscattered_momentum[:, k] ** 2)
+                             for k in range(traj.max_returns))
     short_branch, long_branch = _emission_branches(traj, ip)
     return ThreeStepSummary(
         max_return_energy=cutoff[1],
@@ -382,6 +382,11 @@ def summary(traj, ionization_potential):
         short_branch=short_branch,
         long_branch=long_branch,
     )
+
+
+def _highest(peaks):
+    """The peak with the largest value; NaN peaks (no returns) lose."""
+    return max(peaks, key=lambda peak: -np.inf if np.isnan(peak[1]) else peak[1])
 
 
 def _refined_peak(x, y, companion=None):
