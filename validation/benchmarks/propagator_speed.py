@@ -1,0 +1,87 @@
+"""Microseconds per split-operator step against the floor for the same grid size.
+
+The step is the length-gauge Strang step with every per-step observable (norm, dipole,
+momentum, acceleration, initial-state population) and the absorber. The floor is what
+no split-operator step can beat: two planned in-place pyfftw transforms plus three
+point-wise complex products on arrays of the same size.
+
+Run: python validation/benchmarks/propagator_speed.py [--repeats R]
+Prints a table N | step (us) | floor (us) | ratio. Target at N = 4096: ratio <= 2.0.
+"""
+
+from __future__ import annotations
+
+import argparse
+import platform
+import time
+
+import numpy as np
+
+from tdse1d.absorb import CosineMask
+from tdse1d.fft import InPlaceFFT
+from tdse1d.grid import Grid
+from tdse1d.potentials import Centre, SoftCore
+from tdse1d.propagate import Propagator, Strang
+from tdse1d.pulses import AnalyticPulse, Field, Sin2
+
+
+def best_of(fn, repeats):
+    best = np.inf
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        count = fn()
+        best = min(best, (time.perf_counter() - t0) / count)
+    return best * 1e6
+
+
+def floor_time(n, steps, repeats):
+    fft = InPlaceFFT(n)
+    fft.data[:] = np.exp(1j * np.linspace(0, 1, n))
+    a = np.exp(-1j * np.linspace(0, 1, n)) * (1 / np.sqrt(n))
+    b, c = a.copy(), a.copy()
+    psi = fft.data
+
+    def run():
+        for _ in range(steps):
+            np.multiply(psi, a, out=psi)
+            fft.forward()
+            np.multiply(psi, b, out=psi)
+            fft.backward()
+            np.multiply(psi, c, out=psi)
+        return steps
+
+    run()
+    return best_of(run, repeats)
+
+
+def step_time(n, steps, repeats):
+    grid = Grid(n, 0.2)
+    pot = SoftCore((Centre(0.0, 1.0, 1.0),))
+    omega = 0.057
+    field = Field([AnalyticPulse(Sin2(100 * 2 * np.pi / omega), omega, 0.05)])
+    times = field.start + 0.05 * np.arange(steps * (repeats + 1) + 1)
+    psi0 = np.exp(-grid.x**2).astype(complex)
+    psi0 /= np.sqrt(np.sum(abs(psi0) ** 2) * grid.spacing)
+    mask = CosineMask().step_factor(grid, 0.1 * grid.half_width, 0.05)
+    prop = Propagator(grid, pot, field, times, "length", Strang, absorber_factor=mask, reference=psi0)
+    prop.start(psi0)
+    prop.advance(steps)  # warm-up (numba compilation, caches)
+    return best_of(lambda: prop.advance(steps), repeats)
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--repeats", type=int, default=5)
+    parser.add_argument("--sizes", type=int, nargs="*", default=[1024, 2048, 4096, 8192, 16384, 32768, 65536])
+    args = parser.parse_args()
+    print(f"machine: {platform.processor() or platform.machine()}, python {platform.python_version()}, numpy {np.__version__}")
+    print(f"{'N':>7} {'step (us)':>10} {'floor (us)':>11} {'ratio':>6}")
+    for n in args.sizes:
+        steps = max(20, int(2e6 / n))
+        floor = floor_time(n, steps, args.repeats)
+        step = step_time(n, steps, args.repeats)
+        print(f"{n:>7} {step:>10.1f} {floor:>11.1f} {step / floor:>6.2f}", flush=True)
+
+
+if __name__ == "__main__":
+    main()
