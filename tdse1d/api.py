@@ -11,13 +11,14 @@ Each command of the ``tdse1d`` program is a thin layer over one of these::
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 
 from .config import RunConfig, load_input
 from .estimates import GridAdvice, PulseEstimate, estimates_json
 from .problem import Problem, build_problem
 from .states import BoundStates
 
-__all__ = ["load_input", "states", "estimate", "StatesResult", "EstimateResult"]
+__all__ = ["load_input", "states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path"]
 
 
 @dataclass(frozen=True)
@@ -81,3 +82,55 @@ def estimate(config: RunConfig | str) -> EstimateResult:
     if not isinstance(config, RunConfig):
         config = load_input(config)
     return EstimateResult(build_problem(config, with_states=False))
+
+
+@dataclass(frozen=True)
+class RunOutcome:
+    """A finished run: where its file is, what was run, and what came out."""
+
+    path: Path
+    problem: Problem
+    result: object
+
+
+def output_path(config: RunConfig, output=None) -> Path:
+    """Result file of a run: ``output``, else ``output.file``, else INPUT-STEM.h5 here."""
+    if output is not None:
+        return Path(output)
+    if config.output.file is not None:
+        return Path(config.output.file)
+    return Path(Path(config.source).stem + ".h5")
+
+
+def run(config: RunConfig | str, output=None, progress=None, overrides=()) -> RunOutcome:
+    """Run the full quantum simulation of an input and write its HDF5 result.
+
+    Parameters
+    ----------
+    config : RunConfig or path
+    output : path, optional
+        Result file (see :func:`output_path`).
+    progress : callable, optional
+        ``progress(step, steps)``.
+
+    Returns
+    -------
+    RunOutcome
+    """
+    if not isinstance(config, RunConfig):
+        config = load_input(config, overrides)
+    return run_problem(build_problem(config), output, progress)
+
+
+def run_problem(problem: Problem, output=None, progress=None) -> RunOutcome:
+    """:func:`run` for an already assembled :class:`~tdse1d.problem.Problem`."""
+    from .runner import simulate, snapshot_steps
+    from .store import ResultWriter
+
+    path = output_path(problem.config, output)
+    snap_times = problem.time.times[snapshot_steps(problem)]
+    with ResultWriter(path, problem, snap_times) as writer:
+        result = simulate(problem, sink=writer, progress=progress)
+        writer.write_result(result)
+        writer.close()
+    return RunOutcome(path, problem, result)

@@ -16,11 +16,13 @@ import sys
 
 from . import __version__
 from .config import InputError
+from .propagate import NumericalError
 
 #: command name -> module implementing it
 COMMANDS = {
     "states": "tdse1d.commands.states",
     "estimate": "tdse1d.commands.estimate",
+    "run": "tdse1d.commands.run",
 }
 
 EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
@@ -78,6 +80,11 @@ def main(argv=None) -> int:
             raise
         print(f"tdse1d: error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except NumericalError as exc:
+        if debug:
+            raise
+        print(f"tdse1d: numerical failure: {exc}", file=sys.stderr)
+        return EXIT_FAILURE
     except CommandError as exc:
         if debug:
             raise

@@ -386,6 +386,10 @@ class SpectraConfig:
     """How spectra are computed (``[spectra]``)."""
 
     window: str = key(Spec("choice", choices=_window_names, doc="window of the harmonic spectrum"), "hann")
+    photoelectrons: str = key(
+        Spec("choice", choices=("mask", "none"), doc="collect absorbed electrons for the photoelectron spectrum"),
+        "mask",
+    )
 
 
 @dataclass(frozen=True)

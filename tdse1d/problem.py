@@ -161,7 +161,10 @@ def model_estimates(potential: Potential, field: Field, ionization_potential: fl
     """Semiclassical estimates for each pulse of ``field`` and the grid they call for."""
     from .classical import barrier_suppression_field
 
-    bsi = barrier_suppression_field(potential, -ionization_potential)
+    try:
+        bsi = barrier_suppression_field(potential, -ionization_potential)
+    except ValueError:  # a confining trap (harmonic oscillator) has no barrier to suppress
+        bsi = math.nan
     pulses = [pulse_estimate(p.omega, p.peak_field, ionization_potential, bsi) for p in field.pulses]
     depth = -float(np.min(potential.value(np.linspace(-20, 20, 4001))))
     return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0))

@@ -186,6 +186,14 @@ class Propagator:
         State whose population is recorded every step (the initial state).
     fft_effort : str
         FFTW planner flag.
+    absorb_every : int
+        Apply the absorber every this many steps (as M^absorb_every), e.g. so that the
+        removed parts can be handed to ``on_absorb`` less often.
+    on_absorb : callable, optional
+        ``on_absorb(step, removed_left, removed_right)`` after each absorbing step, with
+        the parts the absorber removed on each side (full-grid arrays, zero inside the
+        box; in the length gauge multiplied by exp(-i A x), so that the grid momentum is
+        the canonical one). The arrays are reused: copy what you keep.
 
     Notes
     -----
@@ -195,7 +203,8 @@ class Propagator:
     """
 
     def __init__(self, grid: Grid, potential, field, times, gauge="length", scheme=None,
-                 absorber_factor=None, reference=None, fft_effort="FFTW_MEASURE"):
+                 absorber_factor=None, reference=None, fft_effort="FFTW_MEASURE",
+                 absorb_every=1, on_absorb=None):
         if gauge not in ("length", "velocity"):
             raise ValueError(f"gauge must be 'length' or 'velocity', got {gauge!r}")
         times = np.asarray(times, dtype=float)
@@ -226,6 +235,23 @@ class Propagator:
         self._mask = np.ones(n) if absorber_factor is None else np.ascontiguousarray(absorber_factor, dtype=float)
         if self._mask.shape != (n,) or np.any(self._mask <= 0) or np.any(self._mask > 1):
             raise ValueError("absorber_factor must hold values in (0, 1] on the grid")
+        if int(absorb_every) != absorb_every or absorb_every < 1:
+            raise ValueError(f"absorb_every must be a positive integer, got {absorb_every}")
+        self.absorb_every = int(absorb_every)
+        self._on_absorb = on_absorb
+        self._mask_apply = self._mask ** self.absorb_every
+        self._mask_none = np.ones(n)
+        edge = np.flatnonzero(self._mask < 1)
+        self._edge_left = edge[edge < n // 2]
+        self._edge_right = edge[edge >= n // 2]
+        self._removed_left = np.zeros(n, complex)
+        self._removed_right = np.zeros(n, complex)
+        self._edge_gain = {}
+        for side, idx in (("left", self._edge_left), ("right", self._edge_right)):
+            m = self._mask_apply[idx]
+            self._edge_gain[side] = (1 - m) / m  # removed = kept * (1 - M) / M
+        self._edge_phase = {"left": np.zeros(len(self._edge_left), complex),
+                            "right": np.zeros(len(self._edge_right), complex)}
         self._reference = np.ascontiguousarray(
             np.zeros(n, complex) if reference is None else np.asarray(reference, dtype=complex)
         )
@@ -375,9 +401,14 @@ class Propagator:
                     fft.backward()
                 else:
                     rc, rf = self._velocity_reference_phase(obs.vector_potential[n + 1])
+                    absorbing = (n + 1) % self.absorb_every == 0
                     s0, s1, s2, ovr, ovi = kernels.kick_observe(
-                        psi, self._v_kick[i], kc, kf, block, self._mask, self._x, self._grad, self._v_ref, rc, rf
+                        psi, self._v_kick[i], kc, kf, block,
+                        self._mask_apply if absorbing else self._mask_none,
+                        self._x, self._grad, self._v_ref, rc, rf,
                     )
+                    if absorbing and self._on_absorb is not None:
+                        self._hand_over_removed(n + 1)
             self._record_momentum(n)
             self.step_index = n + 1
             self._record_position(n + 1, s0, s1, s2, complex(ovr, ovi))
@@ -386,6 +417,22 @@ class Propagator:
                     f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")
                 raise NumericalError(what, n + 1, float(self.times[n + 1]))
         return count
+
+    def _hand_over_removed(self, n):
+        a = float(self.observables.vector_potential[n])
+        out = []
+        for side, idx, buf in (("left", self._edge_left, self._removed_left),
+                               ("right", self._edge_right, self._removed_right)):
+            buf[idx] = self.psi[idx]
+            buf[idx] *= self._edge_gain[side]
+            if self.gauge == "length" and a != 0.0:
+                phase = self._edge_phase[side]
+                phase[:] = self._x[idx]
+                phase *= -1j * a
+                np.exp(phase, out=phase)
+                buf[idx] *= phase
+            out.append(buf)
+        self._on_absorb(n, out[0], out[1])
 
     def _record_momentum(self, n):
         """<p>(t_n) from <k> after the first potential kick of step n: that kick changes

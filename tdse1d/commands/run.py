@@ -1,0 +1,75 @@
+"""``tdse1d run INPUT``: the full quantum run, written to HDF5."""
+
+import sys
+import time
+
+from .. import api, units
+from ..cli import add_input_arguments
+from ..config import load_input
+from ..wisdom import fftw_wisdom
+
+HELP = "propagate the input's model atom through its pulses and write the HDF5 result"
+
+
+def add_arguments(parser):
+    add_input_arguments(parser)
+    parser.add_argument("-o", "--output", default=None, help="result file (default: output.file, else INPUT-STEM.h5)")
+    parser.add_argument("--quiet", action="store_true", help="no progress bar and no summary")
+
+
+class _ProgressBar:
+    """tqdm bar in simulated time, shown only on a terminal."""
+
+    def __init__(self, problem, enabled):
+        self.enabled = enabled
+        self.bar = None
+        self.problem = problem
+
+    def __call__(self, step, steps):
+        if not self.enabled:
+            return
+        if self.bar is None:
+            from tqdm import tqdm
+
+            t_fs = units.au_to_fs(self.problem.time.end - self.problem.time.start)
+            self.bar = tqdm(total=steps, unit="step", desc=f"propagating {t_fs:.1f} fs", file=sys.stderr,
+                            dynamic_ncols=True, smoothing=0.1)
+        self.bar.update(step - self.bar.n)
+        t = self.problem.time.times[step]
+        self.bar.set_postfix_str(f"t = {units.au_to_fs(t):.2f} fs", refresh=False)
+
+    def close(self):
+        if self.bar is not None:
+            self.bar.close()
+
+
+def main(args):
+    config = load_input(args.input, args.overrides)
+    show = not args.quiet and sys.stderr.isatty()
+    started = time.time()
+    from ..problem import build_problem
+
+    problem = build_problem(config)
+    for w in problem.warnings:
+        print(f"tdse1d: warning: {w}", file=sys.stderr)
+    bar = _ProgressBar(problem, show)
+    try:
+        with fftw_wisdom():
+            outcome = api.run_problem(problem, args.output, progress=bar)
+    finally:
+        bar.close()
+    if args.quiet:
+        return 0
+    p, r = outcome.problem, outcome.result
+    ev = units.HARTREE_EV
+    print(f"wrote {outcome.path} in {time.time() - started:.1f} s "
+          f"({p.time.steps} steps of {p.time.step:.4g} a.u., {p.grid.points} points of {p.grid.spacing:.4g} bohr)")
+    print(f"  initial-state energy   {-p.ionization_potential:.8f} Hartree ({-p.ionization_potential * ev:.4f} eV)")
+    print(f"  final norm             {r.observables.norm[-1]:.6f}")
+    print(f"  ionization probability {r.ionization_probability:.4e}  (absorbed {r.absorbed:.4e})")
+    if p.pulse_estimates and r.cutoff is not None:
+        est = p.pulse_estimates[0]
+        print(f"  harmonic cutoff        Ip + 3.17 Up = {est.cutoff_energy * ev:.2f} eV (order {est.cutoff_order:.1f}); "
+              f"read off the spectrum: {r.cutoff.frequency * ev:.2f} eV (order {r.cutoff.order:.1f})"
+              + ("" if r.cutoff.resolved else ", not resolved"))
+    return 0

@@ -1,0 +1,197 @@
+"""One full quantum run: propagate a :class:`~tdse1d.problem.Problem` and analyse it.
+
+:func:`simulate` drives the :class:`~tdse1d.propagate.Propagator` through the run in
+chunks, between which it records bound-state populations, hands snapshots to a sink
+(the HDF5 writer streams them to disk, so memory does not grow with their number),
+collects the electrons the absorber removes (mask method) and reports progress. No
+file is read or written here; the sink does that.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import spectra
+from .absorb import ABSORBERS
+from .propagate import Observables, Propagator, scheme_for_order
+from .problem import Problem
+from .states import initial_wavefunction
+
+__all__ = ["RunResult", "simulate", "snapshot_steps", "population_steps"]
+
+#: default bound-state projections per optical cycle of the first pulse
+POPULATIONS_PER_CYCLE = 20
+#: absorb every this many a.u. of time when the mask method collects electrons
+MASK_METHOD_INTERVAL = 0.2
+
+
+@dataclass
+class RunResult:
+    """What a run produced (atomic units).
+
+    Attributes
+    ----------
+    observables : Observables
+        Per-step time, field, norm, dipole, momentum, acceleration, initial population.
+    population_time : ndarray, shape (m,)
+    bound_population : ndarray, shape (m, n_states)
+        |<phi_n|psi(t)>|^2 in the length-gauge form of the state.
+    final_state : ndarray of complex
+        Length-gauge wavefunction at the end.
+    ionization_probability : float
+        1 - sum of the final bound populations.
+    absorbed : float
+        Norm removed by the absorber, 1 - final norm.
+    harmonic : spectra.HarmonicSpectrum
+    cutoff : spectra.CutoffEstimate or None
+    photoelectrons : dict
+        Method name -> spectra.PhotoelectronSpectrum.
+    warnings : list of str
+    """
+
+    observables: Observables
+    population_time: np.ndarray
+    bound_population: np.ndarray
+    final_state: np.ndarray
+    ionization_probability: float
+    absorbed: float
+    harmonic: spectra.HarmonicSpectrum
+    cutoff: object
+    photoelectrons: dict = field(default_factory=dict)
+    warnings: list = field(default_factory=list)
+
+
+def snapshot_steps(problem: Problem) -> np.ndarray:
+    """Step indices of the wavefunction snapshots (evenly spread, first and last included)."""
+    n = problem.config.output.snapshots
+    if n <= 0:
+        return np.zeros(0, dtype=int)
+    return np.unique(np.round(np.linspace(0, problem.time.steps, n)).astype(int))
+
+
+def population_steps(problem: Problem) -> np.ndarray:
+    """Step indices at which bound-state populations are projected."""
+    interval = problem.config.output.population_interval
+    if interval is None:
+        omega = problem.field.omega
+        interval = (2 * math.pi / omega / POPULATIONS_PER_CYCLE) if math.isfinite(omega) else 1.0
+    every = max(1, int(round(interval / problem.time.step)))
+    return np.unique(np.append(np.arange(0, problem.time.steps + 1, every), problem.time.steps))
+
+
+def _populations(states, psi_length, dx):
+    amp_re = states.wavefunctions @ psi_length.real
+    amp_im = states.wavefunctions @ psi_length.imag
+    return (amp_re**2 + amp_im**2) * dx**2
+
+
+def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASURE") -> RunResult:
+    """Propagate the problem's initial state through its field and analyse the result.
+
+    Parameters
+    ----------
+    problem : Problem
+    sink : object, optional
+        Receives ``snapshot(index, time, psi)`` for each snapshot (psi in the length
+        gauge, complex array; copy it if kept).
+    progress : callable, optional
+        ``progress(step, steps)``, called between chunks.
+    fft_effort : str
+        FFTW planner flag.
+
+    Returns
+    -------
+    RunResult
+
+    Raises
+    ------
+    tdse1d.propagate.NumericalError
+        If the wavefunction blows up or the norm grows.
+    """
+    cfg = problem.config
+    grid = problem.grid
+    times = problem.time.times
+    atom = cfg.atom
+    psi0 = initial_wavefunction(problem.states, atom.initial_state, atom.initial_amplitudes, atom.initial_phases)
+    absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
+    mask = absorber.step_factor(grid, problem.absorber_width, problem.time.step)
+
+    collect = cfg.spectra.photoelectrons == "mask" and np.any(mask < 1) and problem.field.pulses
+    accumulator = None
+    absorb_every = 1
+    if collect:
+        absorb_every = max(1, int(round(MASK_METHOD_INTERVAL / problem.time.step)))
+        a = problem.field.vector_potential(times)
+        g, h = spectra.vector_potential_integrals(times, a)
+        accumulator = spectra.MaskAccumulator(grid.x, times, g, h)
+
+    prop = Propagator(
+        grid, problem.potential, problem.field, times,
+        gauge=cfg.propagation.gauge,
+        scheme=scheme_for_order(cfg.propagation.order),
+        absorber_factor=mask,
+        reference=psi0,
+        fft_effort=fft_effort,
+        absorb_every=absorb_every,
+        on_absorb=accumulator.accumulate if accumulator is not None else None,
+    )
+    prop.start(psi0)
+
+    snaps = snapshot_steps(problem)
+    pops = population_steps(problem)
+    events = np.unique(np.concatenate([snaps, pops, [problem.time.steps]]))
+    snap_set = {int(s): i for i, s in enumerate(snaps)}
+    pop_set = {int(s): i for i, s in enumerate(pops)}
+    bound = np.zeros((len(pops), len(problem.states)))
+    progress_every = max(1, problem.time.steps // 200)
+
+    for target in events:
+        while prop.step_index < target:
+            prop.advance(min(progress_every, target - prop.step_index))
+            if progress is not None:
+                progress(prop.step_index, problem.time.steps)
+        n = int(target)
+        if n in pop_set or n in snap_set:
+            psi_l = prop.length_gauge_state()
+            if n in pop_set:
+                bound[pop_set[n]] = _populations(problem.states, psi_l, grid.spacing)
+            if n in snap_set and sink is not None:
+                sink.snapshot(snap_set[n], float(times[n]), psi_l)
+    prop.finish()
+
+    final = prop.length_gauge_state()
+    obs = prop.observables
+    final_bound = _populations(problem.states, final, grid.spacing)
+    ionization = float(1.0 - final_bound.sum())
+    absorbed = float(obs.norm[0] - obs.norm[-1])
+
+    omega0 = problem.field.omega if problem.field.pulses else 1.0
+    harmonic = spectra.harmonic_spectrum(times, obs.acceleration, omega0, window=cfg.spectra.window)
+    cutoff = None
+    if problem.field.pulses and problem.ionization_potential > 0:
+        try:
+            cutoff = spectra.read_cutoff(harmonic.frequency, harmonic.power, omega0, problem.ionization_potential)
+        except ValueError:
+            cutoff = None
+
+    continuum = spectra.project_out_bound(final, problem.states.wavefunctions, grid.spacing)
+    photo = {"plane_wave": spectra.plane_wave_spectrum(grid.x, continuum, split="momentum")}
+    if accumulator is not None:
+        # the accumulator works in the velocity gauge; A = 0 at the end, so both agree
+        photo["mask"] = accumulator.result(continuum, final_step=-1, split="momentum")
+
+    return RunResult(
+        observables=obs,
+        population_time=times[pops],
+        bound_population=bound,
+        final_state=final,
+        ionization_probability=ionization,
+        absorbed=absorbed,
+        harmonic=harmonic,
+        cutoff=cutoff,
+        photoelectrons=photo,
+        warnings=list(problem.warnings),
+    )

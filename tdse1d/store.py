@@ -1,0 +1,225 @@
+"""HDF5 results: writing a run as it goes, and reading it back.
+
+The layout is a contract (``docs/output.md`` lists every dataset with its units); every
+dataset carries a ``units`` attribute, and the root holds the resolved input TOML
+(``input``), the tdse1d version and the grid and time step actually used.
+
+A file is written under a temporary name (``NAME.h5.part``) and renamed to its final
+name only when complete, so an interrupted run never leaves a file that looks finished.
+Snapshots are streamed into a pre-sized dataset as they come, so memory does not grow
+with their number.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from . import __version__
+from .estimates import as_attributes
+
+__all__ = ["ResultWriter", "read_result", "ResultFile", "PART_SUFFIX", "is_complete"]
+
+PART_SUFFIX = ".part"
+COMPLETE_ATTR = "complete"
+
+
+def _dataset(group, name, data, units, **attrs):
+    ds = group.create_dataset(name, data=data)
+    ds.attrs["units"] = units
+    for k, v in attrs.items():
+        ds.attrs[k] = v
+    return ds
+
+
+class ResultWriter:
+    """Writes one run's HDF5 file; used as the run's snapshot sink.
+
+    Parameters
+    ----------
+    path : path
+        Final file name; the data go to ``path + ".part"`` until :meth:`close`.
+    problem : Problem
+
+    Use as a context manager: on an exception the partial file is removed.
+    """
+
+    def __init__(self, path, problem, snapshot_times=()):
+        self.path = Path(path)
+        self.part = self.path.with_name(self.path.name + PART_SUFFIX)
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        self.problem = problem
+        self.file = h5py.File(self.part, "w")
+        self._write_header(snapshot_times)
+
+    # -------------------------------------------------------------- header
+    def _write_header(self, snapshot_times):
+        f, p = self.file, self.problem
+        cfg = p.config
+        f.attrs["input"] = cfg.resolved_toml
+        f.attrs["input_source"] = str(cfg.source)
+        f.attrs["tdse1d_version"] = __version__
+        f.attrs["grid_points"] = p.grid.points
+        f.attrs["grid_spacing"] = p.grid.spacing
+        f.attrs["time_step"] = p.time.step
+        f.attrs["steps"] = p.time.steps
+        f.attrs["gauge"] = cfg.propagation.gauge
+        f.attrs["order"] = cfg.propagation.order
+        f.attrs["absorber"] = cfg.absorber.type
+        f.attrs["absorber_width"] = p.absorber_width
+        f.attrs["potential"] = p.potential.describe()
+        f.attrs["warnings"] = "\n".join(p.warnings)
+        f.attrs[COMPLETE_ATTR] = False
+        _dataset(f.create_group("grid"), "x", p.grid.x, "bohr")
+        f["grid"].attrs["spacing"] = p.grid.spacing
+        states = f.create_group("states")
+        _dataset(states, "energy", p.states.energies, "hartree")
+        _dataset(states, "wavefunction", p.states.wavefunctions, "bohr^-1/2")
+        est = f.create_group("estimates")
+        if p.pulse_estimates:
+            for k, v in as_attributes(p.pulse_estimates[0]).items():
+                est.attrs[k] = v
+            for i, pe in enumerate(p.pulse_estimates):
+                g = est.create_group(f"pulse_{i}")
+                for k, v in as_attributes(pe).items():
+                    g.attrs[k] = v
+        est.attrs["units"] = "atomic units (hartree, bohr, a.u. of time and field) unless the name says otherwise"
+        stride = cfg.output.snapshot_stride
+        n_snap = len(snapshot_times)
+        snaps = f.create_group("snapshots")
+        self._snap_time = _dataset(snaps, "time", np.asarray(snapshot_times, float), "atomic_unit_of_time")
+        x = p.grid.x[::stride]
+        _dataset(snaps, "x", x, "bohr")
+        self._stride = stride
+        self._snap = snaps.create_dataset(
+            "psi", shape=(n_snap, len(x)), dtype=np.complex128,
+            chunks=(1, len(x)) if n_snap else None,
+        )
+        self._snap.attrs["units"] = "bohr^-1/2"
+        self._snap.attrs["gauge"] = "length"
+
+    # ---------------------------------------------------------------- sink
+    def snapshot(self, index, time, psi):
+        """Store snapshot ``index`` (length gauge) at ``time`` (a.u.)."""
+        self._snap[index] = psi[:: self._stride]
+        self._snap_time[index] = time
+
+    # ------------------------------------------------------------- results
+    def write_result(self, result, extra=None):
+        """Write the run's observables, spectra and ionization; ``extra`` is a callable
+        given the open file to add analysis groups."""
+        f = self.file
+        obs = result.observables
+        fld = f.create_group("field")
+        _dataset(fld, "time", obs.time, "atomic_unit_of_time")
+        _dataset(fld, "electric", obs.electric, "atomic_unit_of_electric_field")
+        _dataset(fld, "vector_potential", obs.vector_potential, "atomic_unit_of_vector_potential")
+        o = f.create_group("observables")
+        _dataset(o, "time", obs.time, "atomic_unit_of_time")
+        _dataset(o, "dipole", obs.dipole, "bohr", description="<x>, dipole moment per electron charge")
+        _dataset(o, "momentum", obs.momentum, "atomic_unit_of_momentum", description="kinetic momentum <p>")
+        _dataset(o, "acceleration", obs.acceleration, "atomic_unit_of_acceleration",
+                 description="Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t)")
+        _dataset(o, "norm", obs.norm, "1")
+        _dataset(o, "initial_population", obs.initial_population, "1")
+        _dataset(o, "population_time", result.population_time, "atomic_unit_of_time")
+        _dataset(o, "bound_population", result.bound_population, "1",
+                 description="|<phi_n|psi>|^2 at population_time, shape (time, state)")
+        _dataset(o, "absorbed", obs.norm[0] - obs.norm, "1", description="norm removed by the absorber so far")
+        h = f.create_group("spectra/harmonic")
+        hs = result.harmonic
+        _dataset(h, "frequency", hs.frequency, "hartree", description="angular frequency = photon energy")
+        _dataset(h, "order", hs.order, "1", description="frequency / carrier frequency of the first pulse")
+        _dataset(h, "power", hs.power, "atomic_units", description="|FFT of windowed acceleration|^2")
+        h.attrs["window"] = self.problem.config.spectra.window
+        if result.cutoff is not None:
+            h.attrs["cutoff_frequency"] = result.cutoff.frequency
+            h.attrs["cutoff_order"] = result.cutoff.order
+            h.attrs["cutoff_resolved"] = bool(result.cutoff.resolved)
+        for method, spec in result.photoelectrons.items():
+            g = f.create_group(f"spectra/photoelectron/{method}")
+            g.attrs["method"] = method
+            g.attrs["split"] = spec.split
+            _dataset(g, "momentum", spec.momentum, "atomic_unit_of_momentum", description="|p|")
+            _dataset(g, "density_left", spec.density_left, "1/atomic_unit_of_momentum")
+            _dataset(g, "density_right", spec.density_right, "1/atomic_unit_of_momentum")
+            _dataset(g, "energy", spec.energy, "hartree")
+            _dataset(g, "energy_density_left", spec.energy_density_left, "1/hartree")
+            _dataset(g, "energy_density_right", spec.energy_density_right, "1/hartree")
+        ion = f.create_group("ionization")
+        _dataset(ion, "probability", result.ionization_probability, "1", description="1 - final bound population")
+        _dataset(ion, "absorbed", result.absorbed, "1", description="norm removed by the absorber")
+        final = f.create_group("final")
+        _dataset(final, "psi", result.final_state, "bohr^-1/2", gauge="length")
+        f.attrs["warnings"] = "\n".join(result.warnings)
+        if extra is not None:
+            extra(f)
+
+    def close(self):
+        """Mark complete, close and rename to the final name (atomically)."""
+        self.file.attrs[COMPLETE_ATTR] = True
+        self.file.close()
+        os.replace(self.part, self.path)
+
+    def abort(self):
+        """Close and delete the partial file."""
+        try:
+            self.file.close()
+        finally:
+            self.part.unlink(missing_ok=True)
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is not None:
+            self.abort()
+        return False
+
+
+def is_complete(path) -> bool:
+    """True if ``path`` is a finished, readable result file."""
+    try:
+        with h5py.File(path, "r") as f:
+            return bool(f.attrs.get(COMPLETE_ATTR, False))
+    except (OSError, KeyError):
+        return False
+
+
+@dataclass
+class ResultFile:
+    """A result file opened for reading (use :func:`read_result`)."""
+
+    path: Path
+    file: h5py.File
+
+    def __getitem__(self, key):
+        return self.file[key][()]
+
+    def attrs(self, key="/"):
+        return dict(self.file[key].attrs)
+
+    @property
+    def input_toml(self) -> str:
+        return self.file.attrs["input"]
+
+    def close(self):
+        self.file.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+
+def read_result(path) -> ResultFile:
+    """Open a finished result file; raises ValueError for an incomplete one."""
+    path = Path(path)
+    if not is_complete(path):
+        raise ValueError(f"{path} is not a finished tdse1d result file")
+    return ResultFile(path, h5py.File(path, "r"))
