@@ -45,6 +45,8 @@ FIT_WINDOW = 40.0
 MAX_WINDOW_POINTS = 2048
 #: most bound states kept when their number is "auto"
 MAX_AUTO_STATES = 30
+#: largest relative change of a fitted ground state when the grid spacing is halved
+MAX_FIT_GRID_ERROR = 1e-3
 
 
 class SofteningFitError(ValueError):
@@ -223,7 +225,9 @@ def fit_softening(
     Raises
     ------
     SofteningFitError
-        If Ip is out of the reach of the model on this grid.
+        If Ip is out of the reach of the model on this grid, or is reached only by a
+        state the grid does not resolve (its energy changes by more than
+        :data:`MAX_FIT_GRID_ERROR`, relative, when the spacing is halved).
     """
 
     def mismatch(a):
@@ -240,7 +244,20 @@ def fit_softening(
             "(change the charge, or use a finer grid for deep states)"
         )
     # the energy is smooth in a; ask for a far tighter root than the energy tolerance
-    return float(brentq(mismatch, lo, hi, xtol=1e-14, rtol=1e-14, maxiter=200))
+    a = float(brentq(mismatch, lo, hi, xtol=1e-14, rtol=1e-14, maxiter=200))
+    # A small enough softening reaches any Ip on a grid, but with a core narrower than
+    # the spacing the "state" is a grid artefact: check that halving the spacing leaves
+    # its energy nearly unchanged. The state is compact, so a narrow window suffices.
+    finer = Grid(2 * grid.points, 0.5 * grid.spacing)
+    e_fine = ground_state_energy(finer, potential.with_softening(a), window=0.5 * FIT_WINDOW)
+    change = abs(e_fine + ionization_potential) / ionization_potential
+    if change > MAX_FIT_GRID_ERROR:
+        raise SofteningFitError(
+            f"an ionization potential of {ionization_potential:.6g} Hartree needs a softening of {a:.3g} bohr, "
+            f"a state this grid (spacing {grid.spacing:g} bohr) does not resolve: halving the spacing changes "
+            f"its energy by {100 * change:.2g}% (use a finer grid, a larger charge, or a smaller Ip)"
+        )
+    return a
 
 
 def initial_wavefunction(states: BoundStates, indices, amplitudes=None, phases=None) -> np.ndarray:
