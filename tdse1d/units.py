@@ -85,6 +85,12 @@ class Dimension:
         self.au_in_si = au_in_si
         self.example = example
 
+    @property
+    def a_name(self) -> str:
+        """The name with its indefinite article, for messages ("an electric field")."""
+        words = self.name.replace("_", " ")
+        return ("an " if words[0] in "aeiou" else "a ") + words
+
 
 #: The dimensions quantities in input files can have, keyed by name.
 DIMENSIONS: dict[str, Dimension] = {
@@ -140,16 +146,16 @@ def to_atomic(value, dimension: str, *, bare_allowed: bool = True) -> float:
     """
     dim = DIMENSIONS[dimension]
     if isinstance(value, bool):
-        raise UnitError(f"expected a {dim.name} such as {dim.example}, got {value!r}")
+        raise UnitError(f"expected {dim.a_name} such as {dim.example}, got {value!r}")
     if isinstance(value, (int, float)):
         if not bare_allowed:
             raise UnitError(
-                f"a bare number is ambiguous for a {dim.name}; write it with a unit, "
+                f"a bare number is ambiguous for {dim.a_name}; write it with a unit, "
                 f"e.g. {dim.example}"
             )
         return float(value)
     if not isinstance(value, str):
-        raise UnitError(f"expected a {dim.name} such as {dim.example}, got {value!r}")
+        raise UnitError(f"expected {dim.a_name} such as {dim.example}, got {value!r}")
     match = _ATOMIC.match(value)
     if match:
         try:
@@ -160,13 +166,13 @@ def to_atomic(value, dimension: str, *, bare_allowed: bool = True) -> float:
     try:
         quantity = ureg.Quantity(value.replace("^", "**"))
     except Exception as exc:  # pint raises several unrelated exception types
-        raise UnitError(f"cannot read {value!r} as a {dim.name} ({exc})") from None
+        raise UnitError(f"cannot read {value!r} as {dim.a_name} ({exc})") from None
     if not hasattr(quantity, "to"):
-        raise UnitError(f"cannot read {value!r} as a {dim.name}")
+        raise UnitError(f"cannot read {value!r} as {dim.a_name}")
     if quantity.dimensionless and dim.name not in ("angle",):
         if not bare_allowed:
             raise UnitError(
-                f"{value!r} has no unit; write the {dim.name} with a unit, e.g. {dim.example}"
+                f"{value!r} has no unit; write the {dim.name.replace('_', ' ')} with a unit, e.g. {dim.example}"
             )
         return float(quantity.magnitude)
     try:
@@ -179,7 +185,7 @@ def to_atomic(value, dimension: str, *, bare_allowed: bool = True) -> float:
             except Exception:
                 pass
         raise UnitError(
-            f"{value!r} is not a {dim.name} (expected something like {dim.example})"
+            f"{value!r} is not {dim.a_name} (expected something like {dim.example})"
         ) from None
     return float(si) / dim.au_in_si
 
