@@ -18,7 +18,7 @@ from .estimates import GridAdvice, PulseEstimate, estimates_json
 from .problem import Problem, build_problem
 from .states import BoundStates
 
-__all__ = ["load_input", "states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path"]
+__all__ = ["load_input", "states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
 
 
 @dataclass(frozen=True)
@@ -102,7 +102,8 @@ def output_path(config: RunConfig, output=None) -> Path:
     return Path(Path(config.source).stem + ".h5")
 
 
-def run(config: RunConfig | str, output=None, progress=None, overrides=()) -> RunOutcome:
+def run(config: RunConfig | str, output=None, progress=None, overrides=(), resume=False, control=None,
+        strict=False) -> RunOutcome:
     """Run the full quantum simulation of an input and write its HDF5 result.
 
     Parameters
@@ -112,25 +113,64 @@ def run(config: RunConfig | str, output=None, progress=None, overrides=()) -> Ru
         Result file (see :func:`output_path`).
     progress : callable, optional
         ``progress(step, steps)``.
+    resume : bool
+        Continue from the checkpoint ``OUTPUT.checkpoint`` (see :mod:`tdse1d.checkpoint`)
+        if there is one (a run from the start otherwise); a checkpoint of a different
+        input raises InputError.
+    control : tdse1d.runner.RunControl, optional
+        Checkpoint cadence and stop requests; by default the input's
+        ``output.checkpoint_interval`` (if any) sets the cadence.
+    strict : bool
+        Numerical-health warnings (before and during the run) raise instead.
 
     Returns
     -------
     RunOutcome
+
+    Raises
+    ------
+    tdse1d.runner.RunInterrupted
+        When ``control`` asked to stop; the checkpoint is written, the partial file removed.
     """
     if not isinstance(config, RunConfig):
         config = load_input(config, overrides)
-    return run_problem(build_problem(config), output, progress)
+    return run_problem(build_problem(config), output, progress, resume=resume, control=control, strict=strict)
 
 
-def run_problem(problem: Problem, output=None, progress=None) -> RunOutcome:
+def default_control(config: RunConfig):
+    """A :class:`~tdse1d.runner.RunControl` with the input's checkpoint interval (in s)."""
+    from . import units
+    from .runner import RunControl
+
+    interval = config.output.checkpoint_interval
+    return RunControl(None if interval is None else interval * units.AU_TIME_S)
+
+
+def run_problem(problem: Problem, output=None, progress=None, resume=False, control=None,
+                strict=False) -> RunOutcome:
     """:func:`run` for an already assembled :class:`~tdse1d.problem.Problem`."""
+    from .checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
+    from .propagate import NumericalError
     from .runner import simulate, snapshot_steps
     from .store import ResultWriter
 
+    if strict and problem.warnings:
+        raise NumericalError(f"before the run: {problem.warnings[0]}", 0, problem.time.start)
     path = output_path(problem.config, output)
+    cp_path = checkpoint_path(path)
+    digest = input_hash(problem.config)
+    state = snapshots = None
+    if resume and cp_path.exists():
+        state, snapshots = read_checkpoint(cp_path, digest)
+    if control is None:
+        control = default_control(problem.config)
     snap_times = problem.time.times[snapshot_steps(problem)]
     with ResultWriter(path, problem, snap_times) as writer:
-        result = simulate(problem, sink=writer, progress=progress)
+        sink = CheckpointSink(writer, cp_path, digest)
+        if snapshots is not None:
+            sink.restore_snapshots(snapshots)
+        result = simulate(problem, sink=sink, progress=progress, control=control, resume=state, strict=strict)
         writer.write_result(result)
         writer.close()
+    sink.discard()
     return RunOutcome(path, problem, result)

@@ -5,22 +5,34 @@ chunks, between which it records bound-state populations, hands snapshots to a s
 (the HDF5 writer streams them to disk, so memory does not grow with their number),
 collects the electrons the absorber removes (mask method) and reports progress. No
 file is read or written here; the sink does that.
+
+Stopping and continuing: between chunks the runner asks a :class:`RunControl` whether
+a checkpoint is due (its wall-clock interval has passed, or a stop was requested, e.g.
+by a signal handler installed by the command line, never here). It then hands a
+:class:`RunState` (everything needed to continue) to ``sink.checkpoint`` and, for a
+stop, raises :class:`RunInterrupted`. ``simulate(..., resume=state)`` continues from
+such a state; the steps and analysis events are the same as in an uninterrupted run,
+so the results agree to round-off.
+
+Numerical health (:mod:`tdse1d.health`) is checked at the population cadence.
 """
 
 from __future__ import annotations
 
 import math
+import time as _time
 from dataclasses import dataclass, field
 
 import numpy as np
 
+from . import health as _health
 from . import spectra
 from .absorb import ABSORBERS
 from .propagate import Observables, Propagator, scheme_for_order
 from .problem import Problem
 from .states import initial_wavefunction
 
-__all__ = ["RunResult", "simulate", "snapshot_steps", "population_steps"]
+__all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps"]
 
 #: default bound-state projections per optical cycle of the first pulse
 POPULATIONS_PER_CYCLE = 20
@@ -64,6 +76,87 @@ class RunResult:
     warnings: list = field(default_factory=list)
 
 
+@dataclass
+class RunState:
+    """Everything needed to continue a run (see :mod:`tdse1d.checkpoint`).
+
+    Attributes
+    ----------
+    step_index : int
+        Step of ``psi``.
+    next_event : int
+        Index of the next analysis event (population/snapshot step) not yet handled.
+    snapshots_done : int
+        Snapshots handed to the sink so far.
+    psi : ndarray of complex
+        Wavefunction in the propagation gauge at ``step_index``.
+    observables : dict of str to ndarray
+        Per-step norm, dipole, momentum, acceleration, initial_population (NaN beyond
+        what was recorded).
+    bound_population : ndarray, shape (m, n_states)
+        Populations projected so far (zero rows for later events).
+    mask : dict or None
+        :meth:`tdse1d.spectra.MaskAccumulator.state`, if the mask method is on.
+    """
+
+    step_index: int
+    next_event: int
+    snapshots_done: int
+    psi: np.ndarray
+    observables: dict
+    bound_population: np.ndarray
+    mask: dict | None = None
+
+
+class RunInterrupted(RuntimeError):
+    """The run was stopped on request after writing a checkpoint at ``step``."""
+
+    def __init__(self, step: int, time: float):
+        self.step = step
+        self.time = time
+        super().__init__(f"stopped at step {step}, t = {time:.6g} a.u., after writing a checkpoint")
+
+
+class RunControl:
+    """When to checkpoint and whether to stop; polled by :func:`simulate` between chunks.
+
+    Parameters
+    ----------
+    interval : float, optional
+        Wall-clock seconds between checkpoints (None: only on a stop request).
+    clock : callable
+        Monotonic clock in seconds.
+
+    Notes
+    -----
+    :meth:`request_stop` only sets a flag, so it is safe to call from a signal
+    handler; the run writes a checkpoint and raises :class:`RunInterrupted` at the
+    next chunk boundary.
+    """
+
+    def __init__(self, interval: float | None = None, clock=_time.monotonic):
+        if interval is not None and not interval > 0:
+            raise ValueError(f"interval must be positive seconds, got {interval!r}")
+        self.interval = interval
+        self.clock = clock
+        self.stop_requested = False
+        self._last = clock()
+
+    def request_stop(self, *_):
+        self.stop_requested = True
+
+    def checkpoint_due(self) -> bool:
+        if self.stop_requested:
+            return True
+        return self.interval is not None and self.clock() - self._last >= self.interval
+
+    def checkpoint_written(self):
+        self._last = self.clock()
+
+
+_OBSERVABLE_NAMES = ("norm", "dipole", "momentum", "acceleration", "initial_population")
+
+
 def snapshot_steps(problem: Problem) -> np.ndarray:
     """Step indices of the wavefunction snapshots (evenly spread, first and last included)."""
     n = problem.config.output.snapshots
@@ -88,7 +181,8 @@ def _populations(states, psi_length, dx):
     return (amp_re**2 + amp_im**2) * dx**2
 
 
-def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASURE") -> RunResult:
+def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASURE", control=None,
+             resume: RunState | None = None, strict: bool = False) -> RunResult:
     """Propagate the problem's initial state through its field and analyse the result.
 
     Parameters
@@ -101,6 +195,13 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         ``progress(step, steps)``, called between chunks.
     fft_effort : str
         FFTW planner flag.
+    control : RunControl, optional
+        Checkpoint cadence and stop requests; a due checkpoint is handed to
+        ``sink.checkpoint(state)`` (the sink must have that method).
+    resume : RunState, optional
+        Continue from this state instead of the initial state.
+    strict : bool
+        Raise on the first numerical-health warning instead of collecting it.
 
     Returns
     -------
@@ -109,7 +210,10 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     Raises
     ------
     tdse1d.propagate.NumericalError
-        If the wavefunction blows up or the norm grows.
+        If the wavefunction blows up or the norm grows (or, with ``strict``, on a
+        health warning).
+    RunInterrupted
+        After writing a checkpoint, when ``control`` asked to stop.
     """
     cfg = problem.config
     grid = problem.grid
@@ -138,8 +242,6 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         absorb_every=absorb_every,
         on_absorb=accumulator.accumulate if accumulator is not None else None,
     )
-    prop.start(psi0)
-
     snaps = snapshot_steps(problem)
     pops = population_steps(problem)
     events = np.unique(np.concatenate([snaps, pops, [problem.time.steps]]))
@@ -147,19 +249,55 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     pop_set = {int(s): i for i, s in enumerate(pops)}
     bound = np.zeros((len(pops), len(problem.states)))
     progress_every = max(1, problem.time.steps // 200)
+    monitor = _health.HealthMonitor(problem, strict=strict)
 
-    for target in events:
+    first_event = 0
+    snapshots_done = 0
+    if resume is None:
+        prop.start(psi0)
+    else:
+        if resume.bound_population.shape != bound.shape:
+            raise ValueError(f"the state to resume has populations of shape {resume.bound_population.shape}, "
+                             f"this run {bound.shape}")
+        prop.start(resume.psi, resume.step_index)
+        # the recorded history replaces what start() measured at the resumed step
+        for name in _OBSERVABLE_NAMES:
+            getattr(prop.observables, name)[:] = resume.observables[name]
+        bound[:] = resume.bound_population
+        if accumulator is not None:
+            accumulator.restore(resume.mask)
+        first_event = resume.next_event
+        snapshots_done = resume.snapshots_done
+
+    def state(next_event):
+        return RunState(
+            step_index=prop.step_index, next_event=next_event, snapshots_done=snapshots_done,
+            psi=prop.psi.copy(),
+            observables={name: getattr(prop.observables, name).copy() for name in _OBSERVABLE_NAMES},
+            bound_population=bound.copy(),
+            mask=accumulator.state() if accumulator is not None else None,
+        )
+
+    for event_index in range(first_event, len(events)):
+        target = events[event_index]
         while prop.step_index < target:
             prop.advance(min(progress_every, target - prop.step_index))
             if progress is not None:
                 progress(prop.step_index, problem.time.steps)
+            if control is not None and control.checkpoint_due() and prop.step_index < problem.time.steps:
+                sink.checkpoint(state(event_index))
+                control.checkpoint_written()
+                if control.stop_requested:
+                    raise RunInterrupted(prop.step_index, prop.time)
         n = int(target)
         if n in pop_set or n in snap_set:
             psi_l = prop.length_gauge_state()
             if n in pop_set:
                 bound[pop_set[n]] = _populations(problem.states, psi_l, grid.spacing)
+                monitor.check(n, float(times[n]), psi_l)
             if n in snap_set and sink is not None:
                 sink.snapshot(snap_set[n], float(times[n]), psi_l)
+                snapshots_done = snap_set[n] + 1
     prop.finish()
 
     final = prop.length_gauge_state()
@@ -193,5 +331,5 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         harmonic=harmonic,
         cutoff=cutoff,
         photoelectrons=photo,
-        warnings=list(problem.warnings),
+        warnings=list(problem.warnings) + monitor.warnings,
     )

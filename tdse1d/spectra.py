@@ -1026,6 +1026,18 @@ class MaskAccumulator:
             total += self._transform
         self._used[i] = True
 
+    def state(self) -> dict:
+        """Copies of the accumulated amplitudes and of the steps used (for checkpoints)."""
+        return {"amp_left": self._amp_left.copy(), "amp_right": self._amp_right.copy(), "used": self._used.copy()}
+
+    def restore(self, state: dict):
+        """Continue from a :meth:`state` of an accumulator on the same grid and times."""
+        for name, target in (("amp_left", self._amp_left), ("amp_right", self._amp_right), ("used", self._used)):
+            value = np.asarray(state[name])
+            if value.shape != target.shape:
+                raise ValueError(f"{name} has shape {value.shape}, expected {target.shape}")
+            target[...] = value
+
     def result(self, final_continuum=None, *, final_step=-1, split="position"):
         """The photoelectron spectrum at the final time.
 

@@ -1,5 +1,12 @@
-"""``tdse1d run INPUT``: the full quantum run, written to HDF5."""
+"""``tdse1d run INPUT``: the full quantum run, written to HDF5.
 
+Checkpoints: with ``output.checkpoint_interval`` the run writes ``RESULT.h5.checkpoint``
+beside its result at that wall-clock cadence (see :mod:`tdse1d.checkpoint`). SIGTERM
+and SIGINT write a checkpoint at once and exit with status 75 (:data:`EXIT_INTERRUPTED`,
+as EX_TEMPFAIL: try again); ``tdse1d run INPUT --resume`` continues from it.
+"""
+
+import signal
 import sys
 import time
 
@@ -10,11 +17,18 @@ from ..wisdom import fftw_wisdom
 
 HELP = "propagate the input's model atom through its pulses and write the HDF5 result"
 
+#: exit status after a stop request (SIGTERM/SIGINT) left a checkpoint
+EXIT_INTERRUPTED = 75
+
 
 def add_arguments(parser):
     add_input_arguments(parser)
     parser.add_argument("-o", "--output", default=None, help="result file (default: output.file, else INPUT-STEM.h5)")
     parser.add_argument("--quiet", action="store_true", help="no progress bar and no summary")
+    parser.add_argument("--resume", action="store_true",
+                        help="continue from RESULT.h5.checkpoint left by an interrupted run of the same input")
+    parser.add_argument("--strict", action="store_true",
+                        help="treat numerical-health warnings as errors (exit status 1)")
 
 
 class _ProgressBar:
@@ -49,15 +63,31 @@ def main(args):
     started = time.time()
     from ..problem import build_problem
 
+    from ..runner import RunInterrupted
+
     problem = build_problem(config)
     for w in problem.warnings:
         print(f"tdse1d: warning: {w}", file=sys.stderr)
     bar = _ProgressBar(problem, show)
+    control = api.default_control(config)
+    previous = {sig: signal.signal(sig, control.request_stop) for sig in (signal.SIGTERM, signal.SIGINT)}
     try:
         with fftw_wisdom():
-            outcome = api.run_problem(problem, args.output, progress=bar)
+            outcome = api.run_problem(problem, args.output, progress=bar, resume=args.resume,
+                                      control=control, strict=args.strict)
+    except RunInterrupted as exc:
+        bar.close()
+        from ..checkpoint import checkpoint_path
+
+        print(f"tdse1d: {exc}: {checkpoint_path(api.output_path(config, args.output))}; "
+              "continue with --resume", file=sys.stderr)
+        return EXIT_INTERRUPTED
     finally:
         bar.close()
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
+    for w in outcome.result.warnings[len(problem.warnings):]:
+        print(f"tdse1d: warning: {w}", file=sys.stderr)
     if args.quiet:
         return 0
     p, r = outcome.problem, outcome.result

@@ -1,0 +1,159 @@
+"""Checkpoints and resume: a resumed run equals an uninterrupted one, signals leave a
+checkpoint, a checkpoint of another input is refused, SIGKILL leaves nothing finished."""
+
+import os
+import signal
+import subprocess
+import sys
+import time
+
+import h5py
+import numpy as np
+import pytest
+
+from tdse1d import api
+from tdse1d.checkpoint import checkpoint_path, read_checkpoint
+from tdse1d.config import InputError, load_input
+from tdse1d.problem import build_problem
+from tdse1d.runner import RunControl, RunInterrupted
+from tdse1d.store import is_complete
+
+SMALL = """
+[atom]
+softening = 1.4142135623730951
+[[laser]]
+wavelength = "800 nm"
+peak_intensity = "{intensity}"
+cycles = 2
+[grid]
+points = 256
+spacing = 0.4
+[propagation]
+time_step = 0.2
+gauge = "{gauge}"
+after_pulse = "0.5 fs"
+[output]
+snapshots = 7
+"""
+
+COMPARED = [
+    "observables/norm", "observables/dipole", "observables/momentum", "observables/acceleration",
+    "observables/initial_population", "observables/bound_population", "snapshots/psi", "snapshots/time",
+    "final/psi", "spectra/harmonic/power", "spectra/photoelectron/mask/density_left",
+    "spectra/photoelectron/mask/density_right", "ionization/probability",
+]
+
+
+def _input(tmp_path, name="in.toml", intensity="1e14 W/cm^2", gauge="length", extra=""):
+    path = tmp_path / name
+    path.write_text(SMALL.format(intensity=intensity, gauge=gauge) + extra)
+    return path
+
+
+class _StopAt:
+    """Progress callback asking the run to stop once it passed ``step``."""
+
+    def __init__(self, control, step):
+        self.control, self.step = control, step
+
+    def __call__(self, step, steps):
+        if step >= self.step:
+            self.control.request_stop()
+
+
+def _read(path):
+    with h5py.File(path, "r") as f:
+        return {k: f[k][()] for k in COMPARED}
+
+
+@pytest.mark.parametrize("gauge", ["length", "velocity"])
+def test_resumed_run_equals_uninterrupted(tmp_path, gauge):
+    cfg = load_input(_input(tmp_path, gauge=gauge))
+    problem = build_problem(cfg)
+    full = tmp_path / "full.h5"
+    api.run_problem(problem, full)
+    out = tmp_path / "cut.h5"
+    # stop twice, at steps that are not analysis events, then finish
+    for stop in (problem.time.steps // 3, 2 * problem.time.steps // 3):
+        control = RunControl()
+        with pytest.raises(RunInterrupted):
+            api.run_problem(problem, out, progress=_StopAt(control, stop), resume=True, control=control)
+        assert checkpoint_path(out).exists() and not out.exists()
+        assert not out.with_name(out.name + ".part").exists()
+        state, _ = read_checkpoint(checkpoint_path(out))
+        assert stop <= state.step_index < problem.time.steps
+    api.run_problem(problem, out, resume=True)
+    assert is_complete(out) and not checkpoint_path(out).exists()
+    a, b = _read(full), _read(out)
+    for key in COMPARED:
+        np.testing.assert_allclose(b[key], a[key], rtol=1e-12, atol=1e-12 * np.max(np.abs(a[key])), err_msg=key)
+
+
+def test_checkpoint_of_another_input_is_refused(tmp_path):
+    out = tmp_path / "r.h5"
+    problem = build_problem(load_input(_input(tmp_path)))
+    control = RunControl()
+    with pytest.raises(RunInterrupted):
+        api.run_problem(problem, out, progress=_StopAt(control, 10), control=control)
+    other = build_problem(load_input(_input(tmp_path, "other.toml", intensity="2e14 W/cm^2")))
+    with pytest.raises(InputError, match="different input"):
+        api.run_problem(other, out, resume=True)
+    # and through the command line: exit status 2, one line, no traceback
+    proc = subprocess.run([sys.executable, "-m", "tdse1d.cli", "run", str(tmp_path / "other.toml"), "-o", str(out),
+                           "--resume", "--quiet"], capture_output=True, text=True)
+    assert proc.returncode == 2, proc.stderr
+    assert "different input" in proc.stderr and "Traceback" not in proc.stderr
+    assert checkpoint_path(out).exists() and not out.exists()
+
+
+def _start(tmp_path, out, *extra, toml_extra=""):
+    # long enough that the signal arrives mid-run
+    path = _input(tmp_path, "slow.toml", extra=toml_extra)
+    text = path.read_text().replace('after_pulse = "0.5 fs"', 'after_pulse = "80 fs"')
+    path.write_text(text)
+    proc = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(path), "-o", str(out), "--quiet", *extra],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    part = out.with_name(out.name + ".part")
+    deadline = time.monotonic() + 120
+    while not part.exists():  # the header is written: propagation is under way
+        assert proc.poll() is None, proc.communicate()
+        assert time.monotonic() < deadline
+        time.sleep(0.05)
+    time.sleep(0.5)
+    return path, proc
+
+
+def test_sigterm_writes_checkpoint_and_resume_completes(tmp_path):
+    out = tmp_path / "t.h5"
+    path, proc = _start(tmp_path, out)
+    proc.send_signal(signal.SIGTERM)
+    _, err = proc.communicate(timeout=120)
+    assert proc.returncode == 75, err
+    assert "--resume" in err and "Traceback" not in err
+    assert checkpoint_path(out).exists() and not out.exists()
+    state, _ = read_checkpoint(checkpoint_path(out))
+    assert state.step_index > 0
+    done = subprocess.run([sys.executable, "-m", "tdse1d.cli", "run", str(path), "-o", str(out), "--quiet", "--resume"],
+                          capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    assert is_complete(out) and not checkpoint_path(out).exists()
+    with h5py.File(out) as f:
+        norm = f["observables/norm"][()]
+    assert np.all(np.isfinite(norm)) and abs(norm[0] - 1) < 1e-10
+
+
+def test_sigkill_leaves_no_finished_file(tmp_path):
+    out = tmp_path / "k.h5"
+    # checkpoints back to back, so that the kill is likely to land inside one
+    _, proc = _start(tmp_path, out, toml_extra='checkpoint_interval = "1 ms"\n')
+    cp = checkpoint_path(out)
+    deadline = time.monotonic() + 60
+    while not cp.exists() and time.monotonic() < deadline:
+        time.sleep(0.01)
+    time.sleep(0.3)
+    os.kill(proc.pid, signal.SIGKILL)
+    proc.communicate(timeout=60)
+    assert not out.exists() and not is_complete(out.with_name(out.name + ".part"))
+    assert cp.exists()
+    state, _ = read_checkpoint(cp)  # the last good checkpoint, complete
+    assert state.step_index > 0 and np.all(np.isfinite(state.psi))
