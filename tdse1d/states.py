@@ -45,6 +45,8 @@ FIT_WINDOW = 40.0
 MAX_WINDOW_POINTS = 2048
 #: most bound states kept when their number is "auto"
 MAX_AUTO_STATES = 30
+#: largest residual |H v - E v| of a window state kept as a start for refinement
+MAX_GUESS_RESIDUAL = 1e-2
 #: largest relative change of a fitted ground state when the grid spacing is halved
 MAX_FIT_GRID_ERROR = 1e-3
 
@@ -114,16 +116,33 @@ def _dense_states(grid: Grid, potential: Potential, count: int | None):
     return energies, vectors
 
 
-def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: float):
-    """LOBPCG refinement of approximate eigenvectors (columns of ``guess``) on ``grid``."""
+def _apply_hamiltonian(grid: Grid, potential: Potential):
+    """H applied by FFT to the columns of a block of vectors on ``grid``."""
     v = potential.value(grid.x)
     t = grid.kinetic_energy()
-    shift = max(1.0, -float(v.min()))
 
     def apply_h(block):
         block = block.reshape(grid.points, -1)
         out = np.fft.ifft(t[:, None] * np.fft.fft(block, axis=0), axis=0).real
         return out + v[:, None] * block
+
+    return apply_h
+
+
+def _residuals(apply_h, energies, vectors) -> np.ndarray:
+    """|H v - E v| / |v| for each column v."""
+    return np.linalg.norm(apply_h(vectors) - vectors * energies, axis=0) / np.linalg.norm(vectors, axis=0)
+
+
+def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: float):
+    """LOBPCG refinement of approximate eigenvectors (columns of ``guess``) on ``grid``.
+
+    Returns the energies, the vectors (columns) and their residuals.
+    """
+    v = potential.value(grid.x)
+    t = grid.kinetic_energy()
+    shift = max(1.0, -float(v.min()))
+    apply_h = _apply_hamiltonian(grid, potential)
 
     def apply_precond(block):
         block = block.reshape(grid.points, -1)
@@ -139,8 +158,7 @@ def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: floa
         )
     order = np.argsort(energies)
     energies, vectors = energies[order], vectors[:, order]
-    residuals = np.linalg.norm(apply_h(vectors) - vectors * energies, axis=0) / np.linalg.norm(vectors, axis=0)
-    return energies, vectors, residuals
+    return energies, vectors, _residuals(apply_h, energies, vectors)
 
 
 def _normalise(vectors: np.ndarray, spacing: float) -> np.ndarray:
@@ -181,11 +199,17 @@ def bound_states(
     if sub.points < grid.points:
         guess = np.zeros((grid.points, vectors.shape[1]))
         guess[where] = vectors
+        if count is None:
+            # Near-threshold states of the window are box states that reach its edges;
+            # padded with zeros they are no approximate eigenvectors of the larger grid
+            # and make LOBPCG fail at its first iteration. Refine the localised ones.
+            start = _residuals(_apply_hamiltonian(grid, potential), energies, guess)
+            localised = start < MAX_GUESS_RESIDUAL
+            localised[0] = True
+            guess = guess[:, localised]
         energies, vectors, residuals = _refine(grid, potential, guess, tolerance)
         if count is None:
-            # Near-threshold states of the window are box states; on the larger grid they
-            # crowd together and LOBPCG may leave some unconverged (even at E > 0). Keep
-            # the leading states that converged and are bound.
+            # Keep the leading states that converged and are bound.
             good = (residuals <= 0.1 * np.sqrt(tolerance)) & (energies < 0)
             keep = len(good) if good.all() else max(int(np.argmin(good)), 1)
             energies, vectors = energies[:keep], vectors[:, :keep]
