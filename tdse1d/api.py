@@ -170,7 +170,10 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
         if snapshots is not None:
             sink.restore_snapshots(snapshots)
         result = simulate(problem, sink=sink, progress=progress, control=control, resume=state, strict=strict)
-        writer.write_result(result)
+        from .analysis import analyse_run, write_analysis
+
+        analysis = analyse_run(problem, result)
+        writer.write_result(result, extra=lambda h5file: write_analysis(h5file, analysis))
         writer.close()
     sink.discard()
     return RunOutcome(path, problem, result)

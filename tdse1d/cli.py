@@ -23,6 +23,7 @@ COMMANDS = {
     "states": "tdse1d.commands.states",
     "estimate": "tdse1d.commands.estimate",
     "run": "tdse1d.commands.run",
+    "report": "tdse1d.commands.report",
 }
 
 EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2

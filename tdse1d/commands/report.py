@@ -1,0 +1,213 @@
+"""``tdse1d report RESULT.h5``: the semiclassical prediction beside the quantum result.
+
+Each row of the table is one quantity: prediction | quantum result | comparison
+(a ratio for positive quantities, a difference for shifts and times), with energies
+in eV, harmonic orders and atomic units. ``--json`` prints the same rows for machines.
+The numbers come from :func:`tdse1d.analysis.analyse_file`.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .. import units
+from ..analysis import RunAnalysis, analyse_file
+from ..cli import CommandError
+
+HELP = "side-by-side table: semiclassical prediction | quantum result | ratio, for a result file"
+
+
+def add_arguments(parser):
+    parser.add_argument("result", metavar="RESULT.h5", help="result file of `tdse1d run`")
+    parser.add_argument("--json", action="store_true", help="print the rows as JSON")
+
+
+@dataclass(frozen=True)
+class Row:
+    """One compared quantity (values in a.u. of ``kind``; NaN where not available)."""
+
+    quantity: str
+    prediction_label: str
+    prediction: float
+    quantum: float
+    kind: str  # "energy", "photon", "probability", "momentum", "time", "number"
+    compare: str = "ratio"  # or "difference"
+    note: str = ""
+
+    @property
+    def comparison(self) -> float:
+        if not (math.isfinite(self.prediction) and math.isfinite(self.quantum)):
+            return math.nan
+        if self.compare == "difference":
+            return self.quantum - self.prediction
+        return self.quantum / self.prediction if self.prediction != 0 else math.nan
+
+
+def rows(a: RunAnalysis) -> list[Row]:
+    """The table of a run's analysis."""
+    nan = math.nan
+    up, ip = a.ponderomotive_energy, a.ionization_potential
+    s = a.three_step
+    out = [
+        Row("ground-state energy", "model (states on the grid)", a.ground_state_energy, a.ground_state_energy,
+            "energy", note="the quantum reference itself"),
+        Row("ionization potential Ip", "-E of the initial state", ip, ip, "energy"),
+    ]
+    if math.isfinite(up):
+        out += [
+            Row("harmonic cutoff", "three-step model, this pulse", s.cutoff_energy if s else nan,
+                a.harmonic_cutoff, "photon", note="quantum: read off the spectrum (docs/analysis.md)"),
+            Row("harmonic cutoff", "Ip + 3.17 Up", ip + 3.17 * up, a.harmonic_cutoff, "photon"),
+            Row("harmonic cutoff", "1.32 Ip + 3.17 Up", 1.32 * ip + 3.17 * up, a.harmonic_cutoff, "photon"),
+            Row("max. return energy / Up", "three-step model (3.17 for a long pulse)",
+                s.max_return_energy / up if s else nan, nan, "number"),
+        ]
+    out.append(Row("ionization probability", "quasi-static WKB tunnelling", a.tunnelling_yield,
+                   a.ionization_probability, "probability",
+                   note=f"Keldysh parameter {a.keldysh_parameter:.3g}; peak field / barrier-suppression field "
+                        f"{a.peak_field / a.barrier_suppression_field:.3g}"))
+    if a.streaking is None and math.isfinite(up):
+        e = a.edges
+        out += [
+            Row("direct-electron edge", "2 Up", 2 * up, e.direct if e else nan, "energy",
+                note="quantum: middle of the fall to the plateau"),
+            Row("direct-electron edge", "three-step model, this pulse", s.max_direct_energy if s else nan,
+                e.direct if e else nan, "energy"),
+            Row("backscattered edge", "10 Up", 10 * up, e.backscattered if e else nan, "energy",
+                note=f"quantum: end of the plateau, {a.photoelectron_method or 'no'} spectrum"),
+            Row("backscattered edge", "three-step model, this pulse", s.max_backscattered_energy if s else nan,
+                e.backscattered if e else nan, "energy"),
+        ]
+    pond = a.ponderomotive
+    if pond is not None:
+        out.append(Row("ponderomotive shift", "Up", pond.predicted, pond.measured, "energy",
+                       note=("" if pond.measurable else "not measurable: ") + pond.reason))
+    em = a.emission
+    if em is not None and em.frequency.size:
+        central = _central_half_cycles(em)
+        dev_short = float(np.median(em.deviation_cycles("short")[central]))
+        dev_long = float(np.median(em.deviation_cycles("long")[central]))
+        share = float(np.mean(em.dominant_branch()[central] == "short"))
+        out += [
+            Row("emission time - short trajectory", "three-step model", 0.0, dev_short, "cycles", "difference",
+                note=f"median over the plateau of the central half cycles; {share:.0%} of points nearer short"),
+            Row("emission time - long trajectory", "three-step model", 0.0, dev_long, "cycles", "difference"),
+        ]
+    st = a.streaking
+    if st is not None:
+        out += [
+            Row("photoelectric peak", "hbar w_XUV - Ip", st.xuv_photon_energy - ip, st.photoelectric_energy, "energy",
+                note="quantum: from (|p_left| + p_right) / 2"),
+            Row("streaking shift", "A_IR(t_XUV)", st.vector_potential, st.measured, "momentum",
+                note="quantum: (|p_left| - p_right) / 2"),
+        ]
+    return out
+
+
+def _central_half_cycles(em):
+    """Rows of the half cycles holding at least half the largest number of plateau points."""
+    labels, counts = np.unique(em.half_cycle, return_counts=True)
+    keep = labels[counts >= 0.5 * counts.max()]
+    return np.isin(em.half_cycle, keep)
+
+
+def _units_of(row: Row, value: float, omega0: float) -> dict:
+    if row.kind in ("energy", "photon"):
+        out = {"au": value, "eV": value * units.HARTREE_EV}
+        if row.kind == "photon" and math.isfinite(omega0):
+            out["order"] = value / omega0
+        return out
+    return {"au": value}
+
+
+def _format(row: Row, value: float, omega0: float) -> str:
+    if not math.isfinite(value):
+        return "-"
+    if row.kind in ("energy", "photon"):
+        text = f"{value * units.HARTREE_EV:.3f} eV ({value:.4g})"
+        if row.kind == "photon" and math.isfinite(omega0):
+            text += f" H{value / omega0:.1f}"
+        return text
+    if row.kind == "probability":
+        return f"{value:.3e}"
+    if row.kind == "momentum":
+        return f"{value:+.4f} a.u."
+    if row.kind == "cycles":
+        return f"{value:+.3f} cycles"
+    return f"{value:.4g}"
+
+
+def _format_comparison(row: Row) -> str:
+    c = row.comparison
+    if not math.isfinite(c):
+        return "-"
+    if row.compare == "ratio":
+        return f"x {c:.3f}"
+    if row.kind in ("energy", "photon"):
+        return f"{c * units.HARTREE_EV:+.3f} eV"
+    return f"{c:+.4g}"
+
+
+def to_json(a: RunAnalysis) -> dict:
+    """The table as JSON-ready data (energies in a.u. and eV, photons also as orders)."""
+    def clean(x):
+        return None if isinstance(x, float) and not math.isfinite(x) else x
+
+    return {
+        "photon_energy_au": clean(a.omega0),
+        "ponderomotive_energy_au": clean(a.ponderomotive_energy),
+        "rows": [
+            {
+                "quantity": r.quantity,
+                "prediction_from": r.prediction_label,
+                "prediction": {k: clean(v) for k, v in _units_of(r, r.prediction, a.omega0).items()},
+                "quantum": {k: clean(v) for k, v in _units_of(r, r.quantum, a.omega0).items()},
+                r.compare: clean(r.comparison),
+                "note": r.note,
+            }
+            for r in rows(a)
+        ],
+        "notes": list(a.notes),
+    }
+
+
+def format_table(a: RunAnalysis) -> str:
+    """The table as plain text for people."""
+    head = ("quantity", "semiclassical prediction", "prediction", "quantum result", "ratio/diff")
+    body = [(r.quantity, r.prediction_label, _format(r, r.prediction, a.omega0), _format(r, r.quantum, a.omega0),
+             _format_comparison(r)) for r in rows(a)]
+    widths = [max(len(x[i]) for x in [head, *body]) for i in range(len(head))]
+    lines = ["  ".join(h.ljust(w) for h, w in zip(head, widths)), "  ".join("-" * w for w in widths)]
+    notes = []
+    for r, cells in zip(rows(a), body):
+        lines.append("  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip())
+        if r.note and r.note not in notes:
+            notes.append(r.note)
+    if math.isfinite(a.ponderomotive_energy):
+        lines.insert(0, f"photon energy {a.omega0 * units.HARTREE_EV:.4f} eV, Up {a.ponderomotive_energy * units.HARTREE_EV:.4f} eV, "
+                        f"Ip {a.ionization_potential * units.HARTREE_EV:.4f} eV; energies in eV (a.u.), H = harmonic order")
+    lines += [""] + [f"* {n}" for n in notes + list(a.notes)]
+    return "\n".join(lines)
+
+
+def main(args):
+    import h5py
+
+    from ..store import is_complete
+
+    if not is_complete(args.result):
+        raise CommandError(f"{args.result} is not a finished tdse1d result file")
+    with h5py.File(args.result, "r") as f:
+        kind = f.attrs.get("kind", "run")
+        if kind != "run":
+            raise CommandError(f"{args.result} is a {kind!r} file; report reads run results")
+        analysis = analyse_file(f)
+    if args.json:
+        print(json.dumps(to_json(analysis), indent=1))
+    else:
+        print(format_table(analysis))
+    return 0
