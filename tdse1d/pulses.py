@@ -124,7 +124,7 @@ class Sin2(Envelope):
 class Gaussian(Envelope):
     """Gaussian field envelope f = exp(-2 ln2 tau^2 / fwhm^2), intensity FWHM ``fwhm``.
 
-    Cut where the field envelope has fallen to ``TRUNCATION`` (1e-6, at +-3.15 fwhm);
+    Cut where the field envelope has fallen to ``TRUNCATION`` (1e-6, at +-3.16 fwhm);
     outside, A is exactly zero. The field's area is then zero to within 1e-6 E0/w.
     """
 
