@@ -23,6 +23,8 @@ COMMANDS = {
     "states": "tdse1d.commands.states",
     "estimate": "tdse1d.commands.estimate",
     "run": "tdse1d.commands.run",
+    "scan": "tdse1d.commands.scan",
+    "compare": "tdse1d.commands.compare",
     "report": "tdse1d.commands.report",
 }
 

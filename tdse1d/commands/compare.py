@@ -1,0 +1,50 @@
+"""``tdse1d compare RESULT_OR_SUMMARY MEASURED.csv``: a computed harmonic spectrum beside a measured one."""
+
+import json
+
+from ..config import InputError
+
+HELP = "broaden and weight a computed harmonic spectrum like a measured one, and compare their cutoffs"
+
+
+def add_arguments(parser):
+    parser.add_argument("computed", metavar="RESULT_OR_SUMMARY", help="run result or scan summary.h5")
+    parser.add_argument("measured", metavar="MEASURED.csv", help="two columns: photon energy (eV) or wavelength (nm), signal")
+    parser.add_argument("--x-unit", choices=("eV", "nm"), default=None,
+                        help="unit of the first column of the CSV files (default: their '# x: ...' header)")
+    parser.add_argument("--response", default=None, metavar="CSV",
+                        help="filter/detector response curve (x, relative response), applied to the computed spectrum")
+    parser.add_argument("--resolution", type=float, default=0.0, metavar="FWHM_eV",
+                        help="spectrometer resolution, Gaussian FWHM in eV (default: none)")
+    parser.add_argument("--point", type=int, default=None, metavar="K", help="for a summary: the scan point (default 0)")
+    parser.add_argument("--average", default=None, metavar="GEOMETRY/SUM",
+                        help="for a summary of an intensity scan: a focal average, e.g. volume/incoherent")
+    parser.add_argument("--plot", default=None, metavar="FILE", help="overlay the two spectra in FILE (png, pdf, svg)")
+    parser.add_argument("--json", action="store_true", help="print the result as JSON")
+
+
+def main(args):
+    from .. import compare
+
+    if args.resolution < 0:
+        raise InputError(f"must be zero or positive, got {args.resolution}", "--resolution")
+    try:
+        measured = compare.read_spectrum_csv(args.measured, args.x_unit)
+        response = compare.read_spectrum_csv(args.response, args.x_unit) if args.response else None
+        energy, power, omega0, ip, label = compare.computed_spectrum(args.computed, args.point, args.average)
+        result = compare.compare_spectra(energy, power, measured, omega0, ip,
+                                         resolution_fwhm_ev=args.resolution, response=response)
+    except (ValueError, OSError, KeyError) as exc:
+        raise InputError(str(exc)) from None
+    if args.plot:
+        compare.plot_comparison(result, args.plot, label)
+    if args.json:
+        print(json.dumps(result.to_json(), indent=1))
+    else:
+        print(f"cutoff computed ({label})  {result.cutoff_computed_ev:8.2f} eV")
+        print(f"cutoff measured            {result.cutoff_measured_ev:8.2f} eV")
+        print(f"difference (meas. - comp.) {result.difference_ev:+8.2f} eV")
+        print(f"resolution {result.resolution_fwhm_ev:g} eV FWHM; normalisation: {result.normalisation}")
+        if args.plot:
+            print(f"wrote {args.plot}")
+    return 0

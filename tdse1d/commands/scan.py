@@ -1,0 +1,87 @@
+"""``tdse1d scan PLAN``: run a parameter scan on Dask distributed and write its summary."""
+
+import sys
+from pathlib import Path
+
+from ..cli import CommandError
+
+HELP = "run every point of a scan plan (Dask distributed, or one point of a job array) and summarise"
+
+
+def add_arguments(parser):
+    parser.add_argument("plan", metavar="PLAN", help="scan plan (TOML): base input and [[axis]] tables")
+    parser.add_argument("-o", "--output", default=None, metavar="SCAN_DIR",
+                        help="scan directory (default: PLAN-STEM in the current directory)")
+    parser.add_argument("--quiet", action="store_true", help="no progress and no summary lines")
+    parser.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                        help="address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a local cluster)")
+    parser.add_argument("--workers", type=int, default=None, help="worker processes of the local cluster (default: cores)")
+    parser.add_argument("--dashboard", action="store_true", help="serve the Dask dashboard of the local cluster on 127.0.0.1:8787")
+    parser.add_argument("--fresh", action="store_true", help="delete the points already in SCAN_DIR and start again")
+    parser.add_argument("--retry-failed", action="store_true", help="run again the points that failed before")
+    mode = parser.add_mutually_exclusive_group()
+    mode.add_argument("--point", type=int, default=None, metavar="K",
+                      help="run point K alone in this process, no Dask (one task of a job array)")
+    mode.add_argument("--gather", action="store_true", help="only assemble summary.h5 from the finished points")
+    mode.add_argument("--list", action="store_true", help="list the points, their hashes and costs, and run nothing")
+
+
+def _scan_dir(args):
+    return Path(args.output) if args.output else Path(Path(args.plan).stem)
+
+
+def main(args):
+    from .. import scan
+    from ..summary import write_summary
+
+    plan = scan.load_plan(args.plan)  # PlanError (exit 2) lists every bad point
+    directory = scan.ScanDirectory(_scan_dir(args))
+    say = (lambda *a: None) if args.quiet else (lambda *a: print(*a))
+    if args.list:
+        for p in plan.points:
+            values = ", ".join(f"{a.key} = {a.values[i]}" for a, i in zip(plan.axes, p.grid_index))
+            print(f"{p.index:4d}  {p.hash}  cost {p.cost:.3g}  {values}  [{directory.state(p)}]")
+        return 0
+    try:
+        if args.point is not None:
+            try:
+                report = scan.run_one(plan, directory.root, args.point, fresh=args.fresh,
+                                      retry_failed=True)
+            except IndexError as exc:
+                from ..config import InputError
+
+                raise InputError(str(exc), "--point", args.plan) from None
+            for k, err in report.failed.items():
+                print(f"tdse1d: point {k} failed: {err}", file=sys.stderr)
+            if report.skipped:
+                say(f"point {args.point} already finished in {directory.root}")
+            elif report.done:
+                say(f"point {args.point} done in {report.wall:.1f} s -> {directory.result(plan.points[args.point])}")
+            return 0 if report.ok else 1
+        if not args.gather:
+            report = scan.run_scan(plan, directory.root, scheduler=args.scheduler, workers=args.workers,
+                                   dashboard=args.dashboard, fresh=args.fresh, retry_failed=args.retry_failed,
+                                   progress=not args.quiet)
+            say(f"scan: {len(report.done)} points run, {len(report.skipped)} already finished, "
+                f"{len(report.failed)} failed, of {report.total} (wall {report.wall:.1f} s)")
+            for k, err in sorted(report.failed.items()):
+                print(f"tdse1d: point {k} ({plan.points[k].hash}) failed: {err}", file=sys.stderr)
+            if report.failed and not args.retry_failed:
+                print("tdse1d: rerun with --retry-failed to run the failed points again", file=sys.stderr)
+        else:
+            directory.claim(plan, fresh=False)
+    except scan.PlanMismatch as exc:
+        raise CommandError(str(exc)) from None
+    except scan.SchedulerUnreachable as exc:
+        raise CommandError(f"{exc}; nothing was run") from None
+    summary = write_summary(plan, directory.root)
+    missing = [p.index for p in plan.points if directory.state(p) != "done"]
+    say(f"wrote {summary.path} ({len(plan.points) - len(missing)} of {len(plan.points)} points)")
+    if summary.fit is not None and not args.quiet:
+        f = summary.fit
+        say(f"  cutoff vs Up fit: slope {f['slope']:.3f} (3.17 expected), intercept {f['intercept_ev']:.2f} eV "
+            f"(Ip = {f['ip_ev']:.2f} eV, 1.32 Ip = {1.32 * f['ip_ev']:.2f} eV), {f['points']} points")
+    if missing:
+        print(f"tdse1d: {len(missing)} points have no result yet: {missing}", file=sys.stderr)
+        return 1
+    return 0
