@@ -646,8 +646,14 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         except ValueError as exc:
             notes.append(f"three-step model not evaluated: {exc}")
 
+    # an XUV pulse (hbar w > Ip) ionizes by one photon: neither the quasi-static
+    # tunnelling picture nor returns in its field apply, so both are left out
+    xuv = _xuv_pulse(inputs, ip) if have_field else None
+    if xuv is not None or (have_field and omega0 > ip):
+        notes.append("a pulse with photon energy above Ip: tunnelling estimate and emission times not evaluated")
+    quasi_static = have_field and xuv is None and not omega0 > ip
     t_tun = p_tun = np.zeros(0)
-    if have_field and inputs.potential is not None:
+    if quasi_static and inputs.potential is not None:
         try:
             p_full = classical.tunnelling_yield(inputs.time, inputs.electric, inputs.potential, e0)
             stride = max(1, inputs.time.size // 2000)
@@ -663,7 +669,7 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         read = inputs.harmonic_cutoff if math.isfinite(inputs.harmonic_cutoff) else 0.0
         try:
             tf = time_frequency_map(inputs.time, inputs.acceleration, omega0, TF_TOP * max(predicted, read))
-            if three is not None and three.short_branch:
+            if quasi_static and three is not None and three.short_branch:
                 emission = emission_times(tf, three, 2 * math.pi / omega0)
         except ValueError as exc:
             notes.append(f"time-frequency map not evaluated: {exc}")
@@ -672,7 +678,6 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
     edges = pond = streak = None
     if method is not None and have_field:
         p, left, right, energy, density = inputs.photoelectrons[method]
-        xuv = _xuv_pulse(inputs, ip)
         if not np.any(np.nan_to_num(left + right) > 0):
             notes.append("the photoelectron spectrum is empty")
         elif xuv is None:

@@ -26,6 +26,8 @@ COMMANDS = {
     "scan": "tdse1d.commands.scan",
     "compare": "tdse1d.commands.compare",
     "report": "tdse1d.commands.report",
+    "plot": "tdse1d.commands.plot",
+    "export": "tdse1d.commands.export",
 }
 
 EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
