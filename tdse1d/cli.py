@@ -28,6 +28,7 @@ COMMANDS = {
     "report": "tdse1d.commands.report",
     "plot": "tdse1d.commands.plot",
     "export": "tdse1d.commands.export",
+    "validate": "tdse1d.commands.validate",
 }
 
 EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2

@@ -1,0 +1,750 @@
+"""The validation suite: runs the cases under ``validation/`` and writes a report.
+
+Each case is a folder ``validation/<case>/`` holding a ``case.toml`` and the input
+(or inputs) it runs. ``case.toml`` states what is compared::
+
+    kind = "bound_energy"             # a key of CASE_KINDS: how the value is computed
+    title = "Soft-core ground state, a = 1"
+    quantity = "ground-state energy"
+    source = "Javanainen, Eberly and Su, Phys. Rev. A 38, 3430 (1988) (value from memory)"
+    quick = true                      # part of `tdse1d validate --quick`
+    input = "input.toml"
+    reference = -0.6698               # in `units`
+    units = "hartree"
+    tolerance = 1e-4                  # |computed - reference| allowed, in `units`
+    [params]                          # anything the kind needs
+
+A case kind is a small class registered in :data:`CASE_KINDS` (contract in
+:class:`CaseKind`): given the case, it runs what it needs and returns
+:class:`Row` objects (quantity, reference and its source, computed value,
+deviation, tolerance, pass or fail) and the figures it drew. Runs go through
+:func:`tdse1d.api.run_problem` in this process, one after the other, into a scratch
+directory; the same resolved input is run once per suite (:class:`Runner`).
+
+:func:`run_suite` runs the cases and :func:`write_report` writes ``report.md`` and
+the PNG figures it refers to.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+import tomllib
+import traceback
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from . import units
+from .config import InputError, load_input
+
+__all__ = [
+    "CASE_KINDS",
+    "register_case_kind",
+    "CaseKind",
+    "Case",
+    "Row",
+    "CaseReport",
+    "Runner",
+    "discover",
+    "run_suite",
+    "write_report",
+    "default_cases_dir",
+]
+
+CASE_KINDS: dict[str, type["CaseKind"]] = {}
+
+
+def register_case_kind(name: str):
+    """Class decorator adding a case kind to :data:`CASE_KINDS` under ``name``."""
+
+    def decorate(cls):
+        cls.kind = name
+        CASE_KINDS[name] = cls
+        return cls
+
+    return decorate
+
+
+def default_cases_dir() -> Path:
+    """``validation/`` of the source tree this package was imported from."""
+    return Path(__file__).resolve().parent.parent / "validation"
+
+
+# ----------------------------------------------------------------------------- data
+
+
+@dataclass
+class Row:
+    """One compared number.
+
+    ``deviation`` is ``computed - reference`` (in ``units``) unless ``relative``, then
+    ``(computed - reference) / |reference|``; ``passed`` is ``|deviation| <= tolerance``
+    unless the kind decided otherwise (``rule`` says how, for the report).
+    """
+
+    quantity: str
+    reference: float
+    computed: float
+    tolerance: float
+    source: str
+    units: str = ""
+    relative: bool = False
+    rule: str = ""
+    passed: bool | None = None
+    informational: bool = False
+
+    def __post_init__(self):
+        ref, got = float(self.reference), float(self.computed)
+        if self.relative:
+            self.deviation = (got - ref) / abs(ref) if ref != 0 else math.inf
+        else:
+            self.deviation = got - ref
+        if self.passed is None:
+            self.passed = bool(math.isfinite(self.deviation) and abs(self.deviation) <= self.tolerance)
+
+
+@dataclass
+class Case:
+    """A folder of ``validation/`` and its ``case.toml``."""
+
+    name: str
+    folder: Path
+    spec: dict
+
+    @property
+    def quick(self) -> bool:
+        return bool(self.spec.get("quick", False))
+
+    @property
+    def title(self) -> str:
+        return self.spec.get("title", self.name)
+
+    def get(self, key, default=InputError):
+        """A key of case.toml (dotted for sub-tables), with a clear error if it is missing."""
+        node = self.spec
+        for part in key.split("."):
+            if not isinstance(node, dict) or part not in node:
+                if default is InputError:
+                    raise InputError("missing key of the validation case", key, str(self.folder / "case.toml"))
+                return default
+            node = node[part]
+        return node
+
+    def input(self, name=None, overrides=()):
+        """Load an input file of the case (``input`` by default) with overrides."""
+        path = self.folder / (name or self.get("input"))
+        return load_input(path, list(self.get("overrides", [])) + list(overrides))
+
+
+@dataclass
+class CaseReport:
+    case: Case
+    rows: list = field(default_factory=list)
+    figures: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
+    seconds: float = 0.0
+    error: str | None = None
+
+    @property
+    def passed(self) -> bool:
+        return self.error is None and all(r.passed for r in self.rows) and bool(self.rows)
+
+
+def discover(root=None, quick=False, names=None) -> list[Case]:
+    """The cases under ``root`` (sorted by name), only the quick ones if asked."""
+    root = Path(root) if root is not None else default_cases_dir()
+    cases = []
+    for path in sorted(root.glob("*/case.toml")):
+        try:
+            spec = tomllib.loads(path.read_text(encoding="utf-8"))
+        except tomllib.TOMLDecodeError as exc:
+            raise InputError(f"TOML syntax error: {exc}", source=str(path)) from None
+        kind = spec.get("kind")
+        if kind not in CASE_KINDS:
+            raise InputError(f"unknown case kind {kind!r}; choose one of {', '.join(CASE_KINDS)}", "kind", str(path))
+        case = Case(path.parent.name, path.parent, spec)
+        if quick and not case.quick:
+            continue
+        if names and case.name not in names:
+            continue
+        cases.append(case)
+    return cases
+
+
+class Runner:
+    """Runs inputs in this process, once per resolved input, into ``workdir``."""
+
+    def __init__(self, workdir):
+        self.workdir = Path(workdir)
+        self.workdir.mkdir(parents=True, exist_ok=True)
+        self._cache = {}
+        self.runs = 0
+
+    def run(self, config):
+        """:class:`~tdse1d.api.RunOutcome` of a :class:`~tdse1d.config.RunConfig`."""
+        from .api import run_problem
+        from .checkpoint import input_hash
+        from .problem import build_problem
+
+        digest = input_hash(config)
+        if digest not in self._cache:
+            problem = build_problem(config)
+            out = self.workdir / f"{digest[:16]}.h5"
+            self._cache[digest] = run_problem(problem, out, control=_NoCheckpoints())
+            out.unlink(missing_ok=True)  # the result is kept in memory; the file is not needed
+            self.runs += 1
+        return self._cache[digest]
+
+
+class _NoCheckpoints:
+    stop_requested = False
+
+    def checkpoint_due(self):
+        return False
+
+
+# ------------------------------------------------------------------------ helpers
+
+
+def _plt():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def _smoothed_log(spec, half_width):
+    from .spectra import _running_mean
+
+    return _running_mean(spec.frequency, np.log10(np.maximum(spec.power, 1e-300)), half_width)
+
+
+def _plateau_band(problem, lo_up=0.5, hi_up=2.5):
+    """Photon energies (a.u.) of the harmonic plateau, Ip + lo_up Up .. Ip + hi_up Up."""
+    est = problem.pulse_estimates[0]
+    return est.ionization_potential + lo_up * est.ponderomotive_energy, est.ionization_potential + hi_up * est.ponderomotive_energy
+
+
+def _plateau_rms(spec_a, spec_b, band, omega0):
+    """RMS difference (decades) of two spectra smoothed over one harmonic order, in ``band``."""
+    freq = spec_a.frequency
+    la = _smoothed_log(spec_a, omega0)
+    lb = np.interp(freq, spec_b.frequency, _smoothed_log(spec_b, omega0))
+    sel = (freq >= band[0]) & (freq <= band[1])
+    return float(np.sqrt(np.mean((la[sel] - lb[sel]) ** 2)))
+
+
+def _linear_fit(x, y):
+    slope, intercept = np.polyfit(np.asarray(x, float), np.asarray(y, float), 1)
+    return float(slope), float(intercept)
+
+
+# -------------------------------------------------------------------------- kinds
+
+
+class CaseKind:
+    """How one kind of case is computed.
+
+    Contract for an implementer: ``__init__(case, runner, figure_dir)`` (the base class
+    stores them), and :meth:`run` returns a list of :class:`Row`; figures are saved as
+    PNG in ``figure_dir`` through :meth:`figure`, which records their names. Values
+    and references are in the units the rows state.
+    """
+
+    kind = "?"
+
+    def __init__(self, case: Case, runner: Runner, figure_dir: Path):
+        self.case = case
+        self.runner = runner
+        self.figure_dir = Path(figure_dir)
+        self.figures = []
+        self.notes = []
+
+    def run(self) -> list[Row]:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def figure(self, fig, stem):
+        name = f"{self.case.name}_{stem}.png"
+        self.figure_dir.mkdir(parents=True, exist_ok=True)
+        fig.savefig(self.figure_dir / name, dpi=110, bbox_inches="tight")
+        _plt().close(fig)
+        self.figures.append(name)
+
+    def row(self, computed, quantity=None, reference=None, tolerance=None, **kw):
+        c = self.case
+        return Row(
+            quantity=quantity or c.get("quantity"),
+            reference=c.get("reference") if reference is None else reference,
+            computed=computed,
+            tolerance=c.get("tolerance") if tolerance is None else tolerance,
+            source=kw.pop("source", c.get("source")),
+            units=kw.pop("units", c.get("units", "")),
+            relative=kw.pop("relative", bool(c.get("relative", False))),
+            **kw,
+        )
+
+
+@register_case_kind("bound_energy")
+class BoundEnergy(CaseKind):
+    """Energy of bound state ``params.state`` of the input's model on its grid."""
+
+    def run(self):
+        from .api import states
+
+        result = states(self.case.input())
+        n = int(self.case.get("params.state", 0))
+        e = float(result.states.energies[n])
+        unit = self.case.get("units", "hartree")
+        return [self.row(e if unit == "hartree" else units.au_to_ev(e))]
+
+
+@register_case_kind("exact_levels")
+class ExactLevels(CaseKind):
+    """Every bound level of a model with exact levels (``potential.exact_levels()``)."""
+
+    def run(self):
+        from .api import states
+
+        result = states(self.case.input())
+        exact = result.problem.potential.exact_levels()
+        got = result.states.energies
+        if len(got) < len(exact):
+            self.notes.append(f"only {len(got)} of the {len(exact)} exact levels were found on the grid")
+        rows = []
+        for n, ref in enumerate(exact):
+            value = float(got[n]) if n < len(got) else math.nan
+            rows.append(self.row(value, quantity=f"E_{n}", reference=float(ref)))
+        return rows
+
+
+@register_case_kind("softening_fit")
+class SofteningFit(CaseKind):
+    """Fit the softening to each listed ionization potential; check the fitted model's Ip.
+
+    ``params.atoms`` is an array of ``{name, ionization_potential_ev}``; the fitted
+    ground state on the run's grid must reproduce the Ip (eV).
+    """
+
+    def run(self):
+        from .api import states
+
+        rows = []
+        for atom in self.case.get("params.atoms"):
+            ip = float(atom["ionization_potential_ev"])
+            config = self.case.input(overrides=[f'atom.ionization_potential="{ip!r} eV"'])
+            result = states(config, count=1)
+            got = -units.au_to_ev(float(result.states.energies[0]))
+            rows.append(self.row(got, quantity=f"{atom['name']}: Ip of the fitted model (softening a = "
+                                 f"{result.softening:.5f} bohr)", reference=ip))
+        return rows
+
+
+class _ScanKind(CaseKind):
+    """A kind that runs the case's input at every value of ``params.scan_key``."""
+
+    def points(self, extra=()):
+        key = self.case.get("params.scan_key")
+        outcomes = []
+        for value in self.case.get("params.scan_values"):
+            text = f'"{value}"' if isinstance(value, str) else repr(value)
+            config = self.case.input(overrides=[f"{key}={text}", *extra])
+            outcomes.append((value, self.runner.run(config)))
+        return outcomes
+
+
+@register_case_kind("cutoff_law")
+class CutoffLaw(_ScanKind):
+    """Harmonic cutoff read off each spectrum against Up: fitted slope and intercept.
+
+    Rows: the slope of cutoff energy versus Up (reference 3.17, relative tolerance) and
+    the intercept, which must lie between Ip and 1.6 Ip (the 1.32 Ip of Lewenstein et
+    al. 1994 lies inside).
+    """
+
+    def run(self):
+        ups, cuts, ips, labels = [], [], [], []
+        for value, out in self.points():
+            est = out.problem.pulse_estimates[0]
+            if out.result.cutoff is None or not out.result.cutoff.resolved:
+                self.notes.append(f"{value}: cutoff not resolved")
+                continue
+            ups.append(est.ponderomotive_energy)
+            cuts.append(out.result.cutoff.frequency)
+            ips.append(est.ionization_potential)
+            labels.append(str(value))
+        if len(ups) < 3:
+            return [self.row(math.nan, quantity="slope of cutoff vs Up", reference=3.17, relative=True)]
+        slope, intercept = _linear_fit(ups, cuts)
+        ip = float(np.mean(ips))
+        ev = units.HARTREE_EV
+        plt = _plt()
+        fig, ax = plt.subplots(figsize=(5, 3.6))
+        ax.plot(np.array(ups) * ev, np.array(cuts) * ev, "o", label="read off the spectra")
+        u = np.linspace(0, max(ups) * 1.1, 50)
+        ax.plot(u * ev, (intercept + slope * u) * ev, "-", label=f"fit: {intercept / ip:.2f} Ip + {slope:.2f} Up")
+        ax.plot(u * ev, (ip + 3.17 * u) * ev, "--", label="Ip + 3.17 Up")
+        ax.set_xlabel("Up (eV)")
+        ax.set_ylabel("cutoff photon energy (eV)")
+        ax.legend(fontsize=8)
+        ax.set_title(self.case.title, fontsize=9)
+        self.figure(fig, "cutoff")
+        inside = ip <= intercept <= 1.6 * ip
+        return [
+            self.row(slope, quantity="slope of cutoff energy vs Up", reference=3.17, tolerance=0.10, relative=True,
+                     units="1"),
+            self.row(intercept / ip, quantity="intercept / Ip", reference=1.3, tolerance=0.3, units="1",
+                     rule="must lie in [1, 1.6]", passed=inside),
+        ]
+
+
+@register_case_kind("photoelectric_peak")
+class PhotoelectricPeak(CaseKind):
+    """Peak of the photoelectron energy spectrum of one-photon ionization at hbar w - Ip."""
+
+    def run(self):
+        out = self.runner.run(self.case.input())
+        spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+        est = out.problem.pulse_estimates[0]
+        e = spec.energy
+        dens = np.nan_to_num(spec.energy_density)
+        sel = e > 0.1 * est.photon_energy
+        peak = float(e[sel][np.argmax(dens[sel])])
+        ref = est.photon_energy - est.ionization_potential
+        ev = units.HARTREE_EV
+        plt = _plt()
+        fig, ax = plt.subplots(figsize=(5, 3.4))
+        ax.semilogy(e * ev, np.maximum(dens, 1e-12))
+        ax.axvline(ref * ev, color="k", ls="--", label="hbar w - Ip")
+        ax.set_xlim(0, 2 * est.photon_energy * ev)
+        ax.set_xlabel("photoelectron energy (eV)")
+        ax.set_ylabel("dP/dE (1/Hartree)")
+        ax.legend(fontsize=8)
+        self.figure(fig, "spectrum")
+        return [self.row(peak * ev, reference=ref * ev, units="eV")]
+
+
+@register_case_kind("photoelectron_edges")
+class PhotoelectronEdges(CaseKind):
+    """Edges of the direct (2 Up) and backscattered (10 Up) photoelectrons.
+
+    An edge is the highest energy at which the smoothed log10 dP/dE is still within
+    ``params.drop`` decades of its mean level over ``params.direct_band`` or
+    ``params.plateau_band`` (in units of Up). The tolerance is relative.
+    """
+
+    def run(self):
+        out = self.runner.run(self.case.input())
+        spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+        up = out.problem.pulse_estimates[0].ponderomotive_energy
+        e = spec.energy / up
+        with np.errstate(divide="ignore"):
+            log = np.log10(np.maximum(np.nan_to_num(spec.energy_density), 1e-300))
+        from .spectra import _running_mean
+
+        smooth = _running_mean(e, log, float(self.case.get("params.smooth_up", 0.3)))
+        drop = float(self.case.get("params.drop", 1.0))
+        rows = []
+        edges = {}
+        for name, band_key, ref in (("direct", "params.direct_band", 2.0), ("backscattered", "params.plateau_band", 10.0)):
+            lo, hi = self.case.get(band_key)
+            level = float(np.mean(smooth[(e >= lo) & (e <= hi)]))
+            above = np.flatnonzero((smooth >= level - drop) & (e >= lo))
+            # the first energy past the band where the level is lost for good
+            edge = float(e[above[-1]]) if len(above) else math.nan
+            if name == "direct":
+                start = np.flatnonzero((e > hi) & (smooth < level - drop))
+                edge = float(e[start[0]]) if len(start) else math.nan
+            edges[name] = edge
+            rows.append(self.row(edge, quantity=f"{name} electrons' edge (units of Up)", reference=ref, units="Up",
+                                 relative=True))
+        plt = _plt()
+        fig, ax = plt.subplots(figsize=(5, 3.4))
+        ax.plot(e, log, lw=0.5, color="0.6")
+        ax.plot(e, smooth, lw=1.2)
+        for name, ref in (("direct", 2), ("backscattered", 10)):
+            ax.axvline(ref, color="k", ls="--", lw=0.8)
+            ax.axvline(edges[name], color="r", ls=":", lw=1)
+        ax.set_xlim(0, 14)
+        ax.set_ylim(smooth[e < 14].max() - 8, smooth[e < 14].max() + 0.5)
+        ax.set_xlabel("photoelectron energy / Up")
+        ax.set_ylabel("log10 dP/dE")
+        self.figure(fig, "spectrum")
+        return rows
+
+
+@register_case_kind("streaking")
+class Streaking(_ScanKind):
+    """Streaking: the final-momentum shift of the photoline against -A at the XUV delay.
+
+    The right-going line ends at |p| = p0 - A(t_d) and the left-going one at
+    p0 + A(t_d) (electron charge -1, final momentum = kinetic momentum at birth
+    - A(t_d)), so the shift is half their difference. Rows: fitted slope of shift
+    vs -A(t_d) (reference 1) and the RMS residual relative to max |A|.
+    """
+
+    def run(self):
+        shifts, minus_a = [], []
+        for value, out in self.points():
+            spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+            p = spec.momentum
+            xuv = out.problem.pulse_estimates[-1]
+            p0 = math.sqrt(2 * (xuv.photon_energy - xuv.ionization_potential))
+            sel = (p > 0.5 * p0) & (p < 1.5 * p0)
+
+            def centre(d):
+                w = d[sel]
+                return float((p[sel] * w).sum() / w.sum())
+
+            shifts.append(0.5 * (centre(spec.density_right) - centre(spec.density_left)))
+            t_d = self._delay(out)
+            minus_a.append(-float(out.problem.field.pulses[0].vector_potential(np.array([t_d]))[0]))
+        slope, intercept = _linear_fit(minus_a, shifts)
+        amax = max(abs(a) for a in minus_a)
+        resid = float(np.sqrt(np.mean((np.array(shifts) - np.array(minus_a)) ** 2)) / amax)
+        plt = _plt()
+        fig, ax = plt.subplots(figsize=(5, 3.4))
+        ax.plot(minus_a, shifts, "o", label="TDSE")
+        ax.plot([-amax, amax], [-amax, amax], "k--", label="shift = -A(t_d)")
+        ax.set_xlabel("-A(t_d) (a.u.)")
+        ax.set_ylabel("momentum shift of the photoline (a.u.)")
+        ax.legend(fontsize=8)
+        self.figure(fig, "shift")
+        return [
+            self.row(slope, quantity="slope of the shift vs -A(t_d)", reference=1.0, units="1", relative=True),
+            self.row(resid, quantity="RMS of shift + A(t_d), relative to max |A|", reference=0.0, units="1",
+                     tolerance=float(self.case.get("params.residual_tolerance", 0.1))),
+        ]
+
+    @staticmethod
+    def _delay(out):
+        return float(out.problem.config.lasers[-1].delay)
+
+
+@register_case_kind("gauge_invariance")
+class GaugeInvariance(CaseKind):
+    """The same run in the length and velocity gauges: ionization and harmonic plateau.
+
+    Rows: relative difference of the ionization probability, and the RMS difference
+    (decades) of the harmonic spectra smoothed over one order in the plateau.
+    """
+
+    def run(self):
+        length = self.runner.run(self.case.input(overrides=['propagation.gauge="length"']))
+        velocity = self.runner.run(self.case.input(overrides=['propagation.gauge="velocity"']))
+        p_l, p_v = length.result.ionization_probability, velocity.result.ionization_probability
+        omega0 = length.problem.field.omega
+        band = _plateau_band(length.problem)
+        rms = _plateau_rms(length.result.harmonic, velocity.result.harmonic, band, omega0)
+        _spectra_figure(self, {"length": length.result.harmonic, "velocity": velocity.result.harmonic}, omega0, band)
+        return [
+            self.row(p_v, quantity="ionization probability, velocity gauge (reference: length gauge)",
+                     reference=p_l, tolerance=float(self.case.get("params.ionization_tolerance")), relative=True,
+                     units="1"),
+            self.row(rms, quantity="plateau RMS difference of log10 spectra", reference=0.0,
+                     tolerance=float(self.case.get("params.plateau_tolerance")), units="decades"),
+        ]
+
+
+def _spectra_figure(kind, spectra_by_name, omega0, band):
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(5.5, 3.4))
+    for name, spec in spectra_by_name.items():
+        ax.semilogy(spec.order, np.maximum(spec.power, 1e-300), lw=0.7, label=name)
+    ax.axvspan(band[0] / omega0, band[1] / omega0, color="0.9", zorder=-1, label="plateau compared")
+    top = max(float(np.max(s.power[s.order > 3])) for s in spectra_by_name.values())
+    ax.set_ylim(top * 1e-12, top * 10)
+    ax.set_xlim(0, band[1] / omega0 * 1.6)
+    ax.set_xlabel("harmonic order")
+    ax.set_ylabel("power (a.u.)")
+    ax.legend(fontsize=7)
+    kind.figure(fig, "spectra")
+
+
+@register_case_kind("dipole_forms")
+class DipoleForms(CaseKind):
+    """Dipole, velocity and acceleration forms of one run's harmonic spectrum in the plateau."""
+
+    def run(self):
+        from .spectra import dipole_forms
+
+        out = self.runner.run(self.case.input())
+        obs = out.result.observables
+        omega0 = out.problem.field.omega
+        window = out.problem.config.spectra.window
+        forms = dipole_forms(obs.time, omega0, dipole=obs.dipole, velocity=obs.momentum,
+                             acceleration=obs.acceleration, window=window)
+        band = _plateau_band(out.problem)
+        _spectra_figure(self, forms, omega0, band)
+        tol = float(self.case.get("tolerance"))
+        return [
+            self.row(_plateau_rms(forms["acceleration"], forms[name], band, omega0),
+                     quantity=f"plateau RMS difference of log10 spectra, {name} vs acceleration form",
+                     reference=0.0, tolerance=tol, units="decades")
+            for name in ("dipole", "velocity")
+        ]
+
+
+@register_case_kind("convergence")
+class Convergence(CaseKind):
+    """Halving grid spacing, doubling box and absorber, halving the time step.
+
+    ``params.variants`` is an array of ``{name, set = [overrides]}``; each is compared
+    with the base run: plateau RMS difference (decades) and relative change of the
+    ionization probability.
+    """
+
+    def run(self):
+        base = self.runner.run(self.case.input())
+        omega0 = base.problem.field.omega
+        band = _plateau_band(base.problem)
+        rows = []
+        shown = {"base": base.result.harmonic}
+        for variant in self.case.get("params.variants"):
+            out = self.runner.run(self.case.input(overrides=variant["set"]))
+            shown[variant["name"]] = out.result.harmonic
+            rows.append(self.row(_plateau_rms(base.result.harmonic, out.result.harmonic, band, omega0),
+                                 quantity=f"{variant['name']}: plateau RMS change of log10 spectrum",
+                                 reference=0.0, tolerance=float(self.case.get("params.plateau_tolerance")),
+                                 units="decades"))
+            rows.append(self.row(out.result.ionization_probability,
+                                 quantity=f"{variant['name']}: ionization probability (reference: base run)",
+                                 reference=base.result.ionization_probability,
+                                 tolerance=float(self.case.get("params.ionization_tolerance")),
+                                 relative=True, units="1"))
+        _spectra_figure(self, shown, omega0, band)
+        return rows
+
+
+@register_case_kind("tunnelling_yield")
+class TunnellingYield(_ScanKind):
+    """TDSE ionization against the quasi-static tunnelling estimate over an intensity scan.
+
+    Agreement within ``params.factor`` is required where the Keldysh parameter is
+    below 1 and the peak field below ``params.max_bsi_fraction`` of the
+    barrier-suppression field; beyond, the departure is reported (informational rows).
+    """
+
+    def run(self):
+        from .classical import tunnelling_yield
+
+        factor = float(self.case.get("params.factor"))
+        max_bsi = float(self.case.get("params.max_bsi_fraction"))
+        rows, pts = [], []
+        for value, out in self.points():
+            p = out.problem
+            est = p.pulse_estimates[0]
+            t = p.time.times
+            estimate = float(tunnelling_yield(t, p.field.electric(t), p.potential, -p.ionization_potential)[-1])
+            tdse = out.result.ionization_probability
+            ratio = tdse / estimate if estimate > 0 else math.inf
+            bsi_frac = est.peak_field / est.barrier_suppression_field
+            checked = est.keldysh_parameter < 1 and bsi_frac < max_bsi
+            pts.append((est.peak_intensity_W_cm2, tdse, estimate, est.keldysh_parameter, bsi_frac))
+            label = f"{value}: TDSE/tunnelling (Keldysh {est.keldysh_parameter:.2f}, F/F_bsi {bsi_frac:.2f})"
+            dev = abs(math.log10(ratio)) if ratio > 0 and math.isfinite(ratio) else math.inf
+            rows.append(Row(quantity=label, reference=1.0, computed=ratio, tolerance=math.log10(factor),
+                            source=self.case.get("source"), units="1",
+                            rule=(f"|log10 ratio| <= log10 {factor:g}" if checked else "departure reported"),
+                            passed=(dev <= math.log10(factor)) if checked else True, informational=not checked))
+        plt = _plt()
+        fig, ax = plt.subplots(figsize=(5, 3.6))
+        arr = np.array(pts)
+        ax.loglog(arr[:, 0], arr[:, 1], "o-", label="TDSE (1 - bound population)")
+        ax.loglog(arr[:, 0], arr[:, 2], "s--", label="quasi-static tunnelling")
+        for i_w, _, _, g, f in pts:
+            ax.annotate(f"γ={g:.2f}\nF/Fbsi={f:.2f}", (i_w, arr[:, 1].min()), fontsize=6, ha="center")
+        ax.set_xlabel("peak intensity (W/cm²)")
+        ax.set_ylabel("ionization probability")
+        ax.legend(fontsize=8)
+        self.figure(fig, "yield")
+        return rows
+
+
+# ------------------------------------------------------------------------- driver
+
+
+def run_suite(cases, report_dir, log=None) -> list[CaseReport]:
+    """Run ``cases`` (from :func:`discover`), figures into ``report_dir``.
+
+    A case that raises is reported as failed with its error; the others still run.
+    ``log(message)`` is told when each case starts and ends.
+    """
+    import tempfile
+
+    report_dir = Path(report_dir)
+    report_dir.mkdir(parents=True, exist_ok=True)
+    reports = []
+    with tempfile.TemporaryDirectory(prefix="tdse1d-validate-") as scratch:
+        runner = Runner(scratch)
+        for case in cases:
+            if log:
+                log(f"{case.name} ...")
+            started = time.perf_counter()
+            kind = CASE_KINDS[case.get("kind")](case, runner, report_dir)
+            rep = CaseReport(case)
+            try:
+                rep.rows = kind.run()
+            except Exception as exc:  # a broken case must not hide the others' results
+                rep.error = f"{type(exc).__name__}: {exc}"
+                rep.notes.append(traceback.format_exc(limit=3))
+            rep.figures = kind.figures
+            rep.notes = kind.notes + rep.notes
+            rep.seconds = time.perf_counter() - started
+            reports.append(rep)
+            if log:
+                log(f"{case.name}: {'pass' if rep.passed else 'FAIL'} ({rep.seconds:.1f} s)")
+    return reports
+
+
+def _fmt(v):
+    if isinstance(v, float):
+        if not math.isfinite(v):
+            return str(v)
+        if v == 0:
+            return "0"
+        return f"{v:.5g}" if 1e-3 <= abs(v) < 1e5 else f"{v:.3e}"
+    return str(v)
+
+
+def write_report(reports, report_dir, header: dict) -> Path:
+    """Write ``report_dir/report.md`` for the case reports; ``header`` is shown first."""
+    report_dir = Path(report_dir)
+    n_pass = sum(r.passed for r in reports)
+    lines = ["# tdse1d validation report", ""]
+    for k, v in header.items():
+        lines.append(f"- {k}: {v}")
+    lines += [f"- cases: {len(reports)}, passed {n_pass}, failed {len(reports) - n_pass}", "",
+              "| case | result | time (s) |", "| --- | --- | --- |"]
+    for r in reports:
+        lines.append(f"| [{r.case.name}](#{r.case.name}) | {'pass' if r.passed else '**FAIL**'} | {r.seconds:.1f} |")
+    lines.append("")
+    for r in reports:
+        c = r.case
+        lines += [f"## {c.name}", "", f"**{c.title}** (kind `{c.get('kind')}`): {'pass' if r.passed else '**FAIL**'}", ""]
+        if c.get("description", None):
+            lines += [c.get("description").strip(), ""]
+        lines += [f"Source: {c.get('source', '')}", ""]
+        if r.error:
+            lines += [f"Error: `{r.error}`", ""]
+        if r.rows:
+            lines += ["| quantity | reference | computed | deviation | tolerance | result |",
+                      "| --- | --- | --- | --- | --- | --- |"]
+            for row in r.rows:
+                unit = f" {row.units}" if row.units and not row.relative else ""
+                dev = f"{_fmt(row.deviation)}" + (" (relative)" if row.relative else unit)
+                tol = row.rule or (f"{_fmt(row.tolerance)}" + (" (relative)" if row.relative else unit))
+                verdict = "report" if row.informational else ("pass" if row.passed else "**FAIL**")
+                lines.append(f"| {row.quantity} | {_fmt(row.reference)}{unit} | {_fmt(row.computed)}{unit} | {dev} | "
+                             f"{tol} | {verdict} |")
+            lines.append("")
+        for note in r.notes:
+            lines += ["```", note.rstrip(), "```", ""] if "\n" in note else [f"- {note}", ""]
+        for fig in r.figures:
+            lines += [f"![{c.name}]({fig})", ""]
+    path = report_dir / "report.md"
+    path.write_text("\n".join(lines), encoding="utf-8")
+    return path
