@@ -92,6 +92,7 @@ def read_spectrum_csv(path, x_unit: str | None = None) -> MeasuredSpectrum:
     if x_unit not in X_UNITS:
         raise ValueError(f"unknown x unit {x_unit!r}; choose one of {', '.join(X_UNITS)}")
     rows = []
+    names_seen = False
     for n, line in enumerate(text.splitlines(), 1):
         line = line.split("#", 1)[0].strip()
         if not line:
@@ -100,7 +101,8 @@ def read_spectrum_csv(path, x_unit: str | None = None) -> MeasuredSpectrum:
         try:
             values = [float(p) for p in parts]
         except ValueError:
-            if not rows:  # a column-name line before the data
+            if not rows and not names_seen:  # one column-name line before the data
+                names_seen = True
                 continue
             raise ValueError(f"{path}:{n}: cannot read {line!r} as two numbers") from None
         if len(values) != 2:

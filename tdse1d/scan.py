@@ -876,7 +876,7 @@ class _Progress:
             self.bar.close()
 
 
-def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, workers: int | None = None,
+def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, timeout: float = 10.0, workers: int | None = None,
              dashboard: bool = False, fresh: bool = False, retry_failed: bool = False,
              progress: bool = True, client=None) -> ScanReport:
     """Run every point of ``plan`` that has no finished result in ``directory``, on Dask.
@@ -889,6 +889,8 @@ def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, workers
     scheduler : str, optional
         Address of an existing Dask scheduler, e.g. ``tcp://10.0.0.5:8786``; default a
         :func:`local_cluster`.
+    timeout : float
+        Seconds to wait for that scheduler.
     workers : int, optional
         Workers of the local cluster (default: the cores).
     dashboard : bool
@@ -922,7 +924,7 @@ def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, workers
     try:
         if client is None:
             if scheduler is not None:
-                client = own_client = connect(scheduler)
+                client = own_client = connect(scheduler, timeout)
             else:
                 from distributed import Client
 

@@ -15,6 +15,8 @@ def add_arguments(parser):
     parser.add_argument("--quiet", action="store_true", help="no progress and no summary lines")
     parser.add_argument("--scheduler", default=None, metavar="ADDRESS",
                         help="address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a local cluster)")
+    parser.add_argument("--timeout", type=float, default=10.0, metavar="SECONDS",
+                        help="how long to wait for the scheduler given by --scheduler (default 10 s)")
     parser.add_argument("--workers", type=int, default=None, help="worker processes of the local cluster (default: cores)")
     parser.add_argument("--dashboard", action="store_true", help="serve the Dask dashboard of the local cluster on 127.0.0.1:8787")
     parser.add_argument("--fresh", action="store_true", help="delete the points already in SCAN_DIR and start again")
@@ -59,7 +61,8 @@ def main(args):
                 say(f"point {args.point} done in {report.wall:.1f} s -> {directory.result(plan.points[args.point])}")
             return 0 if report.ok else 1
         if not args.gather:
-            report = scan.run_scan(plan, directory.root, scheduler=args.scheduler, workers=args.workers,
+            report = scan.run_scan(plan, directory.root, scheduler=args.scheduler, timeout=args.timeout,
+                                   workers=args.workers,
                                    dashboard=args.dashboard, fresh=args.fresh, retry_failed=args.retry_failed,
                                    progress=not args.quiet)
             say(f"scan: {len(report.done)} points run, {len(report.skipped)} already finished, "
