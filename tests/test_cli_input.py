@@ -330,3 +330,28 @@ def test_set_wavelength_scales_up_as_its_square():
     ratio = (880.0 / base["wavelength_nm"]) ** 2
     assert longer["ponderomotive_energy_eV"] == pytest.approx(ratio * base["ponderomotive_energy_eV"], rel=1e-9)
     assert longer["quiver_amplitude_au"] == pytest.approx(ratio * base["quiver_amplitude_au"], rel=1e-9)
+
+
+def test_every_input_key_is_documented():
+    import dataclasses
+    import re
+
+    from tdse1d import config
+
+    text = (INPUTS.parent / "docs" / "input.md").read_text()
+    tables = {
+        "[atom]": config.AtomConfig,
+        "[[atom.centre]]": config.CentreConfig,
+        "[grid]": config.GridConfig,
+        "[[laser]]": config.LaserConfig,
+        "[propagation]": config.PropagationConfig,
+        "[absorber]": config.AbsorberConfig,
+        "[output]": config.OutputConfig,
+        "[spectra]": config.SpectraConfig,
+    }
+    for heading, cls in tables.items():
+        match = re.search(rf"^#+ `{re.escape(heading)}`\n(.*?)(?=^#+ )", text, flags=re.S | re.M)
+        assert match, heading
+        documented = set(re.findall(r"^\| `(\w+)` \|", match.group(1), flags=re.M))
+        keys = {f.name for f in dataclasses.fields(cls) if "spec" in f.metadata}
+        assert documented >= keys, (heading, keys - documented)
