@@ -83,8 +83,9 @@ TF_NYQUIST_MARGIN = 2.0
 #: electrons too, so it is complete on a small box
 PHOTOELECTRON_METHOD_ORDER = ("mask", "plane_wave")
 
-#: decades by which the smoothed spectrum may stay above the plateau level at the
-#: direct edge, and fall below it at the backscattered edge (see photoelectron_edges)
+#: decades by which the smoothed spectrum falls below the direct level at the direct
+#: edge (and may stay above the plateau where the plateau starts), and falls below
+#: the plateau level at the backscattered edge (see photoelectron_edges)
 DIRECT_RISE = 0.5
 BACKSCATTER_DROP = 1.5
 #: decades above the noise floor that count as signal
@@ -417,10 +418,10 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
        ``P`` = median of S over ``[E_1, E_b]``. ``E_b`` is the backscattered edge:
        beyond it S stays more than ``drop`` decades below the plateau. Only the last
        crossing counts, so dips inside the plateau do not end it.
-    4. The direct edge ``E_d`` is the first energy above the peak where S has come
-       down half way (in decades) from the direct level (median of S between the
-       peak and ``E_1``) to the plateau level: the middle of the steep fall between
-       the two.
+    4. The direct edge ``E_d`` is the first energy above the peak where S has fallen
+       ``rise`` decades below the direct level (median of S between the peak and
+       ``E_1``): the knee where the direct electrons' distribution starts its steep
+       fall to the plateau.
 
     Classically direct electrons end below ``2 Up`` and backscattered ones below
     ``10 Up`` (Paulus et al., J. Phys. B 27, L703 (1994), from memory). The rule does
@@ -482,7 +483,7 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
         seen.add((i_1, i_b))
         level = float(np.median(tail[i_1 : i_b + 1]))
     direct_level = float(np.median(tail[: i_1 + 1]))
-    i_d = int(np.flatnonzero(tail <= 0.5 * (direct_level + level))[0])
+    i_d = int(np.flatnonzero(tail <= direct_level - rise)[0])
     return PhotoelectronEdges(float(ee[start + i_d]), float(ee[start + i_b]), level, peak, smoothed)
 
 

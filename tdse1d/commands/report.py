@@ -17,6 +17,7 @@ import numpy as np
 from .. import units
 from ..analysis import RunAnalysis, analyse_file
 from ..cli import CommandError
+from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 HELP = "side-by-side table: semiclassical prediction | quantum result | ratio, for a result file"
 
@@ -61,8 +62,8 @@ def rows(a: RunAnalysis) -> list[Row]:
         out += [
             Row("harmonic cutoff", "three-step model, this pulse", s.cutoff_energy if s else nan,
                 a.harmonic_cutoff, "photon", note="quantum: read off the spectrum (docs/analysis.md)"),
-            Row("harmonic cutoff", "Ip + 3.17 Up", ip + 3.17 * up, a.harmonic_cutoff, "photon"),
-            Row("harmonic cutoff", "1.32 Ip + 3.17 Up", 1.32 * ip + 3.17 * up, a.harmonic_cutoff, "photon"),
+            Row("harmonic cutoff", "Ip + 3.17 Up", ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon"),
+            Row("harmonic cutoff", "1.32 Ip + 3.17 Up", LEWENSTEIN_IP * ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon"),
             Row("max. return energy / Up", "three-step model (3.17 for a long pulse)",
                 s.max_return_energy / up if s else nan, nan, "number"),
         ]
@@ -74,7 +75,7 @@ def rows(a: RunAnalysis) -> list[Row]:
         e = a.edges
         out += [
             Row("direct-electron edge", "2 Up", 2 * up, e.direct if e else nan, "energy",
-                note="quantum: middle of the fall to the plateau"),
+                note="quantum: knee where the direct distribution falls 0.5 decade (docs/analysis.md)"),
             Row("direct-electron edge", "three-step model, this pulse", s.max_direct_energy if s else nan,
                 e.direct if e else nan, "energy"),
             Row("backscattered edge", "10 Up", 10 * up, e.backscattered if e else nan, "energy",
