@@ -493,7 +493,7 @@ def _read_laser(table, path, base_dir: Path):
         for name in ("time_unit", "field_unit"):
             if getattr(laser, name) is None:
                 raise InputError(f"a field_file needs '{name}' (e.g. \"fs\", \"V/m\" or \"au\")", _join(path, name))
-        for name in ("peak_intensity", "peak_field", "cycles", "fwhm"):
+        for name in ("peak_intensity", "peak_field", "cycles", "fwhm", "envelope", "ramp_cycles", "cep", "chirp"):
             if name in table:
                 raise InputError("does not apply to a pulse read from field_file", _join(path, name))
         return laser
