@@ -111,6 +111,10 @@ BAD_INPUTS = [
      "laser.0.field_file", ["two columns"], []),
     ("unordered-field-file", ATOM + '[[laser]]\nfield_file = "unordered.dat"\ntime_unit = "fs"\nfield_unit = "au"\n',
      "laser.0.field_file", ["increase"], []),
+    ("field-file-cep", ATOM + '[[laser]]\nfield_file = "good.dat"\ntime_unit = "fs"\nfield_unit = "au"\ncep = 1.0\n',
+     "laser.0.cep", ["does not apply"], []),
+    ("field-file-intensity", ATOM + '[[laser]]\nfield_file = "good.dat"\ntime_unit = "fs"\nfield_unit = "au"\n'
+     'peak_intensity = "1e14 W/cm^2"\n', "laser.0.peak_intensity", ["does not apply"], []),
     ("field-file-unit", ATOM + '[[laser]]\nfield_file = "good.dat"\ntime_unit = "nm"\nfield_unit = "au"\n',
      "laser.0.time_unit", ["not a time"], []),
     # --set paths and values
