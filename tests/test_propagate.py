@@ -499,7 +499,8 @@ def test_interrupted_run_leaves_no_finished_file(tmp_path):
 
 SHORTER = {
     # fewer cycles and less field-free time keep the command-line runs quick
-    "argon_1800nm.toml": ["laser.0.cycles=2", 'propagation.after_pulse="0.5 fs"', "output.snapshots=4"],
+    "argon_1800nm.toml": ["laser.0.cycles=1", "propagation.time_step=0.05", 'propagation.after_pulse="0.3 fs"',
+                          "output.snapshots=4"],
     "argon_800nm.toml": None,  # run in full by the ``argon`` fixture
     "hydrogen_streaking.toml": ["laser.0.cycles=1", 'laser.1.delay="0 fs"', 'propagation.after_pulse="0.5 fs"',
                                 "output.snapshots=4"],
