@@ -259,6 +259,9 @@ def photoelectron_figure(energy, density_left, density_right, marks=(), title="p
 def populations_figure(time, norm, population_time, populations, labels=None, max_states=6):
     """Norm and bound-state populations versus time.
 
+    Top panel (linear): the norm, the ground state and all bound states together;
+    bottom panel (log): the most populated excited states.
+
     Parameters
     ----------
     time, norm : array_like
@@ -269,25 +272,32 @@ def populations_figure(time, norm, population_time, populations, labels=None, ma
     labels : sequence of str, optional
         State labels (default n = 0, 1, ...).
     max_states : int
-        Most populated states drawn; the rest are summed as "other bound".
+        Most populated excited states drawn; the rest are summed as "other excited".
     """
-    fig, (ax,) = _figure(1, FIGURE_SIZE[1])
-    ax.plot(_fs(time), norm, color="k", lw=1.0, label="norm")
+    fig, (top, bottom) = _figure(2)
     pops = np.asarray(populations, dtype=float)
     tp = _fs(population_time)
+    top.plot(_fs(time), norm, color="k", lw=1.0, label="norm")
+    name = (lambda n: labels[n]) if labels else (lambda n: f"state {n}")
     if pops.ndim == 2 and pops.shape[1]:
-        order = np.argsort(pops.max(axis=0))[::-1]
-        shown = order[:max_states]
-        for n in sorted(shown):
-            ax.plot(tp, pops[:, n], lw=0.9, label=labels[n] if labels else f"state {n}")
-        if pops.shape[1] > max_states:
-            ax.plot(tp, pops[:, order[max_states:]].sum(axis=1), lw=0.8, ls=":", color="0.4", label="other bound")
-        ax.plot(tp, pops.sum(axis=1), lw=0.8, ls="--", color="0.2", label="all bound")
-    ax.set_yscale("log")
-    lo = max(np.nanmin(pops[pops > 0]) if np.any(pops > 0) else 1e-12, 1e-12)
-    ax.set_ylim(lo, 1.5)
-    ax.set_xlabel("time (fs)")
-    ax.set_ylabel("population")
-    ax.set_title("norm and bound-state populations")
-    ax.legend(loc="lower left", fontsize="small", frameon=False, ncol=2)
+        top.plot(tp, pops[:, 0], lw=1.0, color="C0", label=name(0))
+        top.plot(tp, pops.sum(axis=1), lw=0.9, ls="--", color="0.3", label="all bound")
+        excited = pops[:, 1:]
+        if excited.shape[1]:
+            order = np.argsort(excited.max(axis=0))[::-1]
+            for n in sorted(order[:max_states]):
+                bottom.plot(tp, excited[:, n], lw=0.8, label=name(n + 1))
+            if excited.shape[1] > max_states:
+                bottom.plot(tp, excited[:, order[max_states:]].sum(axis=1), lw=0.8, ls=":", color="0.4",
+                            label="other excited")
+            positive = excited[excited > 0]
+            if positive.size:
+                bottom.set_yscale("log")
+                bottom.set_ylim(max(positive.min(), positive.max() * 1e-10), positive.max() * 3)
+            bottom.legend(loc="center left", bbox_to_anchor=(1.0, 0.5), fontsize="small", frameon=False)
+    top.set_ylabel("population")
+    top.set_title("norm and bound-state populations")
+    top.legend(loc="center left", bbox_to_anchor=(1.0, 0.5), fontsize="small", frameon=False)
+    bottom.set_ylabel("excited states")
+    bottom.set_xlabel("time (fs)")
     return fig

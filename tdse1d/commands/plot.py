@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import plots
+from .. import plots, scan_plots
 from ..cli import CommandError
 from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
 
@@ -79,7 +79,9 @@ def _photoelectron(f, cache):
     up = a.ponderomotive_energy
     if a.streaking is not None:
         st = a.streaking
-        marks = [("hbar w_XUV - Ip", st.xuv_photon_energy - a.ionization_potential)]
+        marks = [("hbar w_XUV - Ip", st.xuv_photon_energy - a.ionization_potential),
+                 ("streaked right, (p0 - A_IR)^2/2", 0.5 * (st.initial_momentum - st.vector_potential) ** 2),
+                 ("streaked left, (p0 + A_IR)^2/2", 0.5 * (st.initial_momentum + st.vector_potential) ** 2)]
     else:
         marks = [("2 Up", 2 * up), ("10 Up", 10 * up)]
         if a.edges is not None:
@@ -103,6 +105,7 @@ KINDS = {
         "photoelectron": _photoelectron,
         "populations": _populations,
     },
+    "scan-summary": scan_plots.FIGURES,
 }
 
 
