@@ -369,7 +369,7 @@ def _range_values(table, where, problems):
     except ValueError as exc:
         problems.append(f"{where}: {exc}")
         return None
-    return tuple(f"{float(v)!r} {unit}" if unit else float(v) for v in numbers)
+    return tuple(f"{float(v):.12g} {unit}" if unit else float(v) for v in numbers)
 
 
 def _read_axis(table, i, problems) -> Axis | None:

@@ -219,6 +219,7 @@ def write_summary(plan, directory) -> Summary:
     tmp = sd.summary.with_name(f"{sd.summary.name}.{os.getpid()}.tmp")
     with h5py.File(tmp, "w") as f:
         f.attrs["kind"] = SUMMARY_KIND
+        f.attrs["complete"] = True  # a finished file (written under a temporary name, then renamed)
         f.attrs["tdse1d_version"] = __version__
         f.attrs["plan"] = plan.text
         f.attrs["plan_source"] = plan.source
