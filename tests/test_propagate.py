@@ -353,6 +353,9 @@ def test_length_and_velocity_gauge_agree(tmp_path):
     assert np.median(np.abs(np.log10(power_l / power_v))) < 1e-3
     dipole_l, dipole_v = rl.observables.dipole, rv.observables.dipole
     assert np.max(np.abs(dipole_l - dipole_v)) < 1e-3 * np.max(np.abs(dipole_l))
+    # kinetic momentum: <p> in the length gauge, <p + A> in the velocity gauge
+    momentum_l, momentum_v = rl.observables.momentum, rv.observables.momentum
+    assert np.max(np.abs(momentum_l - momentum_v)) < 1e-3 * np.max(np.abs(momentum_l))
 
 
 # ------------------------------------------------------------------ Rabi oscillations
