@@ -396,7 +396,8 @@ class CutoffLaw(_ScanKind):
         return [
             self.row(slope, quantity="slope of cutoff energy vs Up", reference=3.17, tolerance=0.10, relative=True,
                      units="1"),
-            self.row(intercept / ip, quantity="intercept / Ip", reference=1.3, tolerance=0.3, units="1",
+            self.row(intercept / ip, quantity="intercept / Ip (reference: 1.32, Lewenstein et al.)", reference=1.32,
+                     tolerance=0.3, units="1",
                      rule="must lie in [1, 1.6]", passed=inside),
         ]
 
@@ -431,49 +432,54 @@ class PhotoelectricPeak(CaseKind):
 class PhotoelectronEdges(CaseKind):
     """Edges of the direct (2 Up) and backscattered (10 Up) photoelectrons.
 
-    An edge is the highest energy at which the smoothed log10 dP/dE is still within
-    ``params.drop`` decades of its mean level over ``params.direct_band`` or
-    ``params.plateau_band`` (in units of Up). The tolerance is relative.
+    From the log10 of dP/dE smoothed over ``params.smooth_up`` (in Up): the plateau
+    level is its mean over ``params.plateau_band`` (in Up). The direct edge is the knee
+    of the direct electrons: the break point of a continuous two-segment straight-line
+    fit to the smoothed log spectrum over ``params.knee_range`` (in Up), where the slow
+    fall of the direct electrons turns into the steep one. The backscattered edge is the
+    last energy where the spectrum is within ``params.drop`` decades of the plateau
+    level. Tolerances are relative.
     """
 
     def run(self):
+        from .spectra import _running_mean
+
         out = self.runner.run(self.case.input())
         spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
         up = out.problem.pulse_estimates[0].ponderomotive_energy
-        e = spec.energy / up
-        with np.errstate(divide="ignore"):
-            log = np.log10(np.maximum(np.nan_to_num(spec.energy_density), 1e-300))
-        from .spectra import _running_mean
-
-        smooth = _running_mean(e, log, float(self.case.get("params.smooth_up", 0.3)))
-        drop = float(self.case.get("params.drop", 1.0))
-        rows = []
-        edges = {}
-        for name, band_key, ref in (("direct", "params.direct_band", 2.0), ("backscattered", "params.plateau_band", 10.0)):
-            lo, hi = self.case.get(band_key)
-            level = float(np.mean(smooth[(e >= lo) & (e <= hi)]))
-            above = np.flatnonzero((smooth >= level - drop) & (e >= lo))
-            # the first energy past the band where the level is lost for good
-            edge = float(e[above[-1]]) if len(above) else math.nan
-            if name == "direct":
-                start = np.flatnonzero((e > hi) & (smooth < level - drop))
-                edge = float(e[start[0]]) if len(start) else math.nan
-            edges[name] = edge
-            rows.append(self.row(edge, quantity=f"{name} electrons' edge (units of Up)", reference=ref, units="Up",
-                                 relative=True))
+        keep = spec.energy > 0
+        e = spec.energy[keep] / up
+        log = np.log10(np.maximum(np.nan_to_num(spec.energy_density[keep]), 1e-300))
+        smooth = _running_mean(e, log, float(self.case.get("params.smooth_up", 0.25)))
+        p_lo, p_hi = self.case.get("params.plateau_band")
+        plateau = float(np.mean(smooth[(e >= p_lo) & (e <= p_hi)]))
+        k_lo, k_hi = self.case.get("params.knee_range")
+        direct_edge = _knee(e, smooth, k_lo, k_hi)
+        within = np.flatnonzero((e >= p_lo) & (smooth >= plateau - float(self.case.get("params.drop", 1.0))))
+        back_edge = float(e[within[-1]]) if len(within) else math.nan
+        tol = self.case.get("tolerance")
         plt = _plt()
         fig, ax = plt.subplots(figsize=(5, 3.4))
-        ax.plot(e, log, lw=0.5, color="0.6")
-        ax.plot(e, smooth, lw=1.2)
-        for name, ref in (("direct", 2), ("backscattered", 10)):
+        ax.plot(e, log, lw=0.4, color="0.7", label="log10 dP/dE")
+        ax.plot(e, smooth, lw=1.2, label="smoothed")
+        for ref in (2, 10):
             ax.axvline(ref, color="k", ls="--", lw=0.8)
-            ax.axvline(edges[name], color="r", ls=":", lw=1)
+        for edge in (direct_edge, back_edge):
+            ax.axvline(edge, color="r", ls=":", lw=1.2)
+        top = float(smooth[e < 14].max())
         ax.set_xlim(0, 14)
-        ax.set_ylim(smooth[e < 14].max() - 8, smooth[e < 14].max() + 0.5)
+        ax.set_ylim(top - 8, top + 0.5)
         ax.set_xlabel("photoelectron energy / Up")
-        ax.set_ylabel("log10 dP/dE")
+        ax.set_ylabel("log10 dP/dE (1/Hartree)")
+        ax.legend(fontsize=7)
+        ax.set_title("dashed: 2 Up, 10 Up; dotted: edges found", fontsize=8)
         self.figure(fig, "spectrum")
-        return rows
+        return [
+            self.row(direct_edge, quantity="direct electrons' edge / Up", reference=2.0, units="Up", relative=True,
+                     tolerance=tol),
+            self.row(back_edge, quantity="backscattered electrons' edge / Up", reference=10.0, units="Up",
+                     relative=True, tolerance=tol),
+        ]
 
 
 @register_case_kind("streaking")
@@ -664,6 +670,20 @@ class TunnellingYield(_ScanKind):
         return rows
 
 
+def _knee(x, y, lo, hi):
+    """Break point of the least-squares continuous two-segment line fit to y(x) on [lo, hi]."""
+    sel = (x >= lo) & (x <= hi)
+    xs, ys = x[sel], y[sel]
+    best, where = math.inf, math.nan
+    for b in xs[2:-2]:
+        basis = np.column_stack([np.ones_like(xs), np.minimum(xs - b, 0), np.maximum(xs - b, 0)])
+        coef, *_ = np.linalg.lstsq(basis, ys, rcond=None)
+        cost = float(np.sum((basis @ coef - ys) ** 2))
+        if cost < best:
+            best, where = cost, float(b)
+    return where
+
+
 # ------------------------------------------------------------------------- driver
 
 
@@ -734,7 +754,7 @@ def write_report(reports, report_dir, header: dict) -> Path:
             lines += ["| quantity | reference | computed | deviation | tolerance | result |",
                       "| --- | --- | --- | --- | --- | --- |"]
             for row in r.rows:
-                unit = f" {row.units}" if row.units and not row.relative else ""
+                unit = f" {row.units}" if row.units not in ("", "1") and not row.relative else ""
                 dev = f"{_fmt(row.deviation)}" + (" (relative)" if row.relative else unit)
                 tol = row.rule or (f"{_fmt(row.tolerance)}" + (" (relative)" if row.relative else unit))
                 verdict = "report" if row.informational else ("pass" if row.passed else "**FAIL**")

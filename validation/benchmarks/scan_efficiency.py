@@ -13,9 +13,11 @@ Steps, each on the same ``LocalCluster`` of single-threaded worker processes:
 
 Reported: parallel efficiency ``sum(t_k) / (workers x W)`` (target >= 0.9), the same with
 the in-scan times ``sum(s_k) / (workers x W)`` (how well the workers were kept busy,
-whatever slows each point down), the scheduling overhead per point
-``(workers x W - sum(s_k)) / points`` (idle worker time per point, target < 0.2 s),
-and the round trip of an empty task through the scheduler.
+whatever slows each point down), the scheduling overhead per point (mean time a worker
+waits between the end of one point and the start of its next, from the time stamps
+of the run records; target < 0.2 s), the idle worker time per point
+``(workers x W - sum(s_k)) / points`` (which also counts start-up and the tail when
+points end unevenly), and the round trip of an empty task through the scheduler.
 
 The numbers depend on what else runs on the machine; run it on an otherwise idle one.
 """
@@ -95,10 +97,18 @@ def main(argv=None) -> int:
                 assert record["status"] == "done", record
                 single.append(record["seconds"])
             # 3. the scan
+            submitted = time.time()
             report = scan.run_scan(plan, tmp / "scan", client=client, progress=False)
             assert report.ok and len(report.done) == args.points, report.failed
-            inside = [report.records[p.index]["seconds"] for p in plan.points]
+            records = [report.records[p.index] for p in plan.points]
+            inside = [r["seconds"] for r in records]
             wall = report.wall
+            # idle time of a worker between the end of one point and the start of the next
+            gaps = []
+            for pid in {r["pid"] for r in records}:
+                mine = sorted((r for r in records if r["pid"] == pid), key=lambda r: r["started_at"])
+                gaps += [b["started_at"] - a["finished_at"] for a, b in zip(mine, mine[1:])]
+            first_start = min(r["started_at"] for r in records) - submitted
             # round trip of empty tasks through the scheduler
             started = time.perf_counter()
             for _ in range(50):
@@ -117,7 +127,10 @@ def main(argv=None) -> int:
         "scan_wall_seconds": wall,
         "efficiency_single": sum(single) / (w * wall),
         "efficiency_in_scan": sum(inside) / (w * wall),
-        "overhead_per_point_seconds": (w * wall - sum(inside)) / args.points,
+        "idle_per_point_seconds": (w * wall - sum(inside)) / args.points,
+        "gap_between_points_seconds": gaps,
+        "overhead_per_point_seconds": sum(gaps) / len(gaps) if gaps else float("nan"),
+        "submit_to_first_start_seconds": first_start,
         "empty_task_round_trip_seconds": round_trip,
         "cpu_count": os.cpu_count(),
         "load_average_1min": os.getloadavg()[0],
@@ -128,7 +141,10 @@ def main(argv=None) -> int:
     print(f"scan wall time: {wall:.2f} s")
     print(f"parallel efficiency sum(single)/(workers x wall): {numbers['efficiency_single']:.3f}  (target >= 0.9)")
     print(f"busy fraction sum(in-scan)/(workers x wall):      {numbers['efficiency_in_scan']:.3f}")
-    print(f"scheduling overhead per point: {numbers['overhead_per_point_seconds']:.3f} s  (target < 0.2 s)")
+    print(f"scheduling overhead per point (mean gap between consecutive points on a worker): "
+          f"{numbers['overhead_per_point_seconds']:.3f} s  (target < 0.2 s)")
+    print(f"idle worker time per point (workers x wall - sum(in-scan)) / points: "
+          f"{numbers['idle_per_point_seconds']:.3f} s; submit to first start {first_start:.3f} s")
     print(f"empty-task round trip: {1e3 * round_trip:.1f} ms; load average {numbers['load_average_1min']:.2f} "
           f"on {os.cpu_count()} cores")
     if args.json:

@@ -1,0 +1,120 @@
+"""Malformed inputs are refused by the command line: exit 2, the key named, no traceback,
+no file written. Each file of tests/bad_inputs/ starts with ``# expect: FRAGMENT``, the
+part of the message that must appear (the dotted key, or the kind of fault).
+
+A property-based test feeds random values into every numeric key and checks that
+``tdse1d estimate`` either succeeds or refuses cleanly with exit status 2.
+"""
+
+import math
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from tdse1d import cli
+
+HERE = Path(__file__).parent / "bad_inputs"
+CASES = sorted(HERE.glob("*.toml"))
+
+
+def _expected(path):
+    first = path.read_text().splitlines()[0]
+    assert first.startswith("# expect: "), path
+    return first[len("# expect: "):].strip()
+
+
+def test_corpus_is_large_and_covers_every_key():
+    from tdse1d.config import _SECTIONS, AtomConfig, CentreConfig, LaserConfig
+    import dataclasses
+
+    assert len(CASES) >= 40
+    named = " ".join(_expected(p) for p in CASES)
+    keys = [f"atom.{f.name}" for f in dataclasses.fields(AtomConfig) if "spec" in f.metadata]
+    keys += [f"laser.0.{f.name}" for f in dataclasses.fields(LaserConfig) if "spec" in f.metadata]
+    keys += [f"{s}.{f.name}" for s, cls in _SECTIONS.items() for f in dataclasses.fields(cls) if "spec" in f.metadata]
+    missing = [k for k in keys if k not in named]
+    assert not missing, f"no bad input names {missing}"
+    assert any(f".centre." in _expected(p) for p in CASES)
+    assert any("syntax" in _expected(p) for p in CASES)
+
+
+@pytest.mark.parametrize("path", CASES, ids=[p.stem for p in CASES])
+def test_bad_input_refused(path, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    out = tmp_path / "out.h5"
+    code = cli.main(["run", str(path), "-o", str(out), "--quiet"])
+    err = capsys.readouterr().err
+    assert code == 2, err
+    assert _expected(path) in err, err
+    assert "Traceback" not in err
+    assert err.count("\n") == 1 and err.startswith("tdse1d: error: ")
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_bad_input_refused_by_a_real_process(tmp_path):
+    path = HERE / "laser_wavelength_bare_number.toml"
+    proc = subprocess.run([sys.executable, "-m", "tdse1d.cli", "states", str(path)], capture_output=True, text=True,
+                          cwd=tmp_path)
+    assert proc.returncode == 2
+    assert "laser.0.wavelength" in proc.stderr and "Traceback" not in proc.stderr
+    assert list(tmp_path.iterdir()) == []
+
+
+# ------------------------------------------------------------------ property test
+
+GOOD = """
+[atom]
+softening = 1.4142135623730951
+[[laser]]
+wavelength = "800 nm"
+peak_intensity = "1e14 W/cm^2"
+cycles = 2
+[grid]
+points = 256
+spacing = 0.4
+[propagation]
+time_step = 0.2
+"""
+
+#: every numeric key of the input (quantities, ints, floats), as --set paths
+NUMERIC_KEYS = [
+    "atom.charge", "atom.softening", "atom.bound_states", "atom.initial_state",
+    "laser.0.wavelength", "laser.0.peak_intensity", "laser.0.cycles", "laser.0.cep", "laser.0.delay",
+    "laser.0.chirp", "laser.0.ramp_cycles",
+    "grid.points", "grid.spacing",
+    "propagation.time_step", "propagation.after_pulse", "propagation.order",
+    "absorber.width", "absorber.exponent", "absorber.strength",
+    "output.snapshots", "output.snapshot_stride", "output.population_interval", "output.checkpoint_interval",
+]
+UNITS = ["", " nm", " eV", " fs", " W/cm^2", " bohr", " au", " V/m", " rad", " s"]
+
+numbers = st.one_of(
+    st.integers(min_value=-10**12, max_value=10**12),
+    st.floats(allow_nan=True, allow_infinity=True),
+    st.sampled_from([0, -0, 1e-300, 1e300, -1e300, 1, 2, 3, 4, 16, 256, 257]),
+)
+values = st.one_of(
+    numbers.map(lambda v: repr(v) if not (isinstance(v, float) and not math.isfinite(v)) else
+                {"nan": "nan", "inf": "inf", "-inf": "-inf"}[repr(v)]),
+    st.tuples(numbers, st.sampled_from(UNITS)).map(lambda t: f'"{t[0]!r}{t[1]}"'),
+    st.text(max_size=8).map(lambda s: '"' + s.replace("\\", "").replace('"', "") + '"'),
+    st.sampled_from(["true", "[]", "[1, -2]", "{a = 1}", '"auto"', "[1.5]"]),
+)
+
+
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(key=st.sampled_from(NUMERIC_KEYS), value=values)
+def test_random_values_never_crash(key, value, tmp_path_factory, capsys):
+    path = tmp_path_factory.mktemp("prop") / "in.toml"
+    path.write_text(GOOD)
+    code = cli.main(["estimate", str(path), "--set", f"{key}={value}"])
+    err = capsys.readouterr().err
+    assert code in (0, 2), err
+    assert "Traceback" not in err
+    if code == 2:
+        assert err.startswith("tdse1d: error: ")
