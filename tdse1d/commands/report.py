@@ -48,15 +48,20 @@ class Row:
         return self.quantum / self.prediction if self.prediction != 0 else math.nan
 
 
-def rows(a: RunAnalysis) -> list[Row]:
-    """The table of a run's analysis."""
+def rows(a: RunAnalysis, target_ip: float = math.nan) -> list[Row]:
+    """The table of a run's analysis.
+
+    ``target_ip`` is the ionization potential the input asked for (the softening is
+    fitted to it), NaN when the input gives the potential directly.
+    """
     nan = math.nan
     up, ip = a.ponderomotive_energy, a.ionization_potential
     s = a.three_step
     out = [
-        Row("ground-state energy", "model (states on the grid)", a.ground_state_energy, a.ground_state_energy,
-            "energy", note="the quantum reference itself"),
-        Row("ionization potential Ip", "-E of the initial state", ip, ip, "energy"),
+        Row("ground-state energy", "-Ip asked for in the input", -target_ip, a.ground_state_energy, "energy",
+            note="quantum: lowest eigenvalue on the run's grid"),
+        Row("ionization potential Ip", "asked for in the input", target_ip, ip, "energy",
+            note="quantum: -E of the initial state on the run's grid; the rows below use it"),
     ]
     if math.isfinite(up):
         out += [
@@ -153,7 +158,7 @@ def _format_comparison(row: Row) -> str:
     return f"{c:+.4g}"
 
 
-def to_json(a: RunAnalysis) -> dict:
+def to_json(a: RunAnalysis, target_ip: float = math.nan) -> dict:
     """The table as JSON-ready data (energies in a.u. and eV, photons also as orders)."""
     def clean(x):
         return None if isinstance(x, float) and not math.isfinite(x) else x
@@ -170,21 +175,21 @@ def to_json(a: RunAnalysis) -> dict:
                 r.compare: clean(r.comparison),
                 "note": r.note,
             }
-            for r in rows(a)
+            for r in rows(a, target_ip)
         ],
         "notes": list(a.notes),
     }
 
 
-def format_table(a: RunAnalysis) -> str:
+def format_table(a: RunAnalysis, target_ip: float = math.nan) -> str:
     """The table as plain text for people."""
     head = ("quantity", "semiclassical prediction", "prediction", "quantum result", "ratio/diff")
     body = [(r.quantity, r.prediction_label, _format(r, r.prediction, a.omega0), _format(r, r.quantum, a.omega0),
-             _format_comparison(r)) for r in rows(a)]
+             _format_comparison(r)) for r in rows(a, target_ip)]
     widths = [max(len(x[i]) for x in [head, *body]) for i in range(len(head))]
     lines = ["  ".join(h.ljust(w) for h, w in zip(head, widths)), "  ".join("-" * w for w in widths)]
     notes = []
-    for r, cells in zip(rows(a), body):
+    for r, cells in zip(rows(a, target_ip), body):
         lines.append("  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip())
         if r.note and r.note not in notes:
             notes.append(r.note)
@@ -193,6 +198,17 @@ def format_table(a: RunAnalysis) -> str:
                         f"Ip {a.ionization_potential * units.HARTREE_EV:.4f} eV; energies in eV (a.u.), H = harmonic order")
     lines += [""] + [f"* {n}" for n in notes + list(a.notes)]
     return "\n".join(lines)
+
+
+def _target_ip(input_toml) -> float:
+    """``atom.ionization_potential`` of the stored input (hartree), NaN if absent."""
+    import tomllib
+
+    try:
+        value = tomllib.loads(input_toml).get("atom", {}).get("ionization_potential")
+        return units.to_atomic(value, "energy") if value is not None else math.nan
+    except (tomllib.TOMLDecodeError, units.UnitError, TypeError, ValueError):
+        return math.nan
 
 
 def main(args):
@@ -207,8 +223,9 @@ def main(args):
         if kind != "run":
             raise CommandError(f"{args.result} is a {kind!r} file; report reads run results")
         analysis = analyse_file(f)
+        target = _target_ip(f.attrs.get("input", ""))
     if args.json:
-        print(json.dumps(to_json(analysis), indent=1))
+        print(json.dumps(to_json(analysis, target), indent=1))
     else:
-        print(format_table(analysis))
+        print(format_table(analysis, target))
     return 0
