@@ -40,7 +40,7 @@ __all__ = [
 #: half-width (bohr) of the window in which states are looked for
 STATE_WINDOW = 150.0
 #: half-width (bohr) of the window used while fitting a softening (ground state only)
-FIT_WINDOW = 40.0
+FIT_WINDOW = 25.0
 #: most points of a dense window (the dense solve costs points^3)
 MAX_WINDOW_POINTS = 2048
 #: most bound states kept when their number is "auto"
@@ -103,17 +103,20 @@ def _window(grid: Grid, half_width: float) -> tuple[Grid, slice]:
     return Grid(n, grid.spacing), slice(start, start + n)
 
 
+def _dense_eigh(h, eigvals_only=False):
+    # The divide-and-conquer driver: LAPACK's subset drivers (evr, evx) were measured
+    # 10-20 times slower here when the cores are shared with other processes.
+    return scipy.linalg.eigh(h, eigvals_only=eigvals_only, driver="evd")
+
+
 def _dense_states(grid: Grid, potential: Potential, count: int | None):
-    h = hamiltonian_matrix(grid, potential)
+    energies, vectors = _dense_eigh(hamiltonian_matrix(grid, potential))
     if count is None:
-        energies, vectors = scipy.linalg.eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
-        energies, vectors = energies[:MAX_AUTO_STATES], vectors[:, :MAX_AUTO_STATES]
-        if len(energies) == 0:  # e.g. a harmonic trap: keep its lowest levels
-            energies, vectors = scipy.linalg.eigh(h, subset_by_index=(0, 9), driver="evr")
-    else:
-        count = min(count, grid.points)
-        energies, vectors = scipy.linalg.eigh(h, subset_by_index=(0, count - 1), driver="evr")
-    return energies, vectors
+        bound = int(np.count_nonzero(energies < 0))
+        # no bound state (e.g. a harmonic trap, all E > 0): keep its lowest levels
+        count = min(bound, MAX_AUTO_STATES) if bound else 10
+    count = min(count, grid.points)
+    return energies[:count], vectors[:, :count]
 
 
 def _apply_hamiltonian(grid: Grid, potential: Potential):
@@ -220,7 +223,7 @@ def ground_state_energy(grid: Grid, potential: Potential, window: float = FIT_WI
     """Lowest eigenvalue of H on ``grid`` (Hartree), via a dense window solve."""
     sub, _ = _window(grid, window)
     h = hamiltonian_matrix(sub, potential)
-    return float(scipy.linalg.eigh(h, eigvals_only=True, subset_by_index=(0, 0), driver="evr")[0])
+    return float(_dense_eigh(h, eigvals_only=True)[0])
 
 
 def fit_softening(
@@ -268,7 +271,7 @@ def fit_softening(
             "(change the charge, or use a finer grid for deep states)"
         )
     # the energy is smooth in a; ask for a far tighter root than the energy tolerance
-    a = float(brentq(mismatch, lo, hi, xtol=1e-14, rtol=1e-14, maxiter=200))
+    a = float(brentq(mismatch, lo, hi, xtol=1e-13, rtol=1e-13, maxiter=200))
     # A small enough softening reaches any Ip on a grid, but with a core narrower than
     # the spacing the "state" is a grid artefact: check that halving the spacing leaves
     # its energy nearly unchanged. The state is compact, so a narrow window suffices.
