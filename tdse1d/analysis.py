@@ -483,7 +483,9 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
         seen.add((i_1, i_b))
         level = float(np.median(tail[i_1 : i_b + 1]))
     direct_level = float(np.median(tail[: i_1 + 1]))
-    i_d = int(np.flatnonzero(tail <= direct_level - rise)[0])
+    fallen = np.flatnonzero(tail[: i_1 + 1] <= direct_level - rise)
+    # a direct part that never stands out from the plateau ends where the plateau starts
+    i_d = int(fallen[0]) if fallen.size else i_1
     return PhotoelectronEdges(float(ee[start + i_d]), float(ee[start + i_b]), level, peak, smoothed)
 
 
