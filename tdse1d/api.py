@@ -172,8 +172,12 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
         result = simulate(problem, sink=sink, progress=progress, control=control, resume=state, strict=strict)
         from .analysis import analyse_run, write_analysis
 
-        analysis = analyse_run(problem, result)
-        writer.write_result(result, extra=lambda h5file: write_analysis(h5file, analysis))
+        try:  # the comparison must never cost the run itself
+            analysis = analyse_run(problem, result)
+        except (ValueError, IndexError, ArithmeticError) as exc:
+            analysis = None
+            result.warnings.append(f"semiclassical analysis not stored: {exc}")
+        writer.write_result(result, extra=None if analysis is None else lambda h5: write_analysis(h5, analysis))
         writer.close()
     sink.discard()
     return RunOutcome(path, problem, result)
