@@ -692,8 +692,9 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     Returns
     -------
     dict
-        ``status``, ``seconds`` (wall time of the run), ``host``, ``pid``, and for a
-        finished point ``tunnelling_yield``; for a failed one ``error``.
+        ``status``, ``seconds`` (wall time of the run), ``host``, ``pid``,
+        ``started_at`` (Unix time), and for a finished point ``tunnelling_yield`` and
+        ``finished_at``; for a failed one ``error``.
     """
     import socket
 
@@ -704,13 +705,13 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     error_file = output.with_suffix(".error")
     record_file = output.with_suffix(".json")
     started = time.perf_counter()
-    record = {"host": socket.gethostname(), "pid": os.getpid(), "source": source}
+    record = {"host": socket.gethostname(), "pid": os.getpid(), "source": source, "started_at": time.time()}
     try:
         config = parse_input(tomllib.loads(resolved_toml), source=source, base_dir=base_dir)
         with fftw_wisdom():
             outcome = api.run(config, output)
         record.update(status="done", seconds=time.perf_counter() - started,
-                      tunnelling_yield=_tunnelling_yield(outcome))
+                      tunnelling_yield=_tunnelling_yield(outcome), finished_at=time.time())
         error_file.unlink(missing_ok=True)
         _write_atomic(record_file, json.dumps(record))
     except Exception as exc:  # a failed point is reported, the scan goes on
