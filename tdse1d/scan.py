@@ -51,7 +51,7 @@ import time
 import traceback
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
+from typing import Callable
 
 import numpy as np
 
@@ -407,6 +407,15 @@ def _read_axis(table, i, problems) -> Axis | None:
     return Axis(key=key, values=values, unit=unit, atomic=tuple(_atomic_value(v, spec) for v in values))
 
 
+def _flatten(table, prefix=""):
+    """``{"laser": {"0": {"cycles": 4}}}`` (unquoted dotted keys in TOML) -> ``[("laser.0.cycles", 4)]``."""
+    items = []
+    for k, v in table.items():
+        key = f"{prefix}.{k}" if prefix else str(k)
+        items.extend(_flatten(v, key) if isinstance(v, dict) else [(key, v)])
+    return items
+
+
 def parse_plan(plan: dict, source: str = "<plan>", base_dir: Path | str = ".", text: str = "") -> ScanPlan:
     """Validate a scan plan (a dict as from TOML) and every one of its points.
 
@@ -460,7 +469,7 @@ def parse_plan(plan: dict, source: str = "<plan>", base_dir: Path | str = ".", t
     if not isinstance(fixed, dict):
         problems.append("set: must be a table of dotted keys and values")
         fixed = {}
-    fixed = tuple(fixed.items())
+    fixed = tuple(_flatten(fixed))
 
     axes_raw = plan.get("axis")
     if isinstance(axes_raw, dict):

@@ -6,12 +6,10 @@ The Dask tests start their own clusters on 127.0.0.1 and shut them down.
 """
 
 import math
-import os
 import shutil
 import signal
 import socket
 import subprocess
-import sys
 import threading
 import time
 from pathlib import Path

@@ -46,6 +46,11 @@ def main(args):
         return 0
     try:
         if args.point is not None:
+            if args.fresh:
+                from ..config import InputError
+
+                raise InputError("--fresh with --point would delete the points of the other array tasks; "
+                                 "clear the directory once before submitting the array", "--fresh", args.plan)
             try:
                 report = scan.run_one(plan, directory.root, args.point, fresh=args.fresh,
                                       retry_failed=True)
