@@ -424,3 +424,15 @@ def test_compare_command_on_a_run_and_the_demo_spectrum(local_scan, tmp_path, ca
     assert cli.main(["compare", str(out / "summary.h5"), str(demo), "--point", "1"]) == 0
     assert cli.main(["compare", str(out / "summary.h5"), str(demo), "--average", "volume/incoherent"]) == 0
     assert cli.main(["compare", str(run_file), str(tmp_path / "missing.csv")]) == 2
+
+
+def test_shipped_plans_validate_and_run_longest_first(tmp_path):
+    inputs = Path(__file__).resolve().parents[1] / "inputs"
+    intensity = scan.load_plan(inputs / "scan_argon_intensity.toml")
+    wavelength = scan.load_plan(inputs / "scan_argon_wavelength.toml")
+    assert 4 <= len(intensity.points) <= 6 and 4 <= len(wavelength.points) <= 6
+    # the cost (grid points x steps) grows with the wavelength: longer cycles, larger quiver box
+    costs = [p.cost for p in wavelength.points]
+    assert costs == sorted(costs) and costs[-1] > 2 * costs[0]
+    todo = scan._prepare(wavelength, scan.ScanDirectory(tmp_path), False, False, scan.ScanReport(total=4))
+    assert [p.index for p in todo] == [3, 2, 1, 0]
