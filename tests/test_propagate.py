@@ -469,6 +469,16 @@ def test_result_file_holds_the_contract(argon):
         assert f["snapshots/psi"].shape == (config.output.snapshots, points)
         assert f["snapshots/psi"].dtype == np.complex128
         assert np.allclose(f["snapshots/psi"][-1], f["final/psi"][()])
+        # the scalars agree with the time series they summarise
+        final_bound = f["observables/bound_population"][-1]
+        assert f["observables/population_time"][-1] == f["observables/time"][-1]
+        assert math.isclose(f["ionization/probability"][()], 1 - final_bound.sum(), rel_tol=1e-9)
+        assert math.isclose(f["ionization/absorbed"][()], f["observables/absorbed"][-1], rel_tol=1e-9)
+        assert math.isclose(f["observables/initial_population"][0], 1.0, rel_tol=1e-9)
+        assert math.isclose(f["observables/initial_population"][-1], final_bound[0], rel_tol=1e-6)
+        # the stored field obeys E = -dA/dt (to the accuracy of a centred difference)
+        t, e, a = f["field/time"][()], f["field/electric"][()], f["field/vector_potential"][()]
+        assert np.allclose(-np.gradient(a, t)[1:-1], e[1:-1], atol=1e-5 * np.max(np.abs(e)))
         # Up = E0^2 / (4 w^2) (common practice)
         est = f["estimates"].attrs
         assert np.isclose(est["ponderomotive_energy"], est["peak_field"] ** 2 / (4 * est["photon_energy"] ** 2))
