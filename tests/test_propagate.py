@@ -127,6 +127,12 @@ def gaussian(x, x0, sigma, p0):
     return psi / math.sqrt(np.sum(np.abs(psi) ** 2) * (x[1] - x[0]))
 
 
+@pytest.fixture(autouse=True)
+def _no_wisdom(monkeypatch):
+    # command-line runs must not write FFTW wisdom into the user's cache
+    monkeypatch.setenv("TDSE1D_NO_WISDOM", "1")
+
+
 @pytest.fixture(scope="module")
 def atom():
     grid = Grid(256, 0.4)
@@ -409,7 +415,9 @@ ARGON = INPUTS / "argon_800nm.toml"
 def argon(tmp_path_factory):
     """The full argon example, run once through ``tdse1d run`` (about 10 s)."""
     path = tmp_path_factory.mktemp("argon") / "argon_800nm.h5"
-    code = cli.main(["run", str(ARGON), "-o", str(path), "--quiet"])
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setenv("TDSE1D_NO_WISDOM", "1")
+        code = cli.main(["run", str(ARGON), "-o", str(path), "--quiet"])
     return code, load_input(ARGON), path
 
 
