@@ -6,6 +6,6 @@ Everything inside is in Hartree atomic units; :mod:`tdse1d.units` converts.
 
 __version__ = "0.1.0"
 
-from .api import estimate, load_input, run, states  # noqa: E402
+from .api import estimate, find_states, load_input, run  # noqa: E402
 
-__all__ = ["__version__", "load_input", "states", "estimate", "run"]
+__all__ = ["__version__", "load_input", "find_states", "estimate", "run"]

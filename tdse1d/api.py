@@ -4,7 +4,7 @@ Each command of the ``tdse1d`` program is a thin layer over one of these::
 
     import tdse1d
     config = tdse1d.load_input("inputs/argon_800nm.toml", overrides=["laser.0.peak_intensity=\\"2e14 W/cm^2\\""])
-    states = tdse1d.states(config)            # bound states on the run's grid
+    found = tdse1d.find_states(config)        # bound states on the run's grid
     report = tdse1d.estimate(config)          # semiclassical numbers and advised grid
 """
 
@@ -18,7 +18,7 @@ from .estimates import GridAdvice, PulseEstimate, estimates_json
 from .problem import Problem, build_problem
 from .states import BoundStates
 
-__all__ = ["load_input", "states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
+__all__ = ["load_input", "find_states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
 
 
 @dataclass(frozen=True)
@@ -59,7 +59,7 @@ class EstimateResult:
         return estimates_json(list(self.pulses), self.advice)
 
 
-def states(config: RunConfig | str, count: int | None = None) -> StatesResult:
+def find_states(config: RunConfig | str, count: int | None = None) -> StatesResult:
     """Bound states of the model on the run's own grid.
 
     Parameters

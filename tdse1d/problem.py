@@ -31,6 +31,8 @@ __all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
 
 #: provisional grid for a first look at the ground state before the real grid is known
 _PROVISIONAL = Grid(1024, 0.1)
+#: largest grid a run may use (a complex wavefunction of 2^22 points is 64 MiB)
+MAX_POINTS = 2**22
 #: default field-free time after the pulses, in optical cycles of the first pulse
 AFTER_PULSE_CYCLES = 2.0
 #: field-free run length when there is no pulse at all (a.u.)
@@ -211,7 +213,18 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
     if grid_cfg.points is not None:
         points = grid_cfg.points
     else:
-        points = fast_fft_size(int(math.ceil(2 * advice.half_width / spacing)))
+        needed = 2 * advice.half_width / spacing
+        if needed > MAX_POINTS:
+            raise InputError(
+                f"the pulses call for a box of +-{advice.half_width:.4g} bohr at a spacing of {spacing:.3g} bohr, "
+                f"{needed:.3g} points, more than the {MAX_POINTS} a run can hold; check the wavelength and "
+                "intensity, or set grid.points and grid.spacing yourself",
+                "grid.points",
+                config.source,
+            )
+        points = fast_fft_size(int(math.ceil(needed)))
+    if points > MAX_POINTS:
+        raise InputError(f"at most {MAX_POINTS} points, got {points}", "grid.points", config.source)
     if points % 2:
         raise InputError(f"must be even for the Fourier grid, got {points}", "grid.points", config.source)
     grid = Grid(points, spacing)

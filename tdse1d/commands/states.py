@@ -17,7 +17,7 @@ def add_arguments(parser):
 
 def main(args):
     config = load_input(args.input, args.overrides)
-    result = api.states(config, count=args.count)
+    result = api.find_states(config, count=args.count)
     if args.json:
         print(json.dumps(result.to_json()))
         return 0
