@@ -13,12 +13,20 @@ from functools import cached_property
 
 import numpy as np
 
-__all__ = ["Grid", "fast_fft_size"]
+__all__ = ["Grid", "fast_fft_size", "MAX_POINTS"]
+
+#: largest grid a run may use (a complex wavefunction of 2^22 points is 64 MiB)
+MAX_POINTS = 2**22
 
 
 def fast_fft_size(n: int) -> int:
-    """Smallest integer >= n whose prime factors are 2, 3 and 5, and that is even."""
+    """Smallest integer >= n whose prime factors are 2, 3 and 5, and that is even.
+
+    Beyond :data:`MAX_POINTS` no grid is made, so ``n`` is only rounded up to even.
+    """
     n = max(int(n), 2)
+    if n > MAX_POINTS:
+        return n + n % 2
     while True:
         m = n
         for p in (2, 3, 5):

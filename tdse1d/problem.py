@@ -22,7 +22,7 @@ import numpy as np
 from . import units
 from .config import InputError, RunConfig
 from .estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
-from .grid import Grid, fast_fft_size
+from .grid import MAX_POINTS, Grid, fast_fft_size
 from .potentials import POTENTIALS, Potential
 from .pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
 from .states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
@@ -31,8 +31,6 @@ __all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
 
 #: provisional grid for a first look at the ground state before the real grid is known
 _PROVISIONAL = Grid(1024, 0.1)
-#: largest grid a run may use (a complex wavefunction of 2^22 points is 64 MiB)
-MAX_POINTS = 2**22
 #: default field-free time after the pulses, in optical cycles of the first pulse
 AFTER_PULSE_CYCLES = 2.0
 #: field-free run length when there is no pulse at all (a.u.)
