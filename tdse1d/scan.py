@@ -225,8 +225,14 @@ class Axis:
         return f"{self.key} ({self.unit})" if self.unit else self.key
 
     def display(self) -> np.ndarray:
-        """Values in :attr:`unit` (as numbers)."""
-        return np.array([_split_unit(v)[0] if _split_unit(v)[0] is not None else math.nan for v in self.values])
+        """Values as numbers in :attr:`unit` (values written in other units are converted)."""
+        spec = key_spec(self.key)
+        if self.unit and spec is not None and spec.kind == "quantity":
+            try:
+                return np.array(self.atomic, float) / units.to_atomic(f"1 {self.unit}", spec.dimension)
+            except units.UnitError:
+                pass
+        return np.array([math.nan if _split_unit(v)[0] is None else _split_unit(v)[0] for v in self.values])
 
 
 @dataclass(frozen=True)
@@ -719,8 +725,9 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
         config = parse_input(tomllib.loads(resolved_toml), source=source, base_dir=base_dir)
         with fftw_wisdom():
             outcome = api.run(config, output)
-        record.update(status="done", seconds=time.perf_counter() - started,
-                      tunnelling_yield=_tunnelling_yield(outcome), finished_at=time.time())
+        tunnelling = _tunnelling_yield(outcome)
+        record.update(status="done", seconds=time.perf_counter() - started, tunnelling_yield=tunnelling,
+                      finished_at=time.time())
         error_file.unlink(missing_ok=True)
         _write_atomic(record_file, json.dumps(record))
     except Exception as exc:  # a failed point is reported, the scan goes on
@@ -731,9 +738,16 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
 
 
 def _tunnelling_yield(outcome) -> float:
-    """Quasi-static tunnelling estimate of the ionization over the run's field (NaN if none)."""
+    """Quasi-static tunnelling estimate of the ionization over the run's field (NaN if none);
+    read from the file when the run's own analysis stored it."""
+    import h5py
+
     from .classical import tunnelling_yield
 
+    with h5py.File(outcome.path, "r") as f:
+        key = "classical/tunnelling/probability"
+        if key in f and f[key].size:
+            return float(f[key][-1])
     obs = outcome.result.observables
     try:
         return float(tunnelling_yield(obs.time, obs.electric, outcome.problem.potential,

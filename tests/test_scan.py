@@ -293,6 +293,7 @@ def test_grid_and_zip_expansion_and_ranges(tmp_path):
     # 1 um and 1000 nm are the same length in atomic units
     np.testing.assert_allclose(grid.axes[1].atomic[1], 1e-6 / constants.physical_constants["Bohr radius"][0],
                                rtol=1e-9)
+    np.testing.assert_allclose(grid.axes[1].display(), [800.0, 1000.0, 1200.0], rtol=1e-12)
     assert [p.grid_index for p in zipped.points] == [(0, 0), (1, 1), (2, 2)]
     assert {p.hash for p in zipped.points} <= {p.hash for p in grid.points}
     # the hash does not depend on the order of the keys in the input
