@@ -100,8 +100,8 @@ class Reversed:
 
 
 def soft_core_hydrogen():
-    """Soft-core atom with a^2 = 2: ground state at exactly -0.5 Hartree (Javanainen,
-    Eberly and Su, Phys. Rev. A 38, 3430 (1988))."""
+    """Soft-core atom with a^2 = 2, whose ground state lies at -0.5 Hartree (Javanainen,
+    Eberly and Su, Phys. Rev. A 38, 3430 (1988), from memory)."""
     return SoftCore((Centre(0.0, 1.0, SQRT2),))
 
 
@@ -191,23 +191,30 @@ def test_field_free_norm_and_energy_are_conserved(atom, scheme):
     assert ratio > 0.7 * 2**order
 
 
+@pytest.mark.parametrize("gauge", ["length", "velocity"])
 @pytest.mark.parametrize("scheme", sorted(SCHEMES))
-def test_steps_are_time_reversible(atom, scheme):
-    # The Propagator only steps forward in time, so time is reversed by complex
+def test_steps_are_time_reversible(atom, scheme, gauge):
+    # The Propagator refuses decreasing times, so time is reversed by complex
     # conjugation: for a real potential V + x E(t), conj(psi) obeys the Schrodinger
-    # equation with the field run backwards, E(t0 + t1 - t). A symmetric composition
-    # S(h) satisfies S(-h) = S(h)^-1, so forward, conjugate, forward with the reversed
-    # field and conjugate returns the initial state to rounding (exact).
+    # equation with the field run backwards, E(t0 + t1 - t) (in the velocity gauge
+    # conjugation turns p into -p, so A runs backwards with its sign flipped, which is
+    # the same field). A symmetric composition S(h) satisfies S(-h) = S(h)^-1, so
+    # forward, conjugate, forward with the reversed field and conjugate returns the
+    # initial state to rounding (exact).
     grid, pot, states = atom
     psi0 = (states.wavefunctions[0] + 1j * states.wavefunctions[1]) / SQRT2
     field = sin2_field(0.3, 0.05, 2)
     t0, t1 = field.start, field.end
     times = np.linspace(t0, t1, 401)
-    p = propagate(grid, pot, field, times, psi0, scheme)
+    p = propagate(grid, pot, field, times, psi0, scheme, gauge)
     moved = l2(p.psi, psi0, grid.spacing)
     assert moved > 0.1  # the pulse did something
-    back = propagate(grid, pot, Reversed(field, t0, t1), times, np.conj(p.psi), scheme)
-    assert l2(np.conj(back.psi), psi0, grid.spacing) < 1e-11
+    back = propagate(grid, pot, Reversed(field, t0, t1), times, np.conj(p.psi), scheme, gauge)
+    # In the velocity gauge the grid's unpaired Nyquist mode k = -pi/dx has no partner
+    # +pi/dx for conjugation to map it to, so its term A k breaks the symmetry; the
+    # error is of the size of that mode's amplitude (~1e-9 here) instead of rounding.
+    tolerance = 1e-11 if gauge == "length" else 1e-7
+    assert l2(np.conj(back.psi), psi0, grid.spacing) < tolerance
 
 
 @pytest.mark.parametrize("scheme, dts", [
