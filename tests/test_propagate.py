@@ -518,6 +518,7 @@ def test_reread_file_reproduces_spectrum(argon):
 
 
 def test_interrupted_run_leaves_no_finished_file(tmp_path):
+    # the run writes NAME.h5.part and renames it only when complete (docs/output.md)
     problem_config = small_case("length")
     path = tmp_path / "stopped.h5"
 
@@ -532,6 +533,12 @@ def test_interrupted_run_leaves_no_finished_file(tmp_path):
     assert not store.is_complete(path)
     with pytest.raises(ValueError, match="not a finished"):
         store.read_result(path)
+    # an earlier result of the same name survives an interrupted rerun untouched
+    path.write_bytes(b"earlier result")
+    with pytest.raises(KeyboardInterrupt):
+        api.run(problem_config, path, progress=stop)
+    assert path.read_bytes() == b"earlier result"
+    assert not path.with_name(path.name + store.PART_SUFFIX).exists()
 
 
 # ------------------------------------------------------------------ the command line
