@@ -16,7 +16,7 @@ import sys
 
 from . import __version__
 from .config import InputError
-from .propagate import NumericalError
+from .errors import NumericalError
 
 #: command name -> module implementing it
 COMMANDS = {
@@ -38,7 +38,19 @@ class CommandError(RuntimeError):
     """A failure that is not bad input: reported in one line, exit status 1."""
 
 
-def build_parser() -> argparse.ArgumentParser:
+def _selected_command(argv) -> str | None:
+    for arg in argv:
+        if arg in COMMANDS:
+            return arg
+        if not arg.startswith("-"):
+            return None
+    return None
+
+
+def build_parser(argv=()) -> argparse.ArgumentParser:
+    """The argument parser. Only the command named in ``argv`` is imported (numba,
+    matplotlib and dask make imports slow); without one, all are, to list them."""
+    selected = _selected_command(argv)
     parser = argparse.ArgumentParser(
         prog="tdse1d",
         description="Full quantum runs of 1-D model atoms in strong laser fields, beside the semiclassical picture.",
@@ -47,6 +59,9 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--debug", action="store_true", help="show Python tracebacks")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name, module_name in COMMANDS.items():
+        if selected is not None and name != selected:
+            sub.add_parser(name)
+            continue
         module = importlib.import_module(module_name)
         p = sub.add_parser(name, help=module.HELP, description=module.HELP)
         p.add_argument("--debug", action="store_true", help="show Python tracebacks")
@@ -70,7 +85,7 @@ def add_input_arguments(parser: argparse.ArgumentParser) -> None:
 
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
-    parser = build_parser()
+    parser = build_parser(argv)
     try:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # argparse already printed its message

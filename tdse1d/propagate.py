@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import kernels
+from .errors import NumericalError
 from .fft import InPlaceFFT
 from .grid import Grid
 
@@ -128,22 +129,6 @@ DEFAULT_SCHEME_FOR_ORDER = {2: "strang", 4: "yoshida4"}
 
 def scheme_for_order(order: int) -> type[SplittingScheme]:
     return SCHEMES[DEFAULT_SCHEME_FOR_ORDER[order]]
-
-
-class NumericalError(RuntimeError):
-    """The propagation went wrong (non-finite values, norm growing).
-
-    Attributes
-    ----------
-    step : int
-    time : float
-        Simulation time (a.u.) at which it was detected.
-    """
-
-    def __init__(self, message: str, step: int, time: float):
-        self.step = step
-        self.time = time
-        super().__init__(f"{message} at step {step}, t = {time:.6g} a.u.")
 
 
 @dataclass

@@ -15,6 +15,7 @@ until the eigenvalue residual corresponds to an energy error below ``tolerance``
 
 from __future__ import annotations
 
+import functools
 import warnings
 from dataclasses import dataclass
 
@@ -103,10 +104,19 @@ def _window(grid: Grid, half_width: float) -> tuple[Grid, slice]:
     return Grid(n, grid.spacing), slice(start, start + n)
 
 
+@functools.lru_cache(maxsize=1)
+def _blas_controller():
+    from threadpoolctl import ThreadpoolController
+
+    return ThreadpoolController()
+
+
 def _dense_eigh(h, eigvals_only=False):
-    # The divide-and-conquer driver: LAPACK's subset drivers (evr, evx) were measured
-    # 10-20 times slower here when the cores are shared with other processes.
-    return scipy.linalg.eigh(h, eigvals_only=eigvals_only, driver="evd")
+    # Divide and conquer on one BLAS thread: for these matrices (at most a few thousand
+    # rows) a multi-threaded BLAS was measured 10-15 times *slower* on shared cores (a
+    # scan's workers, a loaded workstation), and LAPACK's subset drivers slower still.
+    with _blas_controller().limit(limits=1, user_api="blas"):
+        return scipy.linalg.eigh(h, eigvals_only=eigvals_only, driver="evd")
 
 
 def _dense_states(grid: Grid, potential: Potential, count: int | None):
