@@ -293,7 +293,7 @@ class BoundEnergy(CaseKind):
     """Energy of bound state ``params.state`` of the input's model on its grid."""
 
     def run(self):
-        from .api import states
+        from .api import find_states as states
 
         result = states(self.case.input())
         n = int(self.case.get("params.state", 0))
@@ -307,7 +307,7 @@ class ExactLevels(CaseKind):
     """Every bound level of a model with exact levels (``potential.exact_levels()``)."""
 
     def run(self):
-        from .api import states
+        from .api import find_states as states
 
         result = states(self.case.input())
         exact = result.problem.potential.exact_levels()
@@ -330,7 +330,7 @@ class SofteningFit(CaseKind):
     """
 
     def run(self):
-        from .api import states
+        from .api import find_states as states
 
         rows = []
         for atom in self.case.get("params.atoms"):
@@ -670,6 +670,9 @@ class TunnellingYield(_ScanKind):
         ax.loglog(arr[:, 0], arr[:, 2], "s--", label="quasi-static tunnelling")
         for i_w, _, _, g, f in pts:
             ax.annotate(f"γ={g:.2f}\nF/Fbsi={f:.2f}", (i_w, arr[:, 1].min()), fontsize=6, ha="center")
+        from matplotlib.ticker import NullFormatter
+
+        ax.xaxis.set_minor_formatter(NullFormatter())
         ax.set_xlabel("peak intensity (W/cm²)")
         ax.set_ylabel("ionization probability")
         ax.legend(fontsize=8)

@@ -34,6 +34,7 @@ def _cpu_model():
 def main(args):
     import os
 
+    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
     cases = validate.discover(args.cases, quick=args.quick, names=set(args.only) or None)
     started = time.perf_counter()
     reports = validate.run_suite(cases, args.output, log=lambda m: print(m, file=sys.stderr, flush=True))
@@ -43,7 +44,7 @@ def main(args):
         "machine": f"{_cpu_model()}, {os.cpu_count()} cores",
         "tdse1d": __version__,
         "suite": "quick" if args.quick else "full",
-        "run time": f"{seconds:.0f} s",
+        "run time": f"{seconds:.0f} s (load average {load:.1f} at the start: other work on the machine slows it)",
     }
     path = validate.write_report(reports, args.output, header)
     failed = [r.case.name for r in reports if not r.passed]
