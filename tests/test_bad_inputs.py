@@ -1,5 +1,6 @@
 """Malformed inputs are refused by the command line: exit 2, the key named, no traceback,
-no file written. Each file of tests/bad_inputs/ starts with ``# expect: FRAGMENT``, the
+no file written (inputs through ``tdse1d run``, scan plans in tests/bad_inputs/scans/
+through ``tdse1d scan``). Each file starts with ``# expect: FRAGMENT``, the
 part of the message that must appear (the dotted key, or the kind of fault).
 
 A property-based test feeds random values into every numeric key and checks that
@@ -32,7 +33,7 @@ def test_corpus_is_large_and_covers_every_key():
     from tdse1d.config import _SECTIONS, AtomConfig, CentreConfig, LaserConfig
     import dataclasses
 
-    assert len(CASES) >= 40
+    assert len(CASES) >= 40 and len(SCANS) >= 10
     named = " ".join(_expected(p) for p in CASES)
     keys = [f"atom.{f.name}" for f in dataclasses.fields(AtomConfig) if "spec" in f.metadata]
     keys += [f"laser.0.{f.name}" for f in dataclasses.fields(LaserConfig) if "spec" in f.metadata]
@@ -54,6 +55,20 @@ def test_bad_input_refused(path, tmp_path, capsys, monkeypatch):
     assert "Traceback" not in err
     assert err.count("\n") == 1 and err.startswith("tdse1d: error: ")
     assert list(tmp_path.iterdir()) == []
+
+
+SCANS = sorted((HERE / "scans").glob("*.toml"))
+
+
+@pytest.mark.parametrize("path", SCANS, ids=[p.stem for p in SCANS])
+def test_bad_scan_plan_refused(path, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    code = cli.main(["scan", str(path), "-o", str(tmp_path / "scan_dir"), "--quiet"])
+    err = capsys.readouterr().err
+    assert code == 2, err
+    assert _expected(path) in err, err
+    assert "Traceback" not in err and err.startswith("tdse1d: error: ")
+    assert list(tmp_path.iterdir()) == []  # no scan directory, no point run
 
 
 def test_bad_input_refused_by_a_real_process(tmp_path):
