@@ -13,12 +13,13 @@ for three symptoms, each a small check registered in :data:`CHECKS`:
 * ``momentum-limit``: the fraction of the norm at ``|k| > 0.9 k_max`` (one FFT) exceeds
   :data:`MOMENTUM_FRACTION`: the grid spacing cannot represent the momenta the pulse
   produces, and they alias.
-* ``absorber-reflection``: after the pulses (no field drives electrons back, so far from
-  the ion every electron moves out), the wave in an absorbing layer and the stretch of
-  box inside it (as wide as the layer, at least a quarter of the inner box) that moves
-  back towards the ion, relative to the one moving out, exceeds
+* ``absorber-reflection``: from half an optical cycle after the pulses on (no field drives
+  electrons back, so in the layer every electron moves out), the wave in an absorbing
+  layer (with at least 10 bohr in front of a thinner layer), bound states projected out,
+  that moves back towards the ion, relative to the one moving out, exceeds
   :data:`REFLECTION_RATIO`, with the region holding at least :data:`REFLECTION_MIN_NORM`
-  of the norm. A mask or complex potential that varies too fast for slow electrons
+  of the norm and the returning part above :data:`REFLECTED_OF_ABSORBED` of the norm
+  absorbed so far. A mask or complex potential that varies too fast for slow electrons
   reflects them (common practice; the local momentum split is taken from the
   Hann-windowed FFT of the region's wavefunction).
 
@@ -40,6 +41,10 @@ EDGE_FRACTION = 1e-4
 MOMENTUM_FRACTION = 1e-5
 #: returning / outgoing density inside an absorbing layer, after the pulses
 REFLECTION_RATIO = 0.5
+#: returning norm, as a fraction of the norm absorbed so far, that counts as a reflection
+REFLECTED_OF_ABSORBED = 0.01
+#: shortest stretch of box (bohr) looked at in front of a thin absorbing layer
+MIN_STRETCH = 10.0
 #: the reflection test needs at least this fraction of the norm in the layer
 REFLECTION_MIN_NORM = 1e-5
 
@@ -67,13 +72,19 @@ class _Geometry:
         # without an absorber, what reaches the outer 5% of the box wraps around
         edge = 0.1 * width if self.has_absorber else 0.05 * grid.half_width
         self.outer = np.flatnonzero(np.abs(x) > grid.half_width - edge)
-        # the layer and a stretch of the box inside it: a reflected wave shows there too,
-        # and a thin layer alone holds too few points for a local momentum split
-        start = inner - max(width, 0.25 * inner)
+        # The layer itself: after the pulses nothing but a reflection (or a wrap-around)
+        # moves back towards the ion there, while just inside the box electrons the last
+        # cycles drove outwards still drift back. A layer thinner than MIN_STRETCH holds
+        # too few points for a local momentum split: then the region reaches into the box.
+        start = min(inner, grid.half_width - MIN_STRETCH)
         self.right = np.flatnonzero(x > start)
         self.left = np.flatnonzero(x < -start)
+        # bound states are removed first: their tails hold both directions equally
+        self.states = problem.states.wavefunctions
         self.high_k = np.abs(grid.k) > 0.9 * grid.max_momentum
-        self.field_end = problem.field.end if problem.field.pulses else -np.inf
+        # electrons the last half cycle sent into a layer come back out within about that
+        period = 2 * np.pi / problem.field.omega if problem.field.pulses else 0.0
+        self.field_end = problem.field.end + 0.5 * period if problem.field.pulses else -np.inf
 
 
 @register_check("absorber-edge")
@@ -110,16 +121,24 @@ def _inward_outward(psi_layer, outward_sign):
 def _reflection(geo, psi, density, norm, t):
     if not geo.has_absorber or t <= geo.field_end:
         return None
+    amplitudes = (geo.states @ psi) * geo.dx
+    continuum = psi - amplitudes @ geo.states
     for side, idx, sign in (("right", geo.right, 1), ("left", geo.left, -1)):
         if len(idx) < 8:
             continue
-        held = density[idx].sum() * geo.dx / norm
+        part = continuum[idx]
+        held = float(np.sum(part.real**2 + part.imag**2)) * geo.dx / norm
         if held < REFLECTION_MIN_NORM:
             continue
-        back, out = _inward_outward(psi[idx], sign)
-        if out > 0 and back / out > REFLECTION_RATIO:
+        back, out = _inward_outward(part, sign)
+        returning = held * back / (back + out) if back + out > 0 else 0.0
+        absorbed = max(1.0 - norm, 0.0)
+        # a layer that takes in far more than it sends back is doing its job, whatever
+        # the local ratio: what comes back must also matter against what was absorbed
+        if out > 0 and back / out > REFLECTION_RATIO and returning > REFLECTED_OF_ABSORBED * absorbed:
             return (f"the {side} absorber sends back {back / out:.2f} of what enters it "
-                    f"(it holds {held:.2e} of the norm): it reflects; make it wider or smoother")
+                    f"({returning:.2e} of the norm on its way back, {absorbed:.2e} absorbed so far): "
+                    "it reflects; make it wider or smoother")
     return None
 
 
