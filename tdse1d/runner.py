@@ -37,7 +37,7 @@ __all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", 
 #: default bound-state projections per optical cycle of the first pulse
 POPULATIONS_PER_CYCLE = 20
 #: absorb every this many a.u. of time when the mask method collects electrons
-MASK_METHOD_INTERVAL = 0.2
+MASK_METHOD_INTERVAL = 1.0
 
 
 @dataclass

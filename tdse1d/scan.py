@@ -724,7 +724,8 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     try:
         config = parse_input(tomllib.loads(resolved_toml), source=source, base_dir=base_dir)
         with fftw_wisdom():
-            outcome = api.run(config, output)
+            # an unfinished point continues from the checkpoint its last attempt left
+            outcome = api.run(config, output, resume=True)
         tunnelling = _tunnelling_yield(outcome)
         record.update(status="done", seconds=time.perf_counter() - started, tunnelling_yield=tunnelling,
                       finished_at=time.time())
