@@ -18,21 +18,14 @@ from __future__ import annotations
 import numpy as np
 
 from .grid import Grid
+from .registry import registrar
 
 __all__ = ["Absorber", "CosineMask", "ComplexPotential", "NoAbsorber", "ABSORBERS", "register_absorber", "depth_into_layer"]
 
 ABSORBERS: dict[str, type["Absorber"]] = {}
 
 
-def register_absorber(name: str):
-    """Class decorator adding an absorber to :data:`ABSORBERS` under ``name``."""
-
-    def decorate(cls):
-        cls.name = name
-        ABSORBERS[name] = cls
-        return cls
-
-    return decorate
+register_absorber = registrar(ABSORBERS)
 
 
 def depth_into_layer(grid: Grid, width: float) -> np.ndarray:

@@ -48,7 +48,8 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import classical
-from .spectra import _running_mean, default_gabor_width, gabor_transform
+from .spectra import default_gabor_width, gabor_transform, running_mean
+from .store import write_dataset
 
 __all__ = [
     "TimeFrequencyMap",
@@ -457,7 +458,7 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
         return PhotoelectronEdges(math.nan, math.nan, math.nan, math.nan, smoothed)
     ee, dd = e[usable], d[usable]
     log_d = np.log10(np.maximum(dd, dd.max() * 10.0**-floor_decades))
-    s = _running_mean(ee, log_d, 0.5 * photon_energy)
+    s = running_mean(ee, log_d, 0.5 * photon_energy)
     smoothed[usable] = s
     start = int(np.argmax(s))
     peak = float(s[start])
@@ -814,13 +815,6 @@ def analyse_file(h5file) -> RunAnalysis:
 # --------------------------------------------------------------------------- HDF5
 
 
-def _put(group, name, value, units, **attrs):
-    ds = group.create_dataset(name, data=value)
-    ds.attrs["units"] = units
-    for k, v in attrs.items():
-        ds.attrs[k] = v
-    return ds
-
 
 #: scalar results stored under /classical: attribute of RunAnalysis or of its
 #: three-step summary -> (units, description)
@@ -848,66 +842,66 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
     c = f.create_group("classical")
     c.attrs["notes"] = "\n".join(analysis.notes)
     for name, (units, text) in _CLASSICAL_SCALARS.items():
-        _put(c, name, float(getattr(analysis, name)), units, description=text)
+        write_dataset(c, name, float(getattr(analysis, name)), units, description=text)
     s = analysis.three_step
     if s is not None:
         for name, (units, text) in _SUMMARY_SCALARS.items():
-            _put(c, name, float(getattr(s, name)), units, description=text)
+            write_dataset(c, name, float(getattr(s, name)), units, description=text)
         tr = analysis.trajectories
         g = c.create_group("trajectories")
-        _put(g, "birth_time", tr.birth_time, "atomic_unit_of_time")
-        _put(g, "return_time", tr.return_time, "atomic_unit_of_time", description="shape (birth, return)")
-        _put(g, "return_energy", tr.return_energy, "hartree")
-        _put(g, "drift_momentum", tr.drift_momentum, "atomic_unit_of_momentum", description="-A(t0)")
-        _put(g, "backscattered_momentum", tr.backscattered_momentum, "atomic_unit_of_momentum",
+        write_dataset(g, "birth_time", tr.birth_time, "atomic_unit_of_time")
+        write_dataset(g, "return_time", tr.return_time, "atomic_unit_of_time", description="shape (birth, return)")
+        write_dataset(g, "return_energy", tr.return_energy, "hartree")
+        write_dataset(g, "drift_momentum", tr.drift_momentum, "atomic_unit_of_momentum", description="-A(t0)")
+        write_dataset(g, "backscattered_momentum", tr.backscattered_momentum, "atomic_unit_of_momentum",
              description="A(t0) - 2 A(t_r)")
         b = c.create_group("branches")
         for branch in ("short", "long"):
             tables = getattr(s, f"{branch}_branch")
             stacked = np.concatenate(tables) if tables else np.zeros((0, 2))
             labels = np.concatenate([np.full(len(t), k) for k, t in enumerate(tables)]) if tables else np.zeros(0)
-            _put(b, f"{branch}_time", stacked[:, 0], "atomic_unit_of_time", description="emission (first return) time")
-            _put(b, f"{branch}_energy", stacked[:, 1], "hartree", description="photon energy Ip + E_return")
-            _put(b, f"{branch}_half_cycle", labels.astype(int), "1", description="field half cycle index")
+            write_dataset(b, f"{branch}_time", stacked[:, 0], "atomic_unit_of_time", description="emission (first return) time")
+            write_dataset(b, f"{branch}_energy", stacked[:, 1], "hartree", description="photon energy Ip + E_return")
+            write_dataset(b, f"{branch}_half_cycle", labels.astype(int), "1", description="field half cycle index")
     if analysis.tunnelling_time.size:
         g = c.create_group("tunnelling")
-        _put(g, "time", analysis.tunnelling_time, "atomic_unit_of_time")
-        _put(g, "probability", analysis.tunnelling_probability, "1")
+        write_dataset(g, "time", analysis.tunnelling_time, "atomic_unit_of_time")
+        write_dataset(g, "probability", analysis.tunnelling_probability, "1")
     tf = analysis.time_frequency
     if tf is not None:
         g = f.create_group("spectra/time_frequency")
         g.attrs["window"] = "gaussian"
-        _put(g, "time", tf.time, "atomic_unit_of_time")
-        _put(g, "frequency", tf.frequency, "hartree", description="photon energy")
-        _put(g, "power", tf.power, "atomic_units", description="|Gabor transform of the acceleration|^2")
-        _put(g, "width", tf.width, "atomic_unit_of_time", description="Gaussian window sigma")
+        write_dataset(g, "time", tf.time, "atomic_unit_of_time")
+        write_dataset(g, "frequency", tf.frequency, "hartree", description="photon energy")
+        write_dataset(g, "power", tf.power, "atomic_units", description="|Gabor transform of the acceleration|^2")
+        write_dataset(g, "width", tf.width, "atomic_unit_of_time", description="Gaussian window sigma")
         em = analysis.emission
         if em is not None:
             e = g.create_group("emission")
-            _put(e, "half_cycle", em.half_cycle, "1")
-            _put(e, "frequency", em.frequency, "hartree")
-            _put(e, "quantum", em.quantum, "atomic_unit_of_time", description="time of the Gabor maximum")
-            _put(e, "short", em.short, "atomic_unit_of_time", description="classical short trajectory")
-            _put(e, "long", em.long, "atomic_unit_of_time", description="classical long trajectory")
-            _put(e, "period", em.period, "atomic_unit_of_time")
+            write_dataset(e, "half_cycle", em.half_cycle, "1")
+            write_dataset(e, "frequency", em.frequency, "hartree")
+            write_dataset(e, "quantum", em.quantum, "atomic_unit_of_time", description="time of the Gabor maximum")
+            write_dataset(e, "short", em.short, "atomic_unit_of_time", description="classical short trajectory")
+            write_dataset(e, "long", em.long, "atomic_unit_of_time", description="classical long trajectory")
+            write_dataset(e, "period", em.period, "atomic_unit_of_time")
     if analysis.edges is not None or analysis.ponderomotive is not None:
         g = f.create_group("spectra/photoelectron/edges")
         g.attrs["method"] = analysis.photoelectron_method or ""
         if analysis.edges is not None:
-            _put(g, "direct", analysis.edges.direct, "hartree", description="direct-electron edge read off")
-            _put(g, "backscattered", analysis.edges.backscattered, "hartree",
+            write_dataset(g, "direct", analysis.edges.direct, "hartree", description="direct-electron edge read off")
+            write_dataset(g, "backscattered", analysis.edges.backscattered, "hartree",
                  description="backscattered-electron edge read off")
-            _put(g, "plateau_log10", analysis.edges.plateau_log10, "log10(1/hartree)")
+            write_dataset(g, "plateau_log10", analysis.edges.plateau_log10, "log10(1/hartree)")
         pond = analysis.ponderomotive
         if pond is not None:
-            _put(g, "ponderomotive_shift", pond.measured, "hartree", measurable=pond.measurable, reason=pond.reason)
+            write_dataset(g, "ponderomotive_shift", pond.measured, "hartree", measurable=pond.measurable, reason=pond.reason)
     st = analysis.streaking
     if st is not None:
         g = f.create_group("streaking")
         for name in ("xuv_time",):
-            _put(g, name, st.xuv_time, "atomic_unit_of_time")
-        _put(g, "xuv_photon_energy", st.xuv_photon_energy, "hartree")
-        _put(g, "photoelectric_energy", st.photoelectric_energy, "hartree",
+            write_dataset(g, name, st.xuv_time, "atomic_unit_of_time")
+        write_dataset(g, "xuv_photon_energy", st.xuv_photon_energy, "hartree")
+        write_dataset(g, "photoelectric_energy", st.photoelectric_energy, "hartree",
              description="peak energy without the streaking shift")
         for name in ("initial_momentum", "vector_potential", "peak_right", "peak_left", "measured"):
-            _put(g, name, getattr(st, name), "atomic_unit_of_momentum")
+            write_dataset(g, name, getattr(st, name), "atomic_unit_of_momentum")

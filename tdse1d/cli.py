@@ -111,6 +111,13 @@ def main(argv=None) -> int:
             raise
         print(f"tdse1d: error: {exc}", file=sys.stderr)
         return EXIT_FAILURE
+    except BrokenPipeError:
+        # the reader went away (e.g. `tdse1d export ... | head`): not an error of ours
+        import os
+
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
     except KeyboardInterrupt:
         print("tdse1d: interrupted", file=sys.stderr)
         return 130

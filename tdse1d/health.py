@@ -31,7 +31,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .propagate import NumericalError
+from .errors import NumericalError
+from .registry import registrar
 
 __all__ = ["HealthMonitor", "CHECKS", "EDGE_FRACTION", "MOMENTUM_FRACTION", "REFLECTION_RATIO"]
 
@@ -51,12 +52,7 @@ REFLECTION_MIN_NORM = 1e-5
 CHECKS = {}
 
 
-def register_check(name: str):
-    def decorate(fn):
-        CHECKS[name] = fn
-        return fn
-
-    return decorate
+register_check = registrar(CHECKS, attribute=None)
 
 
 class _Geometry:

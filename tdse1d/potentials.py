@@ -19,6 +19,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from .registry import registrar
+
 __all__ = [
     "Potential",
     "SoftCore",
@@ -31,15 +33,7 @@ __all__ = [
 POTENTIALS: dict[str, type["Potential"]] = {}
 
 
-def register_potential(name: str):
-    """Class decorator that adds a potential to :data:`POTENTIALS` under ``name``."""
-
-    def decorate(cls):
-        cls.name = name
-        POTENTIALS[name] = cls
-        return cls
-
-    return decorate
+register_potential = registrar(POTENTIALS)
 
 
 class Potential:

@@ -41,6 +41,7 @@ from . import kernels
 from .errors import NumericalError
 from .fft import InPlaceFFT
 from .grid import Grid
+from .registry import registrar
 
 __all__ = [
     "SplittingScheme",
@@ -58,15 +59,7 @@ __all__ = [
 SCHEMES: dict[str, type["SplittingScheme"]] = {}
 
 
-def register_scheme(name: str):
-    """Class decorator adding a splitting scheme to :data:`SCHEMES` under ``name``."""
-
-    def decorate(cls):
-        cls.name = name
-        SCHEMES[name] = cls
-        return cls
-
-    return decorate
+register_scheme = registrar(SCHEMES)
 
 
 class SplittingScheme:

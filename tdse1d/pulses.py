@@ -35,6 +35,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.interpolate import CubicSpline
 
+from .registry import registrar
+
 __all__ = [
     "Envelope",
     "Sin2",
@@ -51,15 +53,7 @@ __all__ = [
 ENVELOPES: dict[str, type["Envelope"]] = {}
 
 
-def register_envelope(name: str):
-    """Class decorator adding an envelope to :data:`ENVELOPES` under ``name``."""
-
-    def decorate(cls):
-        cls.name = name
-        ENVELOPES[name] = cls
-        return cls
-
-    return decorate
+register_envelope = registrar(ENVELOPES)
 
 
 class Envelope:

@@ -36,7 +36,8 @@ import numpy as np
 from scipy.integrate import cumulative_trapezoid
 from scipy.signal import windows as _scipy_windows
 
-from tdse1d.units import HARTREE_EV
+from .registry import registrar
+from .units import HARTREE_EV
 
 __all__ = [
     "Window",
@@ -123,15 +124,7 @@ def _positive(value, name: str) -> float:
 WINDOWS: dict[str, type["Window"]] = {}
 
 
-def register_window(name: str):
-    """Class decorator adding a window to :data:`WINDOWS` under ``name``."""
-
-    def decorate(cls):
-        cls.name = name
-        WINDOWS[name] = cls
-        return cls
-
-    return decorate
+register_window = registrar(WINDOWS)
 
 
 class Window:
@@ -395,7 +388,7 @@ class CutoffEstimate:
     resolved: bool
 
 
-def _running_mean(axis, values, half_width):
+def running_mean(axis, values, half_width):
     """Mean of ``values`` over ``|axis' - axis| <= half_width`` (window shrinks at the edges)."""
     csum = np.concatenate(([0.0], np.cumsum(values)))
     lo = np.searchsorted(axis, axis - half_width, side="left")
@@ -489,7 +482,7 @@ def read_cutoff(
         raise ValueError(f"start_orders must be >= 0, got {start_orders}")
 
     log_power = np.log10(np.maximum(pw, pw.max() * 10.0**-floor_decades))
-    smoothed = _running_mean(w, log_power, smooth_orders * omega0)
+    smoothed = running_mean(w, log_power, smooth_orders * omega0)
 
     w_start = ip + float(start_orders) * omega0
     w_end = w[-1] if max_frequency is None else float(max_frequency)

@@ -22,13 +22,14 @@ import numpy as np
 from . import __version__
 from .estimates import as_attributes
 
-__all__ = ["ResultWriter", "read_result", "ResultFile", "PART_SUFFIX", "is_complete"]
+__all__ = ["ResultWriter", "write_dataset", "read_result", "ResultFile", "PART_SUFFIX", "is_complete"]
 
 PART_SUFFIX = ".part"
 COMPLETE_ATTR = "complete"
 
 
-def _dataset(group, name, data, units, **attrs):
+def write_dataset(group, name, data, units, **attrs):
+    """Create ``group[name]`` holding ``data`` with its ``units`` attribute (and others)."""
     ds = group.create_dataset(name, data=data)
     ds.attrs["units"] = units
     for k, v in attrs.items():
@@ -74,11 +75,11 @@ class ResultWriter:
         f.attrs["potential"] = p.potential.describe()
         f.attrs["warnings"] = "\n".join(p.warnings)
         f.attrs[COMPLETE_ATTR] = False
-        _dataset(f.create_group("grid"), "x", p.grid.x, "bohr")
+        write_dataset(f.create_group("grid"), "x", p.grid.x, "bohr")
         f["grid"].attrs["spacing"] = p.grid.spacing
         states = f.create_group("states")
-        _dataset(states, "energy", p.states.energies, "hartree")
-        _dataset(states, "wavefunction", p.states.wavefunctions, "bohr^-1/2")
+        write_dataset(states, "energy", p.states.energies, "hartree")
+        write_dataset(states, "wavefunction", p.states.wavefunctions, "bohr^-1/2")
         est = f.create_group("estimates")
         if p.pulse_estimates:
             for k, v in as_attributes(p.pulse_estimates[0]).items():
@@ -91,9 +92,9 @@ class ResultWriter:
         stride = cfg.output.snapshot_stride
         n_snap = len(snapshot_times)
         snaps = f.create_group("snapshots")
-        self._snap_time = _dataset(snaps, "time", np.asarray(snapshot_times, float), "atomic_unit_of_time")
+        self._snap_time = write_dataset(snaps, "time", np.asarray(snapshot_times, float), "atomic_unit_of_time")
         x = p.grid.x[::stride]
-        _dataset(snaps, "x", x, "bohr")
+        write_dataset(snaps, "x", x, "bohr")
         self._stride = stride
         self._snap = snaps.create_dataset(
             "psi", shape=(n_snap, len(x)), dtype=np.complex128,
@@ -115,26 +116,26 @@ class ResultWriter:
         f = self.file
         obs = result.observables
         fld = f.create_group("field")
-        _dataset(fld, "time", obs.time, "atomic_unit_of_time")
-        _dataset(fld, "electric", obs.electric, "atomic_unit_of_electric_field")
-        _dataset(fld, "vector_potential", obs.vector_potential, "atomic_unit_of_vector_potential")
+        write_dataset(fld, "time", obs.time, "atomic_unit_of_time")
+        write_dataset(fld, "electric", obs.electric, "atomic_unit_of_electric_field")
+        write_dataset(fld, "vector_potential", obs.vector_potential, "atomic_unit_of_vector_potential")
         o = f.create_group("observables")
-        _dataset(o, "time", obs.time, "atomic_unit_of_time")
-        _dataset(o, "dipole", obs.dipole, "bohr", description="<x>, dipole moment per electron charge")
-        _dataset(o, "momentum", obs.momentum, "atomic_unit_of_momentum", description="kinetic momentum <p>")
-        _dataset(o, "acceleration", obs.acceleration, "atomic_unit_of_acceleration",
+        write_dataset(o, "time", obs.time, "atomic_unit_of_time")
+        write_dataset(o, "dipole", obs.dipole, "bohr", description="<x>, dipole moment per electron charge")
+        write_dataset(o, "momentum", obs.momentum, "atomic_unit_of_momentum", description="kinetic momentum <p>")
+        write_dataset(o, "acceleration", obs.acceleration, "atomic_unit_of_acceleration",
                  description="Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t)")
-        _dataset(o, "norm", obs.norm, "1")
-        _dataset(o, "initial_population", obs.initial_population, "1")
-        _dataset(o, "population_time", result.population_time, "atomic_unit_of_time")
-        _dataset(o, "bound_population", result.bound_population, "1",
+        write_dataset(o, "norm", obs.norm, "1")
+        write_dataset(o, "initial_population", obs.initial_population, "1")
+        write_dataset(o, "population_time", result.population_time, "atomic_unit_of_time")
+        write_dataset(o, "bound_population", result.bound_population, "1",
                  description="|<phi_n|psi>|^2 at population_time, shape (time, state)")
-        _dataset(o, "absorbed", obs.norm[0] - obs.norm, "1", description="norm removed by the absorber so far")
+        write_dataset(o, "absorbed", obs.norm[0] - obs.norm, "1", description="norm removed by the absorber so far")
         h = f.create_group("spectra/harmonic")
         hs = result.harmonic
-        _dataset(h, "frequency", hs.frequency, "hartree", description="angular frequency = photon energy")
-        _dataset(h, "order", hs.order, "1", description="frequency / carrier frequency of the first pulse")
-        _dataset(h, "power", hs.power, "atomic_units", description="|FFT of windowed acceleration|^2")
+        write_dataset(h, "frequency", hs.frequency, "hartree", description="angular frequency = photon energy")
+        write_dataset(h, "order", hs.order, "1", description="frequency / carrier frequency of the first pulse")
+        write_dataset(h, "power", hs.power, "atomic_units", description="|FFT of windowed acceleration|^2")
         h.attrs["window"] = self.problem.config.spectra.window
         if result.cutoff is not None:
             h.attrs["cutoff_frequency"] = result.cutoff.frequency
@@ -144,17 +145,17 @@ class ResultWriter:
             g = f.create_group(f"spectra/photoelectron/{method}")
             g.attrs["method"] = method
             g.attrs["split"] = spec.split
-            _dataset(g, "momentum", spec.momentum, "atomic_unit_of_momentum", description="|p|")
-            _dataset(g, "density_left", spec.density_left, "1/atomic_unit_of_momentum")
-            _dataset(g, "density_right", spec.density_right, "1/atomic_unit_of_momentum")
-            _dataset(g, "energy", spec.energy, "hartree")
-            _dataset(g, "energy_density_left", spec.energy_density_left, "1/hartree")
-            _dataset(g, "energy_density_right", spec.energy_density_right, "1/hartree")
+            write_dataset(g, "momentum", spec.momentum, "atomic_unit_of_momentum", description="|p|")
+            write_dataset(g, "density_left", spec.density_left, "1/atomic_unit_of_momentum")
+            write_dataset(g, "density_right", spec.density_right, "1/atomic_unit_of_momentum")
+            write_dataset(g, "energy", spec.energy, "hartree")
+            write_dataset(g, "energy_density_left", spec.energy_density_left, "1/hartree")
+            write_dataset(g, "energy_density_right", spec.energy_density_right, "1/hartree")
         ion = f.create_group("ionization")
-        _dataset(ion, "probability", result.ionization_probability, "1", description="1 - final bound population")
-        _dataset(ion, "absorbed", result.absorbed, "1", description="norm removed by the absorber")
+        write_dataset(ion, "probability", result.ionization_probability, "1", description="1 - final bound population")
+        write_dataset(ion, "absorbed", result.absorbed, "1", description="norm removed by the absorber")
         final = f.create_group("final")
-        _dataset(final, "psi", result.final_state, "bohr^-1/2", gauge="length")
+        write_dataset(final, "psi", result.final_state, "bohr^-1/2", gauge="length")
         f.attrs["warnings"] = "\n".join(result.warnings)
         if extra is not None:
             extra(f)

@@ -25,6 +25,7 @@ import numpy as np
 
 from . import __version__, units
 from .estimates import CUTOFF_UP, LEWENSTEIN_IP
+from .store import write_dataset
 
 __all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
 
@@ -155,13 +156,6 @@ def cutoff_fit(up_ev, cutoff_ev, ip_ev) -> dict | None:
     return fit
 
 
-def _ds(group, name, data, unit, **attrs):
-    ds = group.create_dataset(name, data=data)
-    ds.attrs["units"] = unit
-    for k, v in attrs.items():
-        ds.attrs[k] = v
-    return ds
-
 
 def write_summary(plan, directory) -> Summary:
     """Assemble ``summary.h5`` in the scan directory from its finished point files.
@@ -234,52 +228,52 @@ def write_summary(plan, directory) -> Summary:
             g = axes.create_group(str(i))
             g.attrs["key"] = a.key
             g.attrs["unit"] = a.unit
-            _ds(g, "values", a.display(), a.unit or "atomic_units", description="values as written in the plan")
-            _ds(g, "values_au", np.array(a.atomic, float), "atomic_units")
+            write_dataset(g, "values", a.display(), a.unit or "atomic_units", description="values as written in the plan")
+            write_dataset(g, "values_au", np.array(a.atomic, float), "atomic_units")
             g.create_dataset("labels", data=np.array([str(v) for v in a.values], dtype=h5py.string_dtype()))
         pts = f.create_group("points")
         pts.create_dataset("hash", data=np.array([p.hash for p in plan.points], dtype=h5py.string_dtype()))
-        _ds(pts, "index", np.arange(n), "1")
-        _ds(pts, "grid_index", np.array([p.grid_index for p in plan.points], dtype=np.int64).reshape(n, -1), "1",
+        write_dataset(pts, "index", np.arange(n), "1")
+        write_dataset(pts, "grid_index", np.array([p.grid_index for p in plan.points], dtype=np.int64).reshape(n, -1), "1",
             description="index along each axis")
-        _ds(pts, "values_au", np.array([[a.atomic[i] for a, i in zip(plan.axes, p.grid_index)]
+        write_dataset(pts, "values_au", np.array([[a.atomic[i] for a, i in zip(plan.axes, p.grid_index)]
                                         for p in plan.points], float).reshape(n, -1), "atomic_units")
-        _ds(pts, "complete", np.array([d is not None for d in data]), "1")
-        _ds(pts, "cost", np.array([p.cost for p in plan.points]), "1", description="grid points x time steps")
-        _ds(pts, "run_seconds", column(lambda d, r: r.get("seconds", math.nan)), "s")
+        write_dataset(pts, "complete", np.array([d is not None for d in data]), "1")
+        write_dataset(pts, "cost", np.array([p.cost for p in plan.points]), "1", description="grid points x time steps")
+        write_dataset(pts, "run_seconds", column(lambda d, r: r.get("seconds", math.nan)), "s")
         sp = f.create_group("spectra")
-        _ds(sp, "photon_energy", energy, "eV")
-        _ds(sp, "power", power, "atomic_units", description="harmonic power |a|^2 interpolated onto photon_energy")
-        _ds(sp, "amplitude", amplitude, "atomic_units",
+        write_dataset(sp, "photon_energy", energy, "eV")
+        write_dataset(sp, "power", power, "atomic_units", description="harmonic power |a|^2 interpolated onto photon_energy")
+        write_dataset(sp, "amplitude", amplitude, "atomic_units",
             description="complex harmonic amplitude (acceleration form, phase referred to t = 0), "
                         "real and imaginary parts interpolated onto photon_energy")
         c = f.create_group("cutoff")
-        _ds(c, "spectrum", cutoff_ev, "eV", description="read off each spectrum (tdse1d.spectra.read_cutoff)")
-        _ds(c, "resolved", resolved, "1")
-        _ds(c, "semiclassical", est("cutoff_energy"), "eV", description="Ip + 3.17 Up")
-        _ds(c, "lewenstein", est("cutoff_energy_lewenstein"), "eV", description="1.32 Ip + 3.17 Up")
+        write_dataset(c, "spectrum", cutoff_ev, "eV", description="read off each spectrum (tdse1d.spectra.read_cutoff)")
+        write_dataset(c, "resolved", resolved, "1")
+        write_dataset(c, "semiclassical", est("cutoff_energy"), "eV", description="Ip + 3.17 Up")
+        write_dataset(c, "lewenstein", est("cutoff_energy_lewenstein"), "eV", description="1.32 Ip + 3.17 Up")
         e = f.create_group("estimates")
-        _ds(e, "ponderomotive_energy", up_ev, "eV")
-        _ds(e, "ionization_potential", ip_ev, "eV")
-        _ds(e, "keldysh_parameter", column(lambda d, r: d.attrs["estimates"].get("keldysh_parameter", math.nan)), "1")
-        _ds(e, "peak_intensity", column(lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)),
+        write_dataset(e, "ponderomotive_energy", up_ev, "eV")
+        write_dataset(e, "ionization_potential", ip_ev, "eV")
+        write_dataset(e, "keldysh_parameter", column(lambda d, r: d.attrs["estimates"].get("keldysh_parameter", math.nan)), "1")
+        write_dataset(e, "peak_intensity", column(lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)),
             "W/cm^2")
-        _ds(e, "photon_energy", est("photon_energy"), "eV")
+        write_dataset(e, "photon_energy", est("photon_energy"), "eV")
         ion = f.create_group("ionization")
-        _ds(ion, "probability", column(lambda d, r: d.attrs["ionization"]), "1",
+        write_dataset(ion, "probability", column(lambda d, r: d.attrs["ionization"]), "1",
             description="1 - final bound population")
-        _ds(ion, "tunnelling_estimate", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
+        write_dataset(ion, "tunnelling_estimate", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
             d.attrs["tunnelling"]) else r.get("tunnelling_yield", math.nan)), "1",
             description="quasi-static tunnelling yield over the run's field (tdse1d.classical.tunnelling_yield)")
         pe = f.create_group("photoelectron")
-        _ds(pe, "cutoff", column(lambda d, r: d.attrs["photoelectron"] * ev), "eV",
+        write_dataset(pe, "cutoff", column(lambda d, r: d.attrs["photoelectron"] * ev), "eV",
             description="rough end of the last plateau (tdse1d.summary.photoelectron_cutoff)")
-        _ds(pe, "direct_edge", column(lambda d, r: d.attrs["direct_edge"] * ev), "eV",
+        write_dataset(pe, "direct_edge", column(lambda d, r: d.attrs["direct_edge"] * ev), "eV",
             description="direct-electron edge read off by the run (/spectra/photoelectron/edges), NaN if absent")
-        _ds(pe, "backscattered_edge", column(lambda d, r: d.attrs["backscattered_edge"] * ev), "eV",
+        write_dataset(pe, "backscattered_edge", column(lambda d, r: d.attrs["backscattered_edge"] * ev), "eV",
             description="backscattered-electron edge read off by the run, NaN if absent")
-        _ds(pe, "direct_drift", est("direct_drift_energy"), "eV", description="2 Up")
-        _ds(pe, "backscattered_drift", est("backscattered_drift_energy"), "eV", description="10 Up")
+        write_dataset(pe, "direct_drift", est("direct_drift_energy"), "eV", description="2 Up")
+        write_dataset(pe, "backscattered_drift", est("backscattered_drift_energy"), "eV", description="10 Up")
         g = f.create_group("fit")
         g.attrs["description"] = ("least-squares line cutoff = slope * Up + intercept (eV) over points with a "
                                   "resolved cutoff; semiclassical: slope 3.17, intercept Ip (or 1.32 Ip)")
@@ -308,5 +302,5 @@ def _write_focal(f, plan, energy, power, amplitude):
         sub = g.create_group(name)
         inc = focal_average(intensity[ok], power[ok], geometry=name)
         coh = focal_average(intensity[ok], amplitude[ok], geometry=name, coherent=True)
-        _ds(sub, "incoherent", inc, "atomic_units", description="sum of w_k |a_k|^2")
-        _ds(sub, "coherent", coh, "atomic_units", description="|sum of w_k a_k|^2")
+        write_dataset(sub, "incoherent", inc, "atomic_units", description="sum of w_k |a_k|^2")
+        write_dataset(sub, "coherent", coh, "atomic_units", description="|sum of w_k a_k|^2")

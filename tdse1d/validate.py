@@ -38,6 +38,7 @@ import numpy as np
 
 from . import units
 from .config import InputError, load_input
+from .registry import registrar
 
 __all__ = [
     "CASE_KINDS",
@@ -56,15 +57,7 @@ __all__ = [
 CASE_KINDS: dict[str, type["CaseKind"]] = {}
 
 
-def register_case_kind(name: str):
-    """Class decorator adding a case kind to :data:`CASE_KINDS` under ``name``."""
-
-    def decorate(cls):
-        cls.kind = name
-        CASE_KINDS[name] = cls
-        return cls
-
-    return decorate
+register_case_kind = registrar(CASE_KINDS, attribute="kind")
 
 
 def default_cases_dir() -> Path:
@@ -218,9 +211,9 @@ def _plt():
 
 
 def _smoothed_log(spec, half_width):
-    from .spectra import _running_mean
+    from .spectra import running_mean
 
-    return _running_mean(spec.frequency, np.log10(np.maximum(spec.power, 1e-300)), half_width)
+    return running_mean(spec.frequency, np.log10(np.maximum(spec.power, 1e-300)), half_width)
 
 
 def _plateau_band(problem, lo_up=0.5, hi_up=2.5):
@@ -442,7 +435,7 @@ class PhotoelectronEdges(CaseKind):
     """
 
     def run(self):
-        from .spectra import _running_mean
+        from .spectra import running_mean
 
         out = self.runner.run(self.case.input())
         spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
@@ -450,7 +443,7 @@ class PhotoelectronEdges(CaseKind):
         keep = spec.energy > 0
         e = spec.energy[keep] / up
         log = np.log10(np.maximum(np.nan_to_num(spec.energy_density[keep]), 1e-300))
-        smooth = _running_mean(e, log, float(self.case.get("params.smooth_up", 0.25)))
+        smooth = running_mean(e, log, float(self.case.get("params.smooth_up", 0.25)))
         p_lo, p_hi = self.case.get("params.plateau_band")
         plateau = float(np.mean(smooth[(e >= p_lo) & (e <= p_hi)]))
         k_lo, k_hi = self.case.get("params.knee_range")
@@ -528,6 +521,58 @@ class Streaking(_ScanKind):
     @staticmethod
     def _delay(out):
         return float(out.problem.config.lasers[-1].delay)
+
+
+@register_case_kind("emission_times")
+class EmissionTimesCase(CaseKind):
+    """Emission times read off the time-frequency map against the classical returns.
+
+    For each half cycle and plateau photon energy, the time of the Gabor maximum of the
+    dipole acceleration (:func:`tdse1d.analysis.emission_times`) beside the classical
+    short- and long-trajectory return times of the three-step model for the same field.
+    Checked: the median distance to the nearer branch (the trajectories the quantum
+    emission follows). Reported beside it: the median distance to the short branch,
+    and which branch dominates.
+    """
+
+    def run(self):
+        from .analysis import analyse_run
+
+        out = self.runner.run(self.case.input())
+        em = analyse_run(out.problem, out.result).emission
+        if em is None or len(em.quantum) == 0:
+            raise ValueError("no plateau emission times could be read off the map")
+        nearer = np.minimum(np.abs(em.deviation_cycles("short")), np.abs(em.deviation_cycles("long")))
+        dominant = em.dominant_branch()
+        share_long = float(np.mean(dominant == "long"))
+        self.notes.append(
+            f"{100 * share_long:.0f}% of the {len(dominant)} (half cycle, energy) samples lie nearer the long "
+            "branch than the short one"
+        )
+        plt = _plt()
+        fig, ax = plt.subplots(figsize=(5, 3.4))
+        ev = units.HARTREE_EV
+        t0 = em.quantum[0]
+        for data, label, style, colour in ((em.short, "short (classical)", "-", "C0"),
+                                           (em.long, "long (classical)", "--", "C1")):
+            for i, half in enumerate(np.unique(em.half_cycle)):
+                rows = np.flatnonzero(em.half_cycle == half)
+                rows = rows[np.argsort(em.frequency[rows])]
+                ax.plot((data[rows] - t0) / em.period, em.frequency[rows] * ev, style, lw=1, color=colour,
+                        label=label if i == 0 else None)
+        ax.plot((em.quantum - t0) / em.period, em.frequency * ev, ".", ms=3, color="k", label="Gabor maximum")
+        ax.set_xlabel("emission time (optical cycles)")
+        ax.set_ylabel("photon energy (eV)")
+        ax.legend(fontsize=8)
+        self.figure(fig, "emission_times")
+        tol = float(self.case.get("tolerance"))
+        return [
+            self.row(float(np.median(nearer)), quantity="emission time, distance to the nearer classical branch",
+                     reference=0.0, units="cycles"),
+            self.row(float(np.median(np.abs(em.deviation_cycles("short")))),
+                     quantity="emission time, distance to the short branch", reference=0.0, tolerance=tol,
+                     units="cycles", informational=True, passed=True),
+        ]
 
 
 @register_case_kind("gauge_invariance")
