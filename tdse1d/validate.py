@@ -425,41 +425,34 @@ class PhotoelectricPeak(CaseKind):
 class PhotoelectronEdges(CaseKind):
     """Edges of the direct (2 Up) and backscattered (10 Up) photoelectrons.
 
-    From the log10 of dP/dE smoothed over ``params.smooth_up`` (in Up): the plateau
-    level is its mean over ``params.plateau_band`` (in Up). The direct edge is the knee
-    of the direct electrons: the break point of a continuous two-segment straight-line
-    fit to the smoothed log spectrum over ``params.knee_range`` (in Up), where the slow
-    fall of the direct electrons turns into the steep one. The backscattered edge is the
-    last energy where the spectrum is within ``params.drop`` decades of the plateau
-    level. Tolerances are relative.
+    Read off the run's photoelectron energy spectrum by the rule ``tdse1d report`` uses
+    (:func:`tdse1d.analysis.photoelectron_edges`, docs/analysis.md): the direct edge is
+    the knee where the direct electrons' distribution starts its steep fall, the
+    backscattered edge the end of the plateau. Tolerances are relative.
     """
 
     def run(self):
-        from .spectra import running_mean
+        from .analysis import analyse_run
 
         out = self.runner.run(self.case.input())
         spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
         up = out.problem.pulse_estimates[0].ponderomotive_energy
+        edges = analyse_run(out.problem, out.result).edges
+        if edges is None:
+            raise ValueError("no photoelectron edges could be read off the spectrum")
+        direct_edge, back_edge = edges.direct / up, edges.backscattered / up
         keep = spec.energy > 0
         e = spec.energy[keep] / up
         log = np.log10(np.maximum(np.nan_to_num(spec.energy_density[keep]), 1e-300))
-        smooth = running_mean(e, log, float(self.case.get("params.smooth_up", 0.25)))
-        p_lo, p_hi = self.case.get("params.plateau_band")
-        plateau = float(np.mean(smooth[(e >= p_lo) & (e <= p_hi)]))
-        k_lo, k_hi = self.case.get("params.knee_range")
-        direct_edge = _knee(e, smooth, k_lo, k_hi)
-        within = np.flatnonzero((e >= p_lo) & (smooth >= plateau - float(self.case.get("params.drop", 1.0))))
-        back_edge = float(e[within[-1]]) if len(within) else math.nan
         tol = self.case.get("tolerance")
         plt = _plt()
         fig, ax = plt.subplots(figsize=(5, 3.4))
-        ax.plot(e, log, lw=0.4, color="0.7", label="log10 dP/dE")
-        ax.plot(e, smooth, lw=1.2, label="smoothed")
+        ax.plot(e, log, lw=0.5, label="log10 dP/dE")
         for ref in (2, 10):
             ax.axvline(ref, color="k", ls="--", lw=0.8)
         for edge in (direct_edge, back_edge):
             ax.axvline(edge, color="r", ls=":", lw=1.2)
-        top = float(smooth[e < 14].max())
+        top = float(log[(e > 0.5) & (e < 14)].max())
         ax.set_xlim(0, 14)
         ax.set_ylim(top - 8, top + 0.5)
         ax.set_xlabel("photoelectron energy / Up")
@@ -723,20 +716,6 @@ class TunnellingYield(_ScanKind):
         ax.legend(fontsize=8)
         self.figure(fig, "yield")
         return rows
-
-
-def _knee(x, y, lo, hi):
-    """Break point of the least-squares continuous two-segment line fit to y(x) on [lo, hi]."""
-    sel = (x >= lo) & (x <= hi)
-    xs, ys = x[sel], y[sel]
-    best, where = math.inf, math.nan
-    for b in xs[2:-2]:
-        basis = np.column_stack([np.ones_like(xs), np.minimum(xs - b, 0), np.maximum(xs - b, 0)])
-        coef, *_ = np.linalg.lstsq(basis, ys, rcond=None)
-        cost = float(np.sum((basis @ coef - ys) ** 2))
-        if cost < best:
-            best, where = cost, float(b)
-    return where
 
 
 # ------------------------------------------------------------------------- driver
