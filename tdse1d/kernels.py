@@ -54,6 +54,12 @@ _FAST = {"contract", "arcp", "nsz", "reassoc"}
 _JIT = dict(cache=True, nogil=True, fastmath=_FAST, error_model="numpy")
 
 
+@njit(inline="always", **_JIT)
+def _cmul(ar, ai, br, bi):
+    """(ar + i ai)(br + i bi), as a (real, imaginary) pair."""
+    return ar * br - ai * bi, ar * bi + ai * br
+
+
 @njit(**_JIT)
 def kick(psi, phase, coarse, fine, block):
     """psi_j *= phase_j * coarse[j // B] * fine[j % B] (all float64 views)."""
@@ -63,15 +69,10 @@ def kick(psi, phase, coarse, fine, block):
         ci = coarse[2 * b + 1]
         o = 2 * b * block
         for m in range(block):
-            fr = fine[2 * m] * cr - fine[2 * m + 1] * ci
-            fi = fine[2 * m] * ci + fine[2 * m + 1] * cr
             j = o + 2 * m
-            qr = phase[j] * fr - phase[j + 1] * fi
-            qi = phase[j] * fi + phase[j + 1] * fr
-            vr = psi[j]
-            vi = psi[j + 1]
-            psi[j] = vr * qr - vi * qi
-            psi[j + 1] = vr * qi + vi * qr
+            fr, fi = _cmul(fine[2 * m], fine[2 * m + 1], cr, ci)
+            qr, qi = _cmul(phase[j], phase[j + 1], fr, fi)
+            psi[j], psi[j + 1] = _cmul(psi[j], psi[j + 1], qr, qi)
 
 
 @njit(**_JIT)
@@ -96,24 +97,17 @@ def kick_observe(psi, phase, coarse, fine, block, mask, x, grad, ref, ref_coarse
         for m in range(block):
             i = b * block + m
             j = o + 2 * m
-            fr = fine[2 * m] * cr - fine[2 * m + 1] * ci
-            fi = fine[2 * m] * ci + fine[2 * m + 1] * cr
-            qr = (phase[j] * fr - phase[j + 1] * fi) * mask[i]
-            qi = (phase[j] * fi + phase[j + 1] * fr) * mask[i]
-            vr = psi[j]
-            vi = psi[j + 1]
-            wr = vr * qr - vi * qi
-            wi = vr * qi + vi * qr
+            fr, fi = _cmul(fine[2 * m], fine[2 * m + 1], cr, ci)
+            qr, qi = _cmul(phase[j], phase[j + 1], fr, fi)
+            wr, wi = _cmul(psi[j], psi[j + 1], qr * mask[i], qi * mask[i])
             psi[j] = wr
             psi[j + 1] = wi
             d = wr * wr + wi * wi
             s0 += d
             s1 += d * x[i]
             s2 += d * grad[i]
-            gr = ref_fine[2 * m] * rcr - ref_fine[2 * m + 1] * rci
-            gi = ref_fine[2 * m] * rci + ref_fine[2 * m + 1] * rcr
-            rr = ref[j] * gr - ref[j + 1] * gi
-            ri = ref[j] * gi + ref[j + 1] * gr
+            gr, gi = _cmul(ref_fine[2 * m], ref_fine[2 * m + 1], rcr, rci)
+            rr, ri = _cmul(ref[j], ref[j + 1], gr, gi)
             ovr += rr * wr + ri * wi
             ovi += rr * wi - ri * wr
     return s0, s1, s2, ovr, ovi
@@ -133,15 +127,12 @@ def kinetic_moment(psi, phase, coarse, fine, block, k):
         for m in range(block):
             i = b * block + m
             j = o + 2 * m
-            fr = fine[2 * m] * cr - fine[2 * m + 1] * ci
-            fi = fine[2 * m] * ci + fine[2 * m + 1] * cr
-            qr = phase[j] * fr - phase[j + 1] * fi
-            qi = phase[j] * fi + phase[j + 1] * fr
+            fr, fi = _cmul(fine[2 * m], fine[2 * m + 1], cr, ci)
+            qr, qi = _cmul(phase[j], phase[j + 1], fr, fi)
             vr = psi[j]
             vi = psi[j + 1]
             d = vr * vr + vi * vi
             s0 += d
             s1 += d * k[i]
-            psi[j] = vr * qr - vi * qi
-            psi[j + 1] = vr * qi + vi * qr
+            psi[j], psi[j + 1] = _cmul(vr, vi, qr, qi)
     return s0, s1
