@@ -31,6 +31,8 @@ __all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
 
 #: provisional grid for a first look at the ground state before the real grid is known
 _PROVISIONAL = Grid(1024, 0.1)
+#: highest initial-state index accepted (states are found in a window of the grid)
+MAX_INITIAL_STATE = 30
 #: default field-free time after the pulses, in optical cycles of the first pulse
 AFTER_PULSE_CYCLES = 2.0
 #: field-free run length when there is no pulse at all (a.u.)
@@ -198,6 +200,13 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
             potential = potential.with_softening(fit_softening(_PROVISIONAL, potential, ip))
         except SofteningFitError as exc:
             raise InputError(str(exc), "atom.ionization_potential", config.source) from None
+    if max(atom.initial_state) >= MAX_INITIAL_STATE:
+        raise InputError(
+            f"state {max(atom.initial_state)} requested; the bound states are counted from 0 and at most "
+            f"{MAX_INITIAL_STATE} are looked for",
+            "atom.initial_state",
+            config.source,
+        )
     if initial == 0:
         ip = -ground_state_energy(_PROVISIONAL, potential)
     else:
