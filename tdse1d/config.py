@@ -125,6 +125,8 @@ def _check_range(value, spec: Spec, path: str):
     if not math.isfinite(value):
         raise InputError(f"must be finite, got {value!r}", path)
     if spec.minimum is not None:
+        if spec.minimum > 0 and value <= 0:
+            raise InputError(f"must be positive (at least {spec.minimum:g}), got {value!r}", path)
         if spec.strict and value <= spec.minimum:
             word = "positive" if spec.minimum == 0 else f"greater than {spec.minimum:g}"
             raise InputError(f"must be {word}, got {value!r}", path)
@@ -175,6 +177,8 @@ def _read_value(raw, spec: Spec, path: str):
         return raw
     if kind in ("int_list", "float_list"):
         items = raw if isinstance(raw, list) else [raw]
+        if not items:
+            raise InputError("must not be an empty list", path)
         item_spec = dataclasses.replace(spec, kind=kind.split("_")[0])
         return tuple(_read_value(v, item_spec, f"{path}[{i}]") for i, v in enumerate(items))
     raise AssertionError(f"unknown spec kind {kind}")  # pragma: no cover
@@ -248,15 +252,20 @@ def _window_names():
 
 
 _POSITIVE = dict(minimum=0.0)
+# Ranges of the model's parameters outside which no grid represents the model (the
+# numbers overflow or the core is far below any spacing); generous, not physical limits.
+_CHARGE = dict(minimum=0.0, maximum=100.0)
+_SOFTENING = dict(minimum=1e-3, strict=False, maximum=1e3)
+_POSITION = dict(minimum=-1e3, strict=False, maximum=1e3)
 
 
 @dataclass(frozen=True)
 class CentreConfig:
     """One soft-core centre of a molecular ion (``[[atom.centre]]``)."""
 
-    position: float = key(Spec("quantity", "length", doc="position of the centre (bohr)"), 0.0)
-    charge: float = key(Spec("float", **_POSITIVE, doc="nuclear charge Z (a.u.)"), 1.0)
-    softening: float | None = key(Spec("quantity", "length", **_POSITIVE, doc="softening a (bohr)"), None)
+    position: float = key(Spec("quantity", "length", **_POSITION, doc="position of the centre (bohr)"), 0.0)
+    charge: float = key(Spec("float", **_CHARGE, doc="nuclear charge Z (a.u.)"), 1.0)
+    softening: float | None = key(Spec("quantity", "length", **_SOFTENING, doc="softening a (bohr)"), None)
 
 
 @dataclass(frozen=True)
@@ -264,8 +273,8 @@ class AtomConfig:
     """The model atom or molecular ion (``[atom]``)."""
 
     model: str = key(Spec("choice", choices=_potential_names, doc="model potential"), "soft-core")
-    charge: float = key(Spec("float", **_POSITIVE, doc="nuclear charge Z (a.u.)"), 1.0)
-    softening: float | None = key(Spec("quantity", "length", **_POSITIVE, doc="softening a (bohr)"), None)
+    charge: float = key(Spec("float", **_CHARGE, doc="nuclear charge Z (a.u.)"), 1.0)
+    softening: float | None = key(Spec("quantity", "length", **_SOFTENING, doc="softening a (bohr)"), None)
     ionization_potential: float | None = key(
         Spec("quantity", "energy", **_POSITIVE, doc="ionization potential to fit (Hartree)"), None
     )
@@ -295,7 +304,9 @@ class GridConfig:
     """The spatial grid (``[grid]``); ``None`` means chosen from the estimates."""
 
     points: int | None = key(Spec("int", auto=True, minimum=16, strict=False, doc="number of points"), None)
-    spacing: float | None = key(Spec("quantity", "length", auto=True, **_POSITIVE, doc="spacing (bohr)"), None)
+    spacing: float | None = key(
+        Spec("quantity", "length", auto=True, minimum=1e-4, strict=False, maximum=100.0, doc="spacing (bohr)"), None
+    )
 
 
 @dataclass(frozen=True)
@@ -346,7 +357,9 @@ class LaserConfig:
 class PropagationConfig:
     """Time propagation (``[propagation]``)."""
 
-    time_step: float | None = key(Spec("quantity", "time", auto=True, **_POSITIVE, doc="time step"), None)
+    time_step: float | None = key(
+        Spec("quantity", "time", auto=True, minimum=1e-6, strict=False, doc="time step"), None
+    )
     gauge: str = key(Spec("choice", choices=("length", "velocity"), doc="gauge"), "length")
     order: int = key(Spec("choice", choices=(2, 4), doc="order of the splitting"), 2)
     after_pulse: float | None = key(

@@ -31,6 +31,8 @@ __all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
 
 #: provisional grid for a first look at the ground state before the real grid is known
 _PROVISIONAL = Grid(1024, 0.1)
+#: most time steps a run may take
+MAX_STEPS = 1e9
 #: highest initial-state index accepted (states are found in a window of the grid)
 MAX_INITIAL_STATE = 30
 #: default field-free time after the pulses, in optical cycles of the first pulse
@@ -279,7 +281,15 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         after = FIELD_FREE_DURATION
     start = field.start
     end = field.end + after
-    steps = max(1, int(math.ceil((end - start) / dt - 1e-9)))
+    n_steps = (end - start) / dt
+    if not n_steps <= MAX_STEPS:
+        raise InputError(
+            f"the run lasts {end - start:.4g} a.u., {n_steps:.3g} steps of {dt:.3g} a.u.: more than the {MAX_STEPS:.0e} "
+            "a run may take; check the pulse lengths, after_pulse and the time step",
+            "propagation.time_step",
+            config.source,
+        )
+    steps = max(1, int(math.ceil(n_steps - 1e-9)))
     for p in field.pulses:
         if isinstance(p, TabulatedPulse) and abs(p.area) > 1e-6 * max(p.peak_field, 1e-300) * (p.end - p.start):
             notes.append(
