@@ -70,10 +70,6 @@ class PulseEstimate:
     barrier_suppression_field: float
     barrier_suppression_intensity_W_cm2: float
 
-    @property
-    def peak_vector_potential(self) -> float:
-        return self.peak_field / self.photon_energy
-
 
 def pulse_estimate(omega: float, peak_field: float, ionization_potential: float, bsi_field: float) -> PulseEstimate:
     """Semiclassical numbers of a pulse of carrier ``omega`` and peak field ``peak_field``.

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import pickle
 
-import numpy as np
 import pyfftw
 
 __all__ = ["InPlaceFFT", "export_wisdom", "import_wisdom"]
@@ -60,9 +59,3 @@ def import_wisdom(blob: bytes) -> None:
     except Exception:  # stale or foreign wisdom is harmless to drop
         pass
 
-
-def _selftest():  # pragma: no cover - used by the benchmark
-    f = InPlaceFFT(16, "FFTW_ESTIMATE")
-    f.data[:] = np.arange(16)
-    f.forward()
-    return np.allclose(f.data, np.fft.fft(np.arange(16)))

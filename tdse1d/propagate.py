@@ -219,17 +219,16 @@ class Propagator:
         self._on_absorb = on_absorb
         self._mask_apply = self._mask ** self.absorb_every
         self._mask_none = np.ones(n)
+        # each absorbing layer as one contiguous slice, so that handing over what it
+        # removed works on views, without allocating in the time loop
         edge = np.flatnonzero(self._mask < 1)
-        self._edge_left = edge[edge < n // 2]
-        self._edge_right = edge[edge >= n // 2]
-        self._removed_left = np.zeros(n, complex)
-        self._removed_right = np.zeros(n, complex)
-        self._edge_gain = {}
-        for side, idx in (("left", self._edge_left), ("right", self._edge_right)):
-            m = self._mask_apply[idx]
-            self._edge_gain[side] = (1 - m) / m  # removed = kept * (1 - M) / M
-        self._edge_phase = {"left": np.zeros(len(self._edge_left), complex),
-                            "right": np.zeros(len(self._edge_right), complex)}
+        left, right = edge[edge < n // 2], edge[edge >= n // 2]
+        self._edges = []
+        for idx, buf in ((left, np.zeros(n, complex)), (right, np.zeros(n, complex))):
+            where = slice(int(idx.min()), int(idx.max()) + 1) if len(idx) else slice(0, 0)
+            m = self._mask_apply[where]
+            gain = (1 - m) / m  # removed = kept * (1 - M) / M
+            self._edges.append((where, gain, buf, np.zeros(len(gain), complex)))
         self._reference = np.ascontiguousarray(
             np.zeros(n, complex) if reference is None else np.asarray(reference, dtype=complex)
         )
@@ -398,19 +397,14 @@ class Propagator:
 
     def _hand_over_removed(self, n):
         a = float(self.observables.vector_potential[n])
-        out = []
-        for side, idx, buf in (("left", self._edge_left, self._removed_left),
-                               ("right", self._edge_right, self._removed_right)):
-            buf[idx] = self.psi[idx]
-            buf[idx] *= self._edge_gain[side]
+        for where, gain, buf, phase in self._edges:
+            part = buf[where]
+            np.multiply(self.psi[where], gain, out=part)
             if self.gauge == "length" and a != 0.0:
-                phase = self._edge_phase[side]
-                phase[:] = self._x[idx]
-                phase *= -1j * a
+                np.multiply(self._x[where], -1j * a, out=phase)
                 np.exp(phase, out=phase)
-                buf[idx] *= phase
-            out.append(buf)
-        self._on_absorb(n, out[0], out[1])
+                part *= phase
+        self._on_absorb(n, self._edges[0][2], self._edges[1][2])
 
     def _record_momentum(self, n):
         """<p>(t_n) from <k> after the first potential kick of step n: that kick changes
