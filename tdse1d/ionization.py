@@ -135,9 +135,15 @@ def _rydberg_tail(energies, populations, parity, top_energies, charge):
         if mine.size == 0:
             continue
         nu = charge / np.sqrt(-2.0 * energies[mine])
-        density = populations[mine] * nu**3 / charge**2
         nu_top = charge / np.sqrt(-2.0 * top_energies[sign])
-        tail = charge**2 * zeta(3.0, nu_top + 1.0)
+        if sign != 0:
+            density = populations[mine] * nu**3 / charge**2
+            tail = charge**2 * zeta(3.0, nu_top + 1.0)
+        else:
+            # no parity (an asymmetric potential): both series at once, two levels per
+            # unit of nu, p = D Z^2 / (2 nu^3), and sum_k (nu_top + k/2)^-3 = 8 zeta(3, 2 nu_top + 1)
+            density = 2.0 * populations[mine] * nu**3 / charge**2
+            tail = 0.5 * charge**2 * 8.0 * zeta(3.0, 2.0 * nu_top + 1.0)
         total += tail * np.array([density.mean(), density.min(), density.max()])
     return total
 

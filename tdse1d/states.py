@@ -49,7 +49,7 @@ __all__ = [
     "SofteningFitError",
 ]
 
-#: half-width (bohr) of the window in which states are looked for
+#: half-width (bohr) of the window in which a given number of lowest states is looked for
 STATE_WINDOW = 150.0
 #: half-width (bohr) of the window used while fitting a softening (ground state only)
 FIT_WINDOW = 25.0
