@@ -121,3 +121,24 @@ def test_tail_of_a_pure_rydberg_distribution():
     # the band of an exact series is its value (no spread of D, no loss)
     assert est.lower == pytest.approx(est.probability, abs=1e-12)
     assert est.upper == pytest.approx(est.probability, abs=1e-12)
+
+
+def test_report_footnote_says_what_the_box_cannot_hold(tmp_path):
+    # the report's footnote names the unheld population and flags a run that is not
+    # converged; a file without the pieces gets a plain note instead of a KeyError
+    import h5py
+
+    from tdse1d.commands.report import ionization_note
+
+    with h5py.File(tmp_path / "r.h5", "w") as f:
+        g = f.create_group("ionization")
+        g["probability"] = 0.16
+        g["probability_band"] = [0.10, 0.165]
+        g["bound_unheld"], g["bound_edge"], g["bound_beyond"] = 0.0113, 0.0104, 0.0009
+        g.attrs.update(states_found=17, states_held=8, states_complete=True, converged=False)
+        note = ionization_note(g)
+        assert "1.13e-02" in note and "cannot hold" in note and "17 bound states" in note
+        assert "NOT CONVERGED" in note
+        g.attrs["converged"] = True
+        assert "NOT CONVERGED" not in ionization_note(g)
+        assert "cannot hold" not in ionization_note(f.create_group("old"))
