@@ -33,7 +33,7 @@ __all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
 _PROVISIONAL = Grid(1024, 0.1)
 #: most time steps a run may take
 MAX_STEPS = 1e9
-#: highest initial-state index accepted (states are found in a window of the grid)
+#: highest initial-state index accepted
 MAX_INITIAL_STATE = 30
 #: default field-free time after the pulses, in optical cycles of the first pulse
 AFTER_PULSE_CYCLES = 2.0

@@ -30,6 +30,7 @@ from . import spectra
 from .absorb import ABSORBERS
 from .propagate import Observables, Propagator, scheme_for_order
 from .problem import Problem
+from .ionization import ionization as _ionization
 from .states import initial_wavefunction
 
 __all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps"]
@@ -54,7 +55,9 @@ class RunResult:
     final_state : ndarray of complex
         Length-gauge wavefunction at the end.
     ionization_probability : float
-        1 - sum of the final bound populations.
+        1 - population of all bound states (:mod:`tdse1d.ionization`).
+    ionization : tdse1d.ionization.IonizationEstimate
+        Its pieces and uncertainty band.
     absorbed : float
         Norm removed by the absorber, 1 - final norm.
     harmonic : spectra.HarmonicSpectrum
@@ -69,6 +72,7 @@ class RunResult:
     bound_population: np.ndarray
     final_state: np.ndarray
     ionization_probability: float
+    ionization: object
     absorbed: float
     harmonic: spectra.HarmonicSpectrum
     cutoff: object
@@ -179,6 +183,19 @@ def _populations(states, psi_length, dx):
     amp_re = states.wavefunctions @ psi_length.real
     amp_im = states.wavefunctions @ psi_length.imag
     return (amp_re**2 + amp_im**2) * dx**2
+
+
+def ionization_estimate(problem: Problem, population_time, bound_population):
+    """:func:`tdse1d.ionization.ionization` for a run of ``problem`` (see there)."""
+    states = problem.states
+    if problem.field.pulses:
+        field_start, field_end = problem.field.start, problem.field.end
+    else:
+        field_start = field_end = float(population_time[0])
+    return _ionization(states.energies, states.wavefunctions, problem.grid,
+                       problem.absorber_width if problem.config.absorber.type != "none" else 0.0,
+                       population_time, bound_population, field_start, field_end, complete=states.complete,
+                       charge=float(getattr(problem.potential, "total_charge", 0.0)))
 
 
 def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASURE", control=None,
@@ -302,8 +319,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
 
     final = prop.length_gauge_state()
     obs = prop.observables
-    final_bound = _populations(problem.states, final, grid.spacing)
-    ionization = float(1.0 - final_bound.sum())
+    ion = ionization_estimate(problem, times[pops], bound)
     absorbed = float(obs.norm[0] - obs.norm[-1])
 
     omega0 = problem.field.omega if problem.field.pulses else 1.0
@@ -326,7 +342,8 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         population_time=times[pops],
         bound_population=bound,
         final_state=final,
-        ionization_probability=ionization,
+        ionization_probability=ion.probability,
+        ionization=ion,
         absorbed=absorbed,
         harmonic=harmonic,
         cutoff=cutoff,

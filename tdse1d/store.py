@@ -152,7 +152,27 @@ class ResultWriter:
             write_dataset(g, "energy_density_left", spec.energy_density_left, "1/hartree")
             write_dataset(g, "energy_density_right", spec.energy_density_right, "1/hartree")
         ion = f.create_group("ionization")
-        write_dataset(ion, "probability", result.ionization_probability, "1", description="1 - final bound population")
+        write_dataset(ion, "probability", result.ionization_probability, "1",
+                      description="1 - population of all bound states (held + edge + beyond), docs/analysis.md")
+        est = getattr(result, "ionization", None)
+        if est is not None:
+            write_dataset(ion, "probability_band", np.array([est.lower, est.upper]), "1",
+                          description="lower and upper ends of the band covering the estimate's error")
+            write_dataset(ion, "bound_held", est.held, "1", description="population of the bound states the box holds")
+            write_dataset(ion, "bound_edge", est.edge, "1",
+                          description="population of the grid's E < 0 states reaching into the absorber")
+            write_dataset(ion, "bound_beyond", est.beyond, "1",
+                          description="estimated population of Rydberg states above the grid's highest level")
+            write_dataset(ion, "bound_unheld", est.unheld, "1",
+                          description="bound_edge + bound_beyond: population in bound states the box cannot hold")
+            write_dataset(ion, "time", est.time, "atomic_unit_of_time",
+                          description="when the populations were read: first record at or after the field's end")
+            ion.attrs["states_found"] = est.states_found
+            ion.attrs["states_held"] = est.states_held
+            ion.attrs["states_complete"] = est.complete
+            ion.attrs["top_held_energy"] = est.top_held_energy
+            ion.attrs["edge_loss_rate"] = est.edge_loss_rate
+            ion.attrs["converged"] = est.converged
         write_dataset(ion, "absorbed", result.absorbed, "1", description="norm removed by the absorber")
         final = f.create_group("final")
         write_dataset(final, "psi", result.final_state, "bohr^-1/2", gauge="length")

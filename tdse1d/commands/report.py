@@ -48,11 +48,12 @@ class Row:
         return self.quantum / self.prediction if self.prediction != 0 else math.nan
 
 
-def rows(a: RunAnalysis, target_ip: float = math.nan) -> list[Row]:
+def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "") -> list[Row]:
     """The table of a run's analysis.
 
     ``target_ip`` is the ionization potential the input asked for (the softening is
-    fitted to it), NaN when the input gives the potential directly.
+    fitted to it), NaN when the input gives the potential directly. ``ionization_note``
+    (from :func:`ionization_note`) is the quantum ionization probability's footnote.
     """
     nan = math.nan
     up, ip = a.ponderomotive_energy, a.ionization_potential
@@ -75,7 +76,8 @@ def rows(a: RunAnalysis, target_ip: float = math.nan) -> list[Row]:
     out.append(Row("ionization probability", "quasi-static WKB tunnelling", a.tunnelling_yield,
                    a.ionization_probability, "probability",
                    note=f"Keldysh parameter {a.keldysh_parameter:.3g}; peak field / barrier-suppression field "
-                        f"{a.peak_field / a.barrier_suppression_field:.3g}"))
+                        f"{a.peak_field / a.barrier_suppression_field:.3g}"
+                        + (f". {ionization_note}" if ionization_note else "")))
     if a.streaking is None and math.isfinite(up):
         e = a.edges
         out += [
@@ -158,7 +160,36 @@ def _format_comparison(row: Row) -> str:
     return f"{c:+.4g}"
 
 
-def to_json(a: RunAnalysis, target_ip: float = math.nan) -> dict:
+def ionization_note(group) -> str:
+    """Footnote of the quantum ionization probability, from a result's ``/ionization`` group.
+
+    Parameters
+    ----------
+    group : h5py.Group
+        ``/ionization`` of a result file.
+
+    Returns
+    -------
+    str
+        Empty for a file without the pieces (written before they existed).
+    """
+    if "probability_band" not in group:
+        return "quantum: 1 - population of the bound states stored with the run"
+    lower, upper = (float(v) for v in group["probability_band"][()])
+    attrs = group.attrs
+    found, held = int(attrs.get("states_found", 0)), int(attrs.get("states_held", 0))
+    text = (f"quantum: 1 - population of all bound states (docs/analysis.md), band {lower:.4f} to {upper:.4f}; "
+            f"a population of {float(group['bound_unheld'][()]):.2e} sits in bound states the box cannot hold "
+            f"({float(group['bound_edge'][()]):.2e} measured in the {found - held} grid states reaching the absorber, "
+            f"{float(group['bound_beyond'][()]):.2e} estimated above the grid's highest level); "
+            f"{found} bound states found on the grid" + ("" if attrs.get("states_complete", True) else
+                                                          " (not all converged: the count may be incomplete)"))
+    if not attrs.get("converged", True):
+        text += "; NOT CONVERGED in the box: the band is wider than +-2 %, use a larger box"
+    return text
+
+
+def to_json(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "") -> dict:
     """The table as JSON-ready data (energies in a.u. and eV, photons also as orders)."""
     def clean(x):
         return None if isinstance(x, float) and not math.isfinite(x) else x
@@ -175,21 +206,21 @@ def to_json(a: RunAnalysis, target_ip: float = math.nan) -> dict:
                 r.compare: clean(r.comparison),
                 "note": r.note,
             }
-            for r in rows(a, target_ip)
+            for r in rows(a, target_ip, ionization_note)
         ],
         "notes": list(a.notes),
     }
 
 
-def format_table(a: RunAnalysis, target_ip: float = math.nan) -> str:
+def format_table(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "") -> str:
     """The table as plain text for people."""
     head = ("quantity", "semiclassical prediction", "prediction", "quantum result", "ratio/diff")
     body = [(r.quantity, r.prediction_label, _format(r, r.prediction, a.omega0), _format(r, r.quantum, a.omega0),
-             _format_comparison(r)) for r in rows(a, target_ip)]
+             _format_comparison(r)) for r in rows(a, target_ip, ionization_note)]
     widths = [max(len(x[i]) for x in [head, *body]) for i in range(len(head))]
     lines = ["  ".join(h.ljust(w) for h, w in zip(head, widths)), "  ".join("-" * w for w in widths)]
     notes = []
-    for r, cells in zip(rows(a, target_ip), body):
+    for r, cells in zip(rows(a, target_ip, ionization_note), body):
         lines.append("  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip())
         if r.note and r.note not in notes:
             notes.append(r.note)
@@ -224,8 +255,9 @@ def main(args):
             raise CommandError(f"{args.result} is a {kind!r} file; report reads run results")
         analysis = analyse_file(f)
         target = _target_ip(f.attrs.get("input", ""))
+        note = ionization_note(f["ionization"]) if "ionization" in f else ""
     if args.json:
-        print(json.dumps(to_json(analysis, target), indent=1))
+        print(json.dumps(to_json(analysis, target, note), indent=1))
     else:
-        print(format_table(analysis, target))
+        print(format_table(analysis, target, note))
     return 0

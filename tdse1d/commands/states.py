@@ -11,7 +11,7 @@ HELP = "bound states of the input's model atom on the run's own grid"
 
 def add_arguments(parser):
     add_input_arguments(parser)
-    parser.add_argument("--count", type=int, default=None, help="number of states (default: all bound, up to 30)")
+    parser.add_argument("--count", type=int, default=None, help="number of states (default: every state with E < 0 on the grid)")
     parser.add_argument("--json", action="store_true", help='print {"softening": a, "energies": [...]} in a.u.')
 
 
