@@ -48,7 +48,17 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import classical
-from .spectra import default_gabor_width, gabor_transform, running_mean
+from .spectra import (
+    NOISE_MARGIN,
+    CutoffEstimate,
+    default_gabor_width,
+    gabor_transform,
+    harmonic_spectrum,
+    noise_floor,
+    read_cutoff,
+    running_mean,
+    unresolved_reason,
+)
 from .store import write_dataset
 
 __all__ = [
@@ -89,8 +99,6 @@ PHOTOELECTRON_METHOD_ORDER = ("mask", "plane_wave")
 #: the plateau level at the backscattered edge (see photoelectron_edges)
 DIRECT_RISE = 0.5
 BACKSCATTER_DROP = 1.5
-#: decades above the noise floor that count as signal
-NOISE_MARGIN = 1.0
 
 #: minimum contrast of the ATI comb (first Fourier coefficient of dP/dE at period
 #: hbar*w over the direct region, relative to the mean) for its offset to count
@@ -175,6 +183,11 @@ class PhotoelectronEdges:
         Largest smoothed log10 dP/dE (the direct peak).
     smoothed_log10 : ndarray
         The smoothed log10 dP/dE on the input energy axis (for plotting).
+    noise_floor_log10 : float
+        Noise floor of the spectrum, log10 dP/dE (:func:`tdse1d.spectra.noise_floor`).
+    direct_reason, backscattered_reason : str
+        Empty for an edge read; otherwise why the edge is NaN, e.g.
+        ``"unresolved (within 0.4 decades of the noise floor)"``.
     """
 
     direct: float
@@ -182,6 +195,9 @@ class PhotoelectronEdges:
     plateau_log10: float
     peak_log10: float
     smoothed_log10: np.ndarray
+    noise_floor_log10: float = math.nan
+    direct_reason: str = ""
+    backscattered_reason: str = ""
 
 
 @dataclass(frozen=True)
@@ -195,7 +211,7 @@ class PonderomotiveShift:
         Why the shift is or is not measurable.
     measured : float
         ``(n hbar w - Ip - E_n) mod hbar w`` from the comb offset (hartree), NaN if not
-        measurable.
+        measurable (also when the comb lies within the noise margin of the floor).
     predicted : float
         Up of the peak field (hartree).
     """
@@ -226,6 +242,9 @@ class StreakingShift:
     photoelectric_energy : float
         ``(peak_left + peak_right)^2 / 8``, the peak energy without the streaking
         shift; Einstein's relation predicts ``hbar w_X - Ip``.
+    reason : str
+        Empty when the peaks stand clear of the noise floor; otherwise why
+        ``measured`` and ``photoelectric_energy`` are NaN.
     """
 
     xuv_time: float
@@ -236,6 +255,7 @@ class StreakingShift:
     peak_left: float
     measured: float
     photoelectric_energy: float
+    reason: str = ""
 
     @property
     def predicted(self):
@@ -269,6 +289,10 @@ class RunAnalysis:
     ponderomotive: PonderomotiveShift | None
     streaking: StreakingShift | None
     notes: tuple = field(default_factory=tuple)
+    #: the harmonic cutoff reading (NaN frequency and a reason when unresolved)
+    cutoff: CutoffEstimate | None = None
+    #: log10 of the harmonic spectrum's noise floor on its frequency axis (a.u.)
+    harmonic_floor_log10: np.ndarray | None = None
 
     @property
     def tunnelling_yield(self) -> float:
@@ -407,9 +431,9 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
        (one ATI spacing, which levels the comb of ATI peaks), values more than
        ``floor_decades`` below the maximum raised to that floor. Only ``E >= hbar w /
        2`` is used (dP/dE diverges as 1/p at p = 0). The largest S is the direct peak.
-    2. Noise floor ``N`` = median of S over the upper half of the energy axis (far
-       above any classical edge on a grid that resolves the pulse's momenta); the
-       search region runs from the peak to the last energy with ``S >= N +
+    2. Noise floor ``N`` = median of log10 dP/dE over the upper half of the energy
+       axis (:func:`tdse1d.spectra.noise_floor`; far above any classical edge on a
+       grid that resolves the pulse's momenta); the search region runs from the peak to the last energy with ``S >= N +
        noise_margin``, and at most to ``max_energy``. The analysis of a run passes
        twice the classical backscattered cutoff: beyond it a 1-D spectrum holds only
        a slowly falling quantum tail, which would otherwise pass for a plateau.
@@ -423,6 +447,10 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
        ``rise`` decades below the direct level (median of S between the peak and
        ``E_1``): the knee where the direct electrons' distribution starts its steep
        fall to the plateau.
+    5. Noise: an edge counts only if its reading level (``P - drop`` for the
+       backscattered edge, the direct level minus ``rise`` for the direct one)
+       stands at least ``noise_margin`` decades above ``N``; otherwise it is NaN and
+       its reason says "unresolved (within X decades of the noise floor)".
 
     Classically direct electrons end below ``2 Up`` and backscattered ones below
     ``10 Up`` (Paulus et al., J. Phys. B 27, L703 (1994), from memory). The rule does
@@ -437,7 +465,8 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     photon_energy : float
         ``hbar w`` of the driving field (hartree).
     rise, drop, noise_margin : float
-        Decades (see above).
+        Decades (see above); ``noise_margin`` defaults to
+        :data:`tdse1d.spectra.NOISE_MARGIN`.
     max_energy : float, optional
         End of the search region (hartree); default the end of the axis.
 
@@ -462,10 +491,14 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     smoothed[usable] = s
     start = int(np.argmax(s))
     peak = float(s[start])
-    noise = float(np.median(s[ee >= 0.5 * ee[-1]]))
+    noise = float(noise_floor(ee, dd)[0])
     inside = ee <= (np.inf if max_energy is None else float(max_energy))
     signal = np.flatnonzero((s >= noise + noise_margin) & inside)
-    failed = PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed)
+    if peak - noise < noise_margin:
+        why = unresolved_reason(peak - noise)
+        return PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, noise, why, why)
+    no_plateau = f"unresolved (no plateau {noise_margin:g} decade above the noise floor)"
+    failed = PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, noise, no_plateau, no_plateau)
     if signal.size == 0 or signal[-1] <= start + 2:
         return failed
     tail = s[start : signal[-1] + 1]
@@ -487,11 +520,17 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     fallen = np.flatnonzero(tail[: i_1 + 1] <= direct_level - rise)
     # a direct part that never stands out from the plateau ends where the plateau starts
     i_d = int(fallen[0]) if fallen.size else i_1
-    return PhotoelectronEdges(float(ee[start + i_d]), float(ee[start + i_b]), level, peak, smoothed)
+    direct, back = float(ee[start + i_d]), float(ee[start + i_b])
+    direct_why = back_why = ""
+    if direct_level - rise - noise < noise_margin:
+        direct, direct_why = math.nan, unresolved_reason(direct_level - rise - noise)
+    if level - drop - noise < noise_margin:
+        back, back_why = math.nan, unresolved_reason(level - drop - noise)
+    return PhotoelectronEdges(direct, back, level, peak, smoothed, noise, direct_why, back_why)
 
 
 def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potential, up, *,
-                        upper=None):
+                        upper=None, noise_margin=NOISE_MARGIN):
     """Ponderomotive shift from the offset of the ATI comb, where it is measurable.
 
     ATI peaks lie at ``E_n = n hbar w - Ip - Up`` (common practice; the shift of the
@@ -499,7 +538,9 @@ def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potent
     The offset is the phase of the first Fourier coefficient of dP/dE at period
     ``hbar w`` over ``[hbar w / 2, upper]`` (default ``2 Up``, at least ``4 hbar w``).
     The shift counts as measurable only if ``Up < hbar w`` (otherwise the comb fixes it
-    only modulo hbar w) and the comb contrast exceeds :data:`ATI_CONTRAST`.
+    only modulo hbar w), the comb contrast exceeds :data:`ATI_CONTRAST`, and the
+    median of log10 dP/dE over the range stands ``noise_margin`` decades above the
+    spectrum's noise floor (:func:`tdse1d.spectra.noise_floor`).
 
     Parameters
     ----------
@@ -525,6 +566,12 @@ def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potent
     if chosen.sum() < 16:
         return PonderomotiveShift(False, "too few spectrum samples below the direct edge", math.nan, up)
     ee, dd = e[chosen], d[chosen]
+    positive = np.isfinite(d) & (d > 0) & (e > 0)
+    if positive.sum() >= 8 and np.any(dd > 0):
+        floor = float(noise_floor(e[positive], d[positive])[0])
+        headroom = float(np.median(np.log10(np.maximum(dd, 1e-300)))) - floor
+        if headroom < noise_margin:
+            return PonderomotiveShift(False, f"ATI comb {unresolved_reason(headroom)}", math.nan, up)
     weights = np.gradient(ee)
     mean = np.sum(dd * weights)
     coefficient = np.sum(dd * weights * np.exp(-2j * np.pi * ee / photon_energy))
@@ -568,7 +615,7 @@ def peak_centroid(momentum, density, *, level=0.5):
 
 
 def streaking_shift(momentum, density_left, density_right, xuv_time, xuv_photon_energy,
-                    ionization_potential, ir_vector_potential):
+                    ionization_potential, ir_vector_potential, *, noise_margin=NOISE_MARGIN):
     """Streaking shift of the XUV photoelectron peak and its classical prediction.
 
     An electron released at ``t_X`` with momentum ``+-p0``, ``p0 = sqrt(2 (hbar w_X -
@@ -587,6 +634,10 @@ def streaking_shift(momentum, density_left, density_right, xuv_time, xuv_photon_
         Centre of the XUV pulse (a.u.), its photon energy and Ip (hartree).
     ir_vector_potential : float
         ``A_IR(t_X)`` of the other pulses (a.u.).
+    noise_margin : float
+        Decades by which the lower of the two peaks must stand above the noise floor
+        of the momentum density (:func:`tdse1d.spectra.noise_floor`); otherwise the
+        shift is NaN and ``reason`` says why.
 
     Returns
     -------
@@ -598,10 +649,21 @@ def streaking_shift(momentum, density_left, density_right, xuv_time, xuv_photon_
     p0 = math.sqrt(2 * excess)
     right = peak_centroid(momentum, density_right)
     left = peak_centroid(momentum, density_left)
+    p = np.asarray(momentum, dtype=float)
+    both = np.nan_to_num(np.asarray(density_left, float)) + np.nan_to_num(np.asarray(density_right, float))
+    positive = (p > 0) & (both > 0)
+    reason = ""
+    if positive.sum() >= 8:
+        floor = float(noise_floor(p[positive], both[positive])[0])
+        lower = min(np.nanmax(density_left), np.nanmax(density_right))
+        headroom = math.log10(lower) - floor if lower > 0 else -math.inf
+        if headroom < noise_margin:
+            reason = unresolved_reason(headroom)
+            right = left = math.nan
     return StreakingShift(
         xuv_time=float(xuv_time), xuv_photon_energy=float(xuv_photon_energy), initial_momentum=p0,
         vector_potential=float(ir_vector_potential), peak_right=right, peak_left=left,
-        measured=0.5 * (left - right), photoelectric_energy=0.125 * (left + right) ** 2,
+        measured=0.5 * (left - right), photoelectric_energy=0.125 * (left + right) ** 2, reason=reason,
     )
 
 
@@ -619,7 +681,9 @@ class _Inputs:
     energies: np.ndarray
     initial_state: int
     ionization_probability: float
-    harmonic_cutoff: float
+    harmonic_frequency: np.ndarray
+    harmonic_power: np.ndarray
+    window: str
     pulses: tuple  # (omega, peak_field, centre time, A(t) callable) per pulse
     photoelectrons: dict  # method -> (momentum, left, right, energy, energy density)
     estimate: dict  # first pulse's PulseEstimate as a dict
@@ -667,10 +731,23 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         except ValueError as exc:
             notes.append(f"tunnelling estimate not evaluated: {exc}")
 
+    cutoff, floor_log10 = None, None
+    if have_field and omega0 > 0 and inputs.harmonic_power.size:
+        # the rule of the run (runner): the field's spectrum through the same window is
+        # the companion floor of the acceleration spectrum
+        leakage = harmonic_spectrum(inputs.time, inputs.electric, omega0, window=inputs.window).power
+        try:
+            cutoff = read_cutoff(inputs.harmonic_frequency, inputs.harmonic_power, omega0, ip, noise=leakage)
+            floor_log10 = noise_floor(inputs.harmonic_frequency, inputs.harmonic_power, companion=leakage,
+                                      half_width=omega0)
+        except ValueError as exc:
+            notes.append(f"harmonic cutoff not read: {exc}")
+    harmonic_cutoff = cutoff.frequency if cutoff is not None else math.nan
+
     tf = emission = None
     if have_field and omega0 > 0:
         predicted = three.cutoff_energy if three is not None else float(est.get("cutoff_energy", ip))
-        read = inputs.harmonic_cutoff if math.isfinite(inputs.harmonic_cutoff) else 0.0
+        read = harmonic_cutoff if math.isfinite(harmonic_cutoff) else 0.0
         try:
             tf = time_frequency_map(inputs.time, inputs.acceleration, omega0, TF_TOP * max(predicted, read))
             if quasi_static and three is not None and three.short_branch:
@@ -707,7 +784,7 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         tunnelling_time=t_tun,
         tunnelling_probability=p_tun,
         ionization_probability=float(inputs.ionization_probability),
-        harmonic_cutoff=float(inputs.harmonic_cutoff),
+        harmonic_cutoff=float(harmonic_cutoff),
         time_frequency=tf,
         emission=emission,
         photoelectron_method=method,
@@ -715,6 +792,8 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         ponderomotive=pond,
         streaking=streak,
         notes=tuple(notes),
+        cutoff=cutoff,
+        harmonic_floor_log10=floor_log10,
     )
 
 
@@ -750,7 +829,8 @@ def analyse_run(problem, result) -> RunAnalysis:
         vector_potential=np.asarray(obs.vector_potential), acceleration=np.asarray(obs.acceleration),
         energies=np.asarray(problem.states.energies), initial_state=min(problem.config.atom.initial_state),
         ionization_probability=result.ionization_probability,
-        harmonic_cutoff=result.cutoff.frequency if result.cutoff is not None else math.nan,
+        harmonic_frequency=np.asarray(result.harmonic.frequency), harmonic_power=np.asarray(result.harmonic.power),
+        window=problem.config.spectra.window,
         pulses=_pulse_rows(problem.field), photoelectrons=photo,
         estimate=as_attributes(problem.pulse_estimates[0]) if problem.pulse_estimates else {},
         potential=problem.potential,
@@ -797,12 +877,15 @@ def analyse_file(h5file) -> RunAnalysis:
             g = f[key]
             photo[name] = (g["momentum"][()], g["density_left"][()], g["density_right"][()], g["energy"][()],
                            g["energy_density_left"][()] + g["energy_density_right"][()])
-    harmonic = f["spectra/harmonic"].attrs.get("cutoff_frequency", math.nan) if "spectra/harmonic" in f else math.nan
+    h = f["spectra/harmonic"] if "spectra/harmonic" in f else None
     analysis = _analyse(_Inputs(
         time=f["field/time"][()], electric=f["field/electric"][()],
         vector_potential=f["field/vector_potential"][()], acceleration=f["observables/acceleration"][()],
         energies=f["states/energy"][()], initial_state=initial,
-        ionization_probability=float(f["ionization/probability"][()]), harmonic_cutoff=float(harmonic),
+        ionization_probability=float(f["ionization/probability"][()]),
+        harmonic_frequency=h["frequency"][()] if h is not None else np.zeros(0),
+        harmonic_power=h["power"][()] if h is not None else np.zeros(0),
+        window=str(h.attrs.get("window", "hann")) if h is not None else "hann",
         pulses=pulses, photoelectrons=photo,
         estimate={k: float(v) for k, v in f["estimates"].attrs.items() if k != "units"},
     ))
@@ -867,6 +950,15 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
         g = c.create_group("tunnelling")
         write_dataset(g, "time", analysis.tunnelling_time, "atomic_unit_of_time")
         write_dataset(g, "probability", analysis.tunnelling_probability, "1")
+    cut = analysis.cutoff
+    if cut is not None and analysis.harmonic_floor_log10 is not None:
+        h = f.require_group("spectra/harmonic")
+        write_dataset(h, "noise_floor_log10", analysis.harmonic_floor_log10, "log10(atomic_units)",
+                      description="log10 of the noise floor of power: the larger of the median of the top half "
+                                  "of the axis and the field's own spectrum through the same window")
+        write_dataset(h, "cutoff_headroom", cut.headroom, "decades",
+                      description="reading level (plateau - drop) above the noise floor at the cutoff",
+                      resolved=bool(cut.resolved), reason=cut.reason)
     tf = analysis.time_frequency
     if tf is not None:
         g = f.create_group("spectra/time_frequency")
@@ -888,10 +980,15 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
         g = f.create_group("spectra/photoelectron/edges")
         g.attrs["method"] = analysis.photoelectron_method or ""
         if analysis.edges is not None:
-            write_dataset(g, "direct", analysis.edges.direct, "hartree", description="direct-electron edge read off")
-            write_dataset(g, "backscattered", analysis.edges.backscattered, "hartree",
-                 description="backscattered-electron edge read off")
-            write_dataset(g, "plateau_log10", analysis.edges.plateau_log10, "log10(1/hartree)")
+            ed = analysis.edges
+            write_dataset(g, "direct", ed.direct, "hartree", description="direct-electron edge read off (NaN: see reason)",
+                          reason=ed.direct_reason)
+            write_dataset(g, "backscattered", ed.backscattered, "hartree",
+                          description="backscattered-electron edge read off (NaN: see reason)",
+                          reason=ed.backscattered_reason)
+            write_dataset(g, "plateau_log10", ed.plateau_log10, "log10(1/hartree)")
+            write_dataset(g, "noise_floor_log10", ed.noise_floor_log10, "log10(1/hartree)",
+                          description="noise floor of dP/dE: median of log10 over the top half of the energy axis")
         pond = analysis.ponderomotive
         if pond is not None:
             write_dataset(g, "ponderomotive_shift", pond.measured, "hartree", measurable=pond.measurable, reason=pond.reason)
@@ -905,3 +1002,4 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
              description="peak energy without the streaking shift")
         for name in ("initial_momentum", "vector_potential", "peak_right", "peak_left", "measured"):
             write_dataset(g, name, getattr(st, name), "atomic_unit_of_momentum")
+        g.attrs["reason"] = st.reason
