@@ -70,6 +70,8 @@ __all__ = [
     "RunAnalysis",
     "time_frequency_map",
     "emission_times",
+    "BranchAgreement",
+    "branch_agreement",
     "photoelectron_edges",
     "ponderomotive_shift",
     "peak_centroid",
@@ -408,6 +410,91 @@ def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
             rows["long"].append(t_long)
     arrays = {k: np.asarray(v, dtype=int if k == "half_cycle" else float) for k, v in rows.items()}
     return EmissionTimes(period=float(period), **arrays)
+
+
+@dataclass(frozen=True)
+class BranchAgreement:
+    """How far the quantum emission times beat chance on one classical branch.
+
+    Attributes
+    ----------
+    branch : str
+        ``"short"`` or ``"long"``.
+    hits, samples : int
+        Independent samples (thinned to one per frequency resolution of the map) and
+        how many lie within ``band`` of the branch.
+    chance : float
+        Mean probability of a hit for a time drawn uniformly over each sample's search
+        window (what a map without emission scores).
+    p_value : float
+        Binomial probability of at least ``hits`` hits by chance.
+    band : float
+        Half width of the band around the branch (optical cycles).
+    """
+
+    branch: str
+    hits: int
+    samples: int
+    chance: float
+    p_value: float
+    band: float
+
+    @property
+    def fraction(self) -> float:
+        return self.hits / self.samples if self.samples else math.nan
+
+
+def branch_agreement(emission, branch, *, band=0.1, frequency_resolution=None) -> BranchAgreement:
+    """Binomial test of the quantum emission times against one classical branch.
+
+    A sample is a hit when ``|t_quantum - t_branch| <= band`` cycles. A map holding no
+    emission (noise, or the real map with its time rows shuffled) puts the maximum
+    anywhere in the search window of :func:`emission_times` (the two branch times
+    widened by an eighth of a cycle on each side), so it hits with probability
+    ``chance`` = (length of the band inside the window) / (window length). Neighbouring
+    photon energies are not independent: the Gabor window of width sigma resolves
+    energies only ``1 / sigma`` apart, so the samples are thinned to one per
+    ``frequency_resolution`` in each half cycle before the binomial tail is taken.
+
+    Parameters
+    ----------
+    emission : EmissionTimes
+    branch : {"short", "long"}
+    band : float
+        Half width of the band (optical cycles); default 0.1, the Gabor window's time
+        resolution sigma = T / 10 (:func:`tdse1d.spectra.default_gabor_width`).
+    frequency_resolution : float, optional
+        Energy spacing of independent samples (hartree); default one sample per row.
+
+    Returns
+    -------
+    BranchAgreement
+    """
+    from scipy.stats import binom
+
+    if branch not in ("short", "long"):
+        raise ValueError(f"branch must be 'short' or 'long', got {branch!r}")
+    em = emission
+    keep = np.zeros(em.frequency.size, dtype=bool)
+    for half in np.unique(em.half_cycle):
+        rows = np.flatnonzero(em.half_cycle == half)
+        rows = rows[np.argsort(em.frequency[rows])]
+        last = -math.inf
+        for r in rows:
+            if frequency_resolution is None or em.frequency[r] - last >= frequency_resolution:
+                keep[r] = True
+                last = em.frequency[r]
+    t_branch = getattr(em, branch)[keep]
+    margin = em.period / 8
+    lo = np.minimum(em.short, em.long)[keep] - margin
+    hi = np.maximum(em.short, em.long)[keep] + margin
+    half_band = band * em.period
+    inside = np.clip(t_branch + half_band, lo, hi) - np.clip(t_branch - half_band, lo, hi)
+    chance = float(np.mean(inside / (hi - lo))) if keep.any() else math.nan
+    hits = int(np.sum(np.abs(em.quantum[keep] - t_branch) <= half_band))
+    n = int(keep.sum())
+    p_value = float(binom.sf(hits - 1, n, chance)) if n else math.nan
+    return BranchAgreement(branch, hits, n, chance, p_value, float(band))
 
 
 def _parabolic_peak(x, y):
