@@ -76,6 +76,7 @@ __all__ = [
     "ponderomotive_shift",
     "peak_centroid",
     "streaking_shift",
+    "field_free_floor",
     "analyse_run",
     "analyse_file",
     "write_analysis",
@@ -185,8 +186,9 @@ class PhotoelectronEdges:
         Largest smoothed log10 dP/dE (the direct peak).
     smoothed_log10 : ndarray
         The smoothed log10 dP/dE on the input energy axis (for plotting).
-    noise_floor_log10 : float
-        Noise floor of the spectrum, log10 dP/dE (:func:`tdse1d.spectra.noise_floor`).
+    noise_floor_log10 : ndarray
+        Noise floor of the spectrum on the input energy axis, log10 dP/dE
+        (:func:`tdse1d.spectra.noise_floor`; NaN where the spectrum is not used).
     direct_reason, backscattered_reason : str
         Empty for an edge read; otherwise why the edge is NaN, e.g.
         ``"unresolved (within 0.4 decades of the noise floor)"``.
@@ -197,7 +199,7 @@ class PhotoelectronEdges:
     plateau_log10: float
     peak_log10: float
     smoothed_log10: np.ndarray
-    noise_floor_log10: float = math.nan
+    noise_floor_log10: np.ndarray | None = None
     direct_reason: str = ""
     backscattered_reason: str = ""
 
@@ -295,6 +297,8 @@ class RunAnalysis:
     cutoff: CutoffEstimate | None = None
     #: log10 of the harmonic spectrum's noise floor on its frequency axis (a.u.)
     harmonic_floor_log10: np.ndarray | None = None
+    #: (energy, dP/dE) of the field-free companion (:func:`field_free_floor`)
+    photoelectron_floor: tuple | None = None
 
     @property
     def tunnelling_yield(self) -> float:
@@ -509,7 +513,7 @@ def _parabolic_peak(x, y):
 
 def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RISE,
                         drop=BACKSCATTER_DROP, noise_margin=NOISE_MARGIN, max_energy=None,
-                        floor_decades=30.0, max_iterations=30):
+                        floor_decades=30.0, max_iterations=30, noise=None):
     """Direct and backscattered edges of a photoelectron energy spectrum.
 
     The rule (energies in hartree):
@@ -518,9 +522,11 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
        (one ATI spacing, which levels the comb of ATI peaks), values more than
        ``floor_decades`` below the maximum raised to that floor. Only ``E >= hbar w /
        2`` is used (dP/dE diverges as 1/p at p = 0). The largest S is the direct peak.
-    2. Noise floor ``N`` = median of log10 dP/dE over the upper half of the energy
-       axis (:func:`tdse1d.spectra.noise_floor`; far above any classical edge on a
-       grid that resolves the pulse's momenta); the search region runs from the peak to the last energy with ``S >= N +
+    2. Noise floor ``N(E)`` (:func:`tdse1d.spectra.noise_floor`): the larger of the
+       median of log10 dP/dE over the upper half of the energy axis and, if given,
+       the companion ``noise`` smoothed like S (the analysis of a run passes the
+       spectrum of the same numerics with no field, :func:`field_free_floor`); the
+       search region runs from the peak to the last energy with ``S >= N +
        noise_margin``, and at most to ``max_energy``. The analysis of a run passes
        twice the classical backscattered cutoff: beyond it a 1-D spectrum holds only
        a slowly falling quantum tail, which would otherwise pass for a plateau.
@@ -556,6 +562,8 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
         :data:`tdse1d.spectra.NOISE_MARGIN`.
     max_energy : float, optional
         End of the search region (hartree); default the end of the axis.
+    noise : array_like, optional
+        Companion floor dP/dE on the same energy axis (1/hartree).
 
     Returns
     -------
@@ -578,14 +586,17 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     smoothed[usable] = s
     start = int(np.argmax(s))
     peak = float(s[start])
-    noise = float(noise_floor(ee, dd)[0])
+    companion = None if noise is None else np.asarray(noise, dtype=float)[usable]
+    floor = noise_floor(ee, dd, companion=companion, half_width=0.5 * photon_energy)
+    floor_all = np.full(e.shape, np.nan)
+    floor_all[usable] = floor
     inside = ee <= (np.inf if max_energy is None else float(max_energy))
-    signal = np.flatnonzero((s >= noise + noise_margin) & inside)
-    if peak - noise < noise_margin:
-        why = unresolved_reason(peak - noise)
-        return PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, noise, why, why)
+    signal = np.flatnonzero((s >= floor + noise_margin) & inside)
+    if peak - floor[start] < noise_margin:
+        why = unresolved_reason(peak - floor[start])
+        return PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, floor_all, why, why)
     no_plateau = f"unresolved (no plateau {noise_margin:g} decade above the noise floor)"
-    failed = PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, noise, no_plateau, no_plateau)
+    failed = PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, floor_all, no_plateau, no_plateau)
     if signal.size == 0 or signal[-1] <= start + 2:
         return failed
     tail = s[start : signal[-1] + 1]
@@ -609,15 +620,72 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     i_d = int(fallen[0]) if fallen.size else i_1
     direct, back = float(ee[start + i_d]), float(ee[start + i_b])
     direct_why = back_why = ""
-    if direct_level - rise - noise < noise_margin:
-        direct, direct_why = math.nan, unresolved_reason(direct_level - rise - noise)
-    if level - drop - noise < noise_margin:
-        back, back_why = math.nan, unresolved_reason(level - drop - noise)
-    return PhotoelectronEdges(direct, back, level, peak, smoothed, noise, direct_why, back_why)
+    if direct_level - rise - floor[start + i_d] < noise_margin:
+        direct, direct_why = math.nan, unresolved_reason(direct_level - rise - floor[start + i_d])
+    if level - drop - floor[start + i_b] < noise_margin:
+        back, back_why = math.nan, unresolved_reason(level - drop - floor[start + i_b])
+    return PhotoelectronEdges(direct, back, level, peak, smoothed, floor_all, direct_why, back_why)
+
+
+def field_free_floor(problem, *, duration=None):
+    """Photoelectron spectrum of the same numerics with no field: the method's floor.
+
+    The initial state is propagated with the run's grid, potential, time step, scheme
+    and absorber but no field, its bound components are projected out
+    (:func:`tdse1d.spectra.project_out_bound`) and the rest is projected on plane waves
+    (:func:`tdse1d.spectra.plane_wave_spectrum`). What remains is what the numerics
+    alone put into the continuum: the split-operator propagator's eigenvectors differ
+    from the grid Hamiltonian's by O(dt^2), so part of the initial state is continuum
+    for the projection. That part is stationary once its components have dephased,
+    after a time 2 pi / E for energy E: one optical period of the first pulse covers
+    E >= hbar w, where edges are read (docs/analysis.md shows it unchanged between 1
+    and 8 cycles). A run at vanishing intensity gives the same spectrum.
+
+    Parameters
+    ----------
+    problem : tdse1d.problem.Problem
+    duration : float, optional
+        Propagation time (a.u.); default one period of the first pulse, at most the run.
+
+    Returns
+    -------
+    tdse1d.spectra.PhotoelectronSpectrum
+    """
+    from .absorb import ABSORBERS
+    from .propagate import Propagator, scheme_for_order
+    from .pulses import Field
+    from .spectra import plane_wave_spectrum, project_out_bound
+    from .states import initial_wavefunction
+
+    cfg, grid = problem.config, problem.grid
+    times = problem.time.times
+    period = 2 * math.pi / problem.field.omega if problem.field.pulses else times[-1] - times[0]
+    span = period if duration is None else float(duration)
+    steps = int(min(times.size - 1, max(1, math.ceil(span / problem.time.step))))
+    atom = cfg.atom
+    psi0 = initial_wavefunction(problem.states, atom.initial_state, atom.initial_amplitudes, atom.initial_phases)
+    absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
+    mask = absorber.step_factor(grid, problem.absorber_width, problem.time.step)
+    prop = Propagator(grid, problem.potential, Field([]), times[: steps + 1],
+                      scheme=scheme_for_order(cfg.propagation.order), absorber_factor=mask, reference=psi0,
+                      fft_effort="FFTW_ESTIMATE")
+    prop.start(psi0)
+    prop.advance(steps)
+    prop.finish()
+    continuum = project_out_bound(prop.length_gauge_state(), problem.states.wavefunctions, grid.spacing)
+    return plane_wave_spectrum(grid.x, continuum, split="momentum")
+
+
+def _companion_on(energy, floor_energy, floor_density):
+    """A floor spectrum interpolated (in log) onto another energy axis."""
+    if floor_energy is None:
+        return None
+    log_f = np.log10(np.maximum(np.nan_to_num(np.asarray(floor_density, float)), 1e-300))
+    return 10.0 ** np.interp(energy, floor_energy, log_f)
 
 
 def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potential, up, *,
-                        upper=None, noise_margin=NOISE_MARGIN):
+                        upper=None, noise_margin=NOISE_MARGIN, noise=None):
     """Ponderomotive shift from the offset of the ATI comb, where it is measurable.
 
     ATI peaks lie at ``E_n = n hbar w - Ip - Up`` (common practice; the shift of the
@@ -637,6 +705,10 @@ def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potent
         ``hbar w``, Ip and Up of the driving field (hartree).
     upper : float, optional
         Top of the energy range used (hartree).
+    noise_margin : float
+        Decades (see above).
+    noise : array_like, optional
+        Companion floor dP/dE on the same axis (see :func:`photoelectron_edges`).
 
     Returns
     -------
@@ -655,8 +727,10 @@ def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potent
     ee, dd = e[chosen], d[chosen]
     positive = np.isfinite(d) & (d > 0) & (e > 0)
     if positive.sum() >= 8 and np.any(dd > 0):
-        floor = float(noise_floor(e[positive], d[positive])[0])
-        headroom = float(np.median(np.log10(np.maximum(dd, 1e-300)))) - floor
+        companion = None if noise is None else np.asarray(noise, float)[positive]
+        floor = noise_floor(e[positive], d[positive], companion=companion)
+        floor_here = np.interp(ee, e[positive], floor)
+        headroom = float(np.median(np.log10(np.maximum(dd, 1e-300)) - floor_here))
         if headroom < noise_margin:
             return PonderomotiveShift(False, f"ATI comb {unresolved_reason(headroom)}", math.nan, up)
     weights = np.gradient(ee)
@@ -775,6 +849,7 @@ class _Inputs:
     photoelectrons: dict  # method -> (momentum, left, right, energy, energy density)
     estimate: dict  # first pulse's PulseEstimate as a dict
     potential: object = None
+    photoelectron_floor: tuple | None = None  # (energy, dP/dE) of the field-free companion
 
 
 def _xuv_pulse(inputs, ip):
@@ -850,8 +925,9 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
             notes.append("the photoelectron spectrum is empty")
         elif xuv is None:
             reach = 2 * three.max_backscattered_energy if three is not None else None
-            edges = photoelectron_edges(energy, density, omega0, max_energy=reach)
-            pond = ponderomotive_shift(energy, density, omega0, ip, up)
+            companion = _companion_on(energy, *(inputs.photoelectron_floor or (None, None)))
+            edges = photoelectron_edges(energy, density, omega0, max_energy=reach, noise=companion)
+            pond = ponderomotive_shift(energy, density, omega0, ip, up, noise=companion)
         else:
             omega_x, _, t_x, _ = inputs.pulses[xuv]
             a_ir = sum(float(q[3](np.array([t_x]))[0]) for i, q in enumerate(inputs.pulses) if i != xuv)
@@ -881,6 +957,7 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         notes=tuple(notes),
         cutoff=cutoff,
         harmonic_floor_log10=floor_log10,
+        photoelectron_floor=inputs.photoelectron_floor,
     )
 
 
@@ -921,7 +998,16 @@ def analyse_run(problem, result) -> RunAnalysis:
         pulses=_pulse_rows(problem.field), photoelectrons=photo,
         estimate=as_attributes(problem.pulse_estimates[0]) if problem.pulse_estimates else {},
         potential=problem.potential,
+        photoelectron_floor=_floor_of(problem),
     ))
+
+
+def _floor_of(problem):
+    """(energy, dP/dE) of :func:`field_free_floor`, None for a run without a field."""
+    if not problem.field.pulses:
+        return None
+    spec = field_free_floor(problem)
+    return spec.energy, spec.energy_density
 
 
 def _file_pulses(h5file):
@@ -938,6 +1024,14 @@ def _file_pulses(h5file):
         return _pulse_rows(build_field(config)), min(config.atom.initial_state)
     except (InputError, KeyError, tomllib.TOMLDecodeError):
         return (), 0
+
+
+def _stored_floor(f):
+    """The field-free companion stored by :func:`write_analysis`, None if absent."""
+    key = "spectra/photoelectron/field_free"
+    if key not in f:
+        return None
+    return f[f"{key}/energy"][()], f[f"{key}/energy_density"][()]
 
 
 def analyse_file(h5file) -> RunAnalysis:
@@ -975,6 +1069,7 @@ def analyse_file(h5file) -> RunAnalysis:
         window=str(h.attrs.get("window", "hann")) if h is not None else "hann",
         pulses=pulses, photoelectrons=photo,
         estimate={k: float(v) for k, v in f["estimates"].attrs.items() if k != "units"},
+        photoelectron_floor=_stored_floor(f),
     ))
     if "classical/tunnelling" in f:
         analysis = replace(analysis, tunnelling_time=f["classical/tunnelling/time"][()],
@@ -1075,10 +1170,18 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
                           reason=ed.backscattered_reason)
             write_dataset(g, "plateau_log10", ed.plateau_log10, "log10(1/hartree)")
             write_dataset(g, "noise_floor_log10", ed.noise_floor_log10, "log10(1/hartree)",
-                          description="noise floor of dP/dE: median of log10 over the top half of the energy axis")
+                          description="noise floor of dP/dE on the energy axis of the spectrum read "
+                                      f"({analysis.photoelectron_method}): the larger of the median of log10 over the "
+                                      "top half of the axis and the field-free companion (docs/analysis.md)")
         pond = analysis.ponderomotive
         if pond is not None:
             write_dataset(g, "ponderomotive_shift", pond.measured, "hartree", measurable=pond.measurable, reason=pond.reason)
+    if analysis.photoelectron_floor is not None:
+        g = f.create_group("spectra/photoelectron/field_free")
+        g.attrs["description"] = ("the same numerics with no field for one optical period: the method's floor "
+                                  "(tdse1d.analysis.field_free_floor)")
+        write_dataset(g, "energy", analysis.photoelectron_floor[0], "hartree")
+        write_dataset(g, "energy_density", analysis.photoelectron_floor[1], "1/hartree", description="both sides")
     st = analysis.streaking
     if st is not None:
         g = f.create_group("streaking")

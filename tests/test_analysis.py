@@ -217,6 +217,24 @@ def test_the_vanishing_intensity_spectrum_is_the_field_companion(infrared_vanish
     assert np.median(np.abs(smoothed[far] - floor[far])) < 0.1
 
 
+def test_field_free_companion_is_the_vanishing_intensity_spectrum(infrared_vanishing):
+    # the photoelectron floor (analysis.field_free_floor: one optical period with no field)
+    # against the plane-wave spectrum of the whole run at 1e6 W/cm^2, where nothing is
+    # ionized physically (a 14-photon process at ~1e-130): the same numbers wherever the
+    # floor is defined, above one photon energy; 0.3 decade allows for the dephasing not
+    # complete after one period (stated before the run)
+    outcome, weak = infrared_vanishing
+    spec = analysis.field_free_floor(outcome.problem)
+    with h5py.File(outcome.path) as f:
+        g = f["spectra/photoelectron/plane_wave"]
+        e = g["energy"][()]
+        run = g["energy_density_left"][()] + g["energy_density_right"][()]
+    chosen = (e >= weak.omega0) & (e <= 0.5 * e[-1]) & (run > 0) & (spec.energy_density > 0)
+    assert chosen.sum() > 20
+    difference = np.log10(run[chosen]) - np.log10(spec.energy_density[chosen])
+    assert np.median(np.abs(difference)) < 0.3
+
+
 def _emission_null_maps(a, seeds=(0, 1, 2)):
     from dataclasses import replace
 
