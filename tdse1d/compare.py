@@ -166,10 +166,14 @@ class Comparison:
         return self.cutoff_measured_ev - self.cutoff_computed_ev
 
     def to_json(self) -> dict:
+        """The comparison for machines; an unresolved cutoff is null, with its reason beside it."""
+        def clean(x):
+            return x if math.isfinite(x) else None
+
         return {
-            "cutoff_computed_eV": self.cutoff_computed_ev,
-            "cutoff_measured_eV": self.cutoff_measured_ev,
-            "difference_eV": self.difference_ev,
+            "cutoff_computed_eV": clean(self.cutoff_computed_ev),
+            "cutoff_measured_eV": clean(self.cutoff_measured_ev),
+            "difference_eV": clean(self.difference_ev),
             "resolution_fwhm_eV": self.resolution_fwhm_ev,
             "normalisation": self.normalisation,
             **({"computed_unresolved": self.computed_reason} if self.computed_reason else {}),
