@@ -619,27 +619,51 @@ class EmissionTimesCase(CaseKind):
 
 @register_case_kind("gauge_invariance")
 class GaugeInvariance(CaseKind):
-    """The same run in the length and velocity gauges: ionization and harmonic plateau.
+    """The same run in the length and velocity gauges: their difference vanishes as dt^p.
 
-    Rows: relative difference of the ionization probability, and the RMS difference
-    (decades) of the harmonic spectra smoothed over one order in the plateau.
+    The exact TDSE is gauge invariant; the split-operator propagator of order p is not
+    exactly, each gauge carrying its own splitting error C_g dt^p. So the difference
+    of the two gauges' results must fall as dt^p: halving the time step divides it by
+    2^p. Checked: the observed order log2(d(dt) / d(dt/2)) of the relative difference of
+    the ionization probability and of the plateau RMS difference, against the
+    scheme's order p. Band, set before the run: the next term of the error changes the
+    ratio by a relative amount of order (dt E)^2, E the top of the plateau compared
+    (Ip + 2.5 Up, about 2 hartree, so 1 % at dt = 0.05 a.u.); 0.1 in the order allows
+    ten times that. The differences themselves are reported; the former bands (2 % and
+    0.1 decade) were four orders of magnitude above them.
     """
 
     def run(self):
-        length = self.runner.run(self.case.input(overrides=['propagation.gauge="length"']))
-        velocity = self.runner.run(self.case.input(overrides=['propagation.gauge="velocity"']))
-        p_l, p_v = length.result.ionization_probability, velocity.result.ionization_probability
+        def pair(extra):
+            length = self.runner.run(self.case.input(overrides=['propagation.gauge="length"', *extra]))
+            velocity = self.runner.run(self.case.input(overrides=['propagation.gauge="velocity"', *extra]))
+            return length, velocity
+
+        length, velocity = pair(())
+        dt = length.problem.time.step
+        order = int(length.problem.config.propagation.order)
+        length_h, velocity_h = pair([f"propagation.time_step={dt / 2!r}"])
         omega0 = length.problem.field.omega
         band = _plateau_band(length.problem)
-        rms = _plateau_rms(length.result.harmonic, velocity.result.harmonic, band, omega0)
+
+        def differences(a, b):
+            p_a, p_b = a.result.ionization_probability, b.result.ionization_probability
+            return abs(p_b - p_a) / p_a, _plateau_rms(a.result.harmonic, b.result.harmonic, band, omega0)
+
+        (ion, rms), (ion_h, rms_h) = differences(length, velocity), differences(length_h, velocity_h)
         _spectra_figure(self, {"length": length.result.harmonic, "velocity": velocity.result.harmonic}, omega0, band)
-        return [
-            self.row(p_v, quantity="ionization probability, velocity gauge (reference: length gauge)",
-                     reference=p_l, tolerance=float(self.case.get("params.ionization_tolerance")), relative=True,
-                     units="1"),
-            self.row(rms, quantity="plateau RMS difference of log10 spectra", reference=0.0,
-                     tolerance=float(self.case.get("params.plateau_tolerance")), units="decades"),
+        tol = float(self.case.get("params.order_tolerance"))
+        rows = [
+            self.row(ion, quantity=f"ionization probability, abs(velocity - length) / length at dt = {dt:.4g}",
+                     reference=0.0, tolerance=math.nan, units="1", rule="reported", informational=True, passed=True),
+            self.row(rms, quantity=f"plateau RMS difference of log10 spectra at dt = {dt:.4g}", reference=0.0,
+                     tolerance=math.nan, units="decades", rule="reported", informational=True, passed=True),
         ]
+        for name, d, d_h in (("ionization probability", ion, ion_h), ("harmonic plateau", rms, rms_h)):
+            observed = math.log2(d / d_h) if d > 0 and d_h > 0 else math.nan
+            rows.append(self.row(observed, quantity=f"order of the gauge difference in dt, {name}", reference=order,
+                                 tolerance=tol, units="1"))
+        return rows
 
 
 def _spectra_figure(kind, spectra_by_name, omega0, band):
