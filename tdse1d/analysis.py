@@ -48,7 +48,17 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import classical
-from .spectra import default_gabor_width, gabor_transform, running_mean
+from .spectra import (
+    NOISE_MARGIN,
+    CutoffEstimate,
+    default_gabor_width,
+    gabor_transform,
+    harmonic_spectrum,
+    noise_floor,
+    read_cutoff,
+    running_mean,
+    unresolved_reason,
+)
 from .store import write_dataset
 
 __all__ = [
@@ -60,10 +70,15 @@ __all__ = [
     "RunAnalysis",
     "time_frequency_map",
     "emission_times",
+    "BranchAgreement",
+    "branch_agreement",
+    "BranchCorrelation",
+    "branch_correlation",
     "photoelectron_edges",
     "ponderomotive_shift",
     "peak_centroid",
     "streaking_shift",
+    "field_free_floor",
     "analyse_run",
     "analyse_file",
     "write_analysis",
@@ -89,8 +104,6 @@ PHOTOELECTRON_METHOD_ORDER = ("mask", "plane_wave")
 #: the plateau level at the backscattered edge (see photoelectron_edges)
 DIRECT_RISE = 0.5
 BACKSCATTER_DROP = 1.5
-#: decades above the noise floor that count as signal
-NOISE_MARGIN = 1.0
 
 #: minimum contrast of the ATI comb (first Fourier coefficient of dP/dE at period
 #: hbar*w over the direct region, relative to the mean) for its offset to count
@@ -175,6 +188,12 @@ class PhotoelectronEdges:
         Largest smoothed log10 dP/dE (the direct peak).
     smoothed_log10 : ndarray
         The smoothed log10 dP/dE on the input energy axis (for plotting).
+    noise_floor_log10 : ndarray
+        Noise floor of the spectrum on the input energy axis, log10 dP/dE
+        (:func:`tdse1d.spectra.noise_floor`; NaN where the spectrum is not used).
+    direct_reason, backscattered_reason : str
+        Empty for an edge read; otherwise why the edge is NaN, e.g.
+        ``"unresolved (within 0.4 decades of the noise floor)"``.
     """
 
     direct: float
@@ -182,6 +201,9 @@ class PhotoelectronEdges:
     plateau_log10: float
     peak_log10: float
     smoothed_log10: np.ndarray
+    noise_floor_log10: np.ndarray | None = None
+    direct_reason: str = ""
+    backscattered_reason: str = ""
 
 
 @dataclass(frozen=True)
@@ -195,7 +217,7 @@ class PonderomotiveShift:
         Why the shift is or is not measurable.
     measured : float
         ``(n hbar w - Ip - E_n) mod hbar w`` from the comb offset (hartree), NaN if not
-        measurable.
+        measurable (also when the comb lies within the noise margin of the floor).
     predicted : float
         Up of the peak field (hartree).
     """
@@ -226,6 +248,9 @@ class StreakingShift:
     photoelectric_energy : float
         ``(peak_left + peak_right)^2 / 8``, the peak energy without the streaking
         shift; Einstein's relation predicts ``hbar w_X - Ip``.
+    reason : str
+        Empty when the peaks stand clear of the noise floor; otherwise why
+        ``measured`` and ``photoelectric_energy`` are NaN.
     """
 
     xuv_time: float
@@ -236,6 +261,7 @@ class StreakingShift:
     peak_left: float
     measured: float
     photoelectric_energy: float
+    reason: str = ""
 
     @property
     def predicted(self):
@@ -269,6 +295,12 @@ class RunAnalysis:
     ponderomotive: PonderomotiveShift | None
     streaking: StreakingShift | None
     notes: tuple = field(default_factory=tuple)
+    #: the harmonic cutoff reading (NaN frequency and a reason when unresolved)
+    cutoff: CutoffEstimate | None = None
+    #: log10 of the harmonic spectrum's noise floor on its frequency axis (a.u.)
+    harmonic_floor_log10: np.ndarray | None = None
+    #: (energy, dP/dE) of the field-free companion (:func:`field_free_floor`)
+    photoelectron_floor: tuple | None = None
 
     @property
     def tunnelling_yield(self) -> float:
@@ -386,6 +418,165 @@ def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
     return EmissionTimes(period=float(period), **arrays)
 
 
+@dataclass(frozen=True)
+class BranchAgreement:
+    """How far the quantum emission times beat chance on one classical branch.
+
+    Attributes
+    ----------
+    branch : str
+        ``"short"`` or ``"long"``.
+    hits, samples : int
+        Independent samples (thinned to one per frequency resolution of the map) and
+        how many lie within ``band`` of the branch.
+    chance : float
+        Mean probability of a hit for a time drawn uniformly over each sample's search
+        window (what a map without emission scores).
+    p_value : float
+        Binomial probability of at least ``hits`` hits by chance.
+    band : float
+        Half width of the band around the branch (optical cycles).
+    """
+
+    branch: str
+    hits: int
+    samples: int
+    chance: float
+    p_value: float
+    band: float
+
+    @property
+    def fraction(self) -> float:
+        return self.hits / self.samples if self.samples else math.nan
+
+
+def branch_agreement(emission, branch, *, band=0.1, frequency_resolution=None) -> BranchAgreement:
+    """Binomial test of the quantum emission times against one classical branch.
+
+    A sample is a hit when ``|t_quantum - t_branch| <= band`` cycles. A map holding no
+    emission (noise, or the real map with its time rows shuffled) puts the maximum
+    anywhere in the search window of :func:`emission_times` (the two branch times
+    widened by an eighth of a cycle on each side), so it hits with probability
+    ``chance`` = (length of the band inside the window) / (window length). Neighbouring
+    photon energies are not independent: the Gabor window of width sigma resolves
+    energies only ``1 / sigma`` apart, so the samples are thinned to one per
+    ``frequency_resolution`` in each half cycle before the binomial tail is taken.
+
+    Parameters
+    ----------
+    emission : EmissionTimes
+    branch : {"short", "long"}
+    band : float
+        Half width of the band (optical cycles); default 0.1, the Gabor window's time
+        resolution sigma = T / 10 (:func:`tdse1d.spectra.default_gabor_width`).
+    frequency_resolution : float, optional
+        Energy spacing of independent samples (hartree); default one sample per row.
+
+    Returns
+    -------
+    BranchAgreement
+    """
+    from scipy.stats import binom
+
+    if branch not in ("short", "long"):
+        raise ValueError(f"branch must be 'short' or 'long', got {branch!r}")
+    em = emission
+    keep = np.zeros(em.frequency.size, dtype=bool)
+    keep[_thinned(em, frequency_resolution, np.arange(em.frequency.size))] = True
+    t_branch = getattr(em, branch)[keep]
+    margin = em.period / 8
+    lo = np.minimum(em.short, em.long)[keep] - margin
+    hi = np.maximum(em.short, em.long)[keep] + margin
+    half_band = band * em.period
+    inside = np.clip(t_branch + half_band, lo, hi) - np.clip(t_branch - half_band, lo, hi)
+    chance = float(np.mean(inside / (hi - lo))) if keep.any() else math.nan
+    hits = int(np.sum(np.abs(em.quantum[keep] - t_branch) <= half_band))
+    n = int(keep.sum())
+    p_value = float(binom.sf(hits - 1, n, chance)) if n else math.nan
+    return BranchAgreement(branch, hits, n, chance, p_value, float(band))
+
+
+def _thinned(em, frequency_resolution, rows):
+    """``rows`` of ``em`` thinned to one per ``frequency_resolution`` in each half cycle."""
+    keep = []
+    for half in np.unique(em.half_cycle[rows]):
+        chosen = rows[em.half_cycle[rows] == half]
+        chosen = chosen[np.argsort(em.frequency[chosen])]
+        last = -math.inf
+        for r in chosen:
+            if frequency_resolution is None or em.frequency[r] - last >= frequency_resolution:
+                keep.append(r)
+                last = em.frequency[r]
+    return np.asarray(keep, dtype=int)
+
+
+@dataclass(frozen=True)
+class BranchCorrelation:
+    """Correlation of the quantum emission times with one classical branch.
+
+    Attributes
+    ----------
+    branch : str
+    correlation : float
+        Pearson r of quantum and classical times, each centred per half cycle.
+    samples : int
+        Independent samples used (one per frequency resolution, central half cycles).
+    p_value : float
+        One-sided probability of a correlation at least this large without any.
+    """
+
+    branch: str
+    correlation: float
+    samples: int
+    p_value: float
+
+
+def branch_correlation(emission, branch="long", *, frequency_resolution=None) -> BranchCorrelation:
+    """Does the quantum emission time move with photon energy as a classical branch does?
+
+    The two branches run opposite ways (the attochirp: the short-trajectory emission
+    time grows with photon energy, the long one falls; Mairesse et al., Science 302,
+    1540 (2003), from memory). Within each central half cycle (at least half the
+    largest number of samples) the quantum and the classical times are centred on
+    their means, and Pearson's r of the pooled samples is tested one-sided (r > 0) on
+    samples thinned to one per frequency resolution of the map. A map without emission
+    has no such correlation with the long branch; its maxima, spread over a search
+    window whose centre moves with the steeper short branch, tend to correlate with
+    the short one, so only the long-branch statistic separates a real map from noise
+    (tests keep both null maps).
+
+    Parameters
+    ----------
+    emission : EmissionTimes
+    branch : {"short", "long"}
+    frequency_resolution : float, optional
+        Energy spacing of independent samples (hartree), ``1 / sigma`` of the map.
+
+    Returns
+    -------
+    BranchCorrelation
+    """
+    from scipy.stats import pearsonr
+
+    if branch not in ("short", "long"):
+        raise ValueError(f"branch must be 'short' or 'long', got {branch!r}")
+    em = emission
+    labels, counts = np.unique(em.half_cycle, return_counts=True)
+    central = np.flatnonzero(np.isin(em.half_cycle, labels[counts >= 0.5 * counts.max()])) if counts.size else np.zeros(0, int)
+    rows = _thinned(em, frequency_resolution, central)
+    quantum, classical_time = [], []
+    for half in np.unique(em.half_cycle[rows]):
+        chosen = rows[em.half_cycle[rows] == half]
+        q, c = em.quantum[chosen], getattr(em, branch)[chosen]
+        quantum.append(q - q.mean())
+        classical_time.append(c - c.mean())
+    if not rows.size or rows.size < 4:
+        return BranchCorrelation(branch, math.nan, int(rows.size), math.nan)
+    x, y = np.concatenate(quantum), np.concatenate(classical_time)
+    r, p = pearsonr(x, y, alternative="greater")
+    return BranchCorrelation(branch, float(r), int(x.size), float(p))
+
+
 def _parabolic_peak(x, y):
     """Abscissa of the maximum of sampled ``y(x)``, refined by a parabola through three points."""
     i = int(np.argmax(y))
@@ -398,7 +589,7 @@ def _parabolic_peak(x, y):
 
 def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RISE,
                         drop=BACKSCATTER_DROP, noise_margin=NOISE_MARGIN, max_energy=None,
-                        floor_decades=30.0, max_iterations=30):
+                        floor_decades=30.0, max_iterations=30, noise=None):
     """Direct and backscattered edges of a photoelectron energy spectrum.
 
     The rule (energies in hartree):
@@ -407,8 +598,10 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
        (one ATI spacing, which levels the comb of ATI peaks), values more than
        ``floor_decades`` below the maximum raised to that floor. Only ``E >= hbar w /
        2`` is used (dP/dE diverges as 1/p at p = 0). The largest S is the direct peak.
-    2. Noise floor ``N`` = median of S over the upper half of the energy axis (far
-       above any classical edge on a grid that resolves the pulse's momenta); the
+    2. Noise floor ``N(E)`` (:func:`tdse1d.spectra.noise_floor`): the larger of the
+       median of log10 dP/dE over the upper half of the energy axis and, if given,
+       the companion ``noise`` smoothed like S (the analysis of a run passes the
+       spectrum of the same numerics with no field, :func:`field_free_floor`); the
        search region runs from the peak to the last energy with ``S >= N +
        noise_margin``, and at most to ``max_energy``. The analysis of a run passes
        twice the classical backscattered cutoff: beyond it a 1-D spectrum holds only
@@ -423,6 +616,10 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
        ``rise`` decades below the direct level (median of S between the peak and
        ``E_1``): the knee where the direct electrons' distribution starts its steep
        fall to the plateau.
+    5. Noise: an edge counts only if its reading level (``P - drop`` for the
+       backscattered edge, the direct level minus ``rise`` for the direct one)
+       stands at least ``noise_margin`` decades above ``N``; otherwise it is NaN and
+       its reason says "unresolved (within X decades of the noise floor)".
 
     Classically direct electrons end below ``2 Up`` and backscattered ones below
     ``10 Up`` (Paulus et al., J. Phys. B 27, L703 (1994), from memory). The rule does
@@ -437,9 +634,12 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     photon_energy : float
         ``hbar w`` of the driving field (hartree).
     rise, drop, noise_margin : float
-        Decades (see above).
+        Decades (see above); ``noise_margin`` defaults to
+        :data:`tdse1d.spectra.NOISE_MARGIN`.
     max_energy : float, optional
         End of the search region (hartree); default the end of the axis.
+    noise : array_like, optional
+        Companion floor dP/dE on the same energy axis (1/hartree).
 
     Returns
     -------
@@ -462,10 +662,17 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     smoothed[usable] = s
     start = int(np.argmax(s))
     peak = float(s[start])
-    noise = float(np.median(s[ee >= 0.5 * ee[-1]]))
+    companion = None if noise is None else np.asarray(noise, dtype=float)[usable]
+    floor = noise_floor(ee, dd, companion=companion, half_width=0.5 * photon_energy)
+    floor_all = np.full(e.shape, np.nan)
+    floor_all[usable] = floor
     inside = ee <= (np.inf if max_energy is None else float(max_energy))
-    signal = np.flatnonzero((s >= noise + noise_margin) & inside)
-    failed = PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed)
+    signal = np.flatnonzero((s >= floor + noise_margin) & inside)
+    if peak - floor[start] < noise_margin:
+        why = unresolved_reason(peak - floor[start])
+        return PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, floor_all, why, why)
+    no_plateau = f"unresolved (no plateau {noise_margin:g} decade above the noise floor)"
+    failed = PhotoelectronEdges(math.nan, math.nan, math.nan, peak, smoothed, floor_all, no_plateau, no_plateau)
     if signal.size == 0 or signal[-1] <= start + 2:
         return failed
     tail = s[start : signal[-1] + 1]
@@ -487,11 +694,74 @@ def photoelectron_edges(energy, energy_density, photon_energy, *, rise=DIRECT_RI
     fallen = np.flatnonzero(tail[: i_1 + 1] <= direct_level - rise)
     # a direct part that never stands out from the plateau ends where the plateau starts
     i_d = int(fallen[0]) if fallen.size else i_1
-    return PhotoelectronEdges(float(ee[start + i_d]), float(ee[start + i_b]), level, peak, smoothed)
+    direct, back = float(ee[start + i_d]), float(ee[start + i_b])
+    direct_why = back_why = ""
+    if direct_level - rise - floor[start + i_d] < noise_margin:
+        direct, direct_why = math.nan, unresolved_reason(direct_level - rise - floor[start + i_d])
+    if level - drop - floor[start + i_b] < noise_margin:
+        back, back_why = math.nan, unresolved_reason(level - drop - floor[start + i_b])
+    return PhotoelectronEdges(direct, back, level, peak, smoothed, floor_all, direct_why, back_why)
+
+
+def field_free_floor(problem, *, duration=None):
+    """Photoelectron spectrum of the same numerics with no field: the method's floor.
+
+    The initial state is propagated with the run's grid, potential, time step, scheme
+    and absorber but no field, its bound components are projected out
+    (:func:`tdse1d.spectra.project_out_bound`) and the rest is projected on plane waves
+    (:func:`tdse1d.spectra.plane_wave_spectrum`). What remains is what the numerics
+    alone put into the continuum: the split-operator propagator's eigenvectors differ
+    from the grid Hamiltonian's by O(dt^2), so part of the initial state is continuum
+    for the projection. That part is stationary once its components have dephased,
+    after a time 2 pi / E for energy E: one optical period of the first pulse covers
+    E >= hbar w, where edges are read (docs/analysis.md shows it unchanged between 1
+    and 8 cycles). A run at vanishing intensity gives the same spectrum.
+
+    Parameters
+    ----------
+    problem : tdse1d.problem.Problem
+    duration : float, optional
+        Propagation time (a.u.); default one period of the first pulse, at most the run.
+
+    Returns
+    -------
+    tdse1d.spectra.PhotoelectronSpectrum
+    """
+    from .absorb import ABSORBERS
+    from .propagate import Propagator, scheme_for_order
+    from .pulses import Field
+    from .spectra import plane_wave_spectrum, project_out_bound
+    from .states import initial_wavefunction
+
+    cfg, grid = problem.config, problem.grid
+    times = problem.time.times
+    period = 2 * math.pi / problem.field.omega if problem.field.pulses else times[-1] - times[0]
+    span = period if duration is None else float(duration)
+    steps = int(min(times.size - 1, max(1, math.ceil(span / problem.time.step))))
+    atom = cfg.atom
+    psi0 = initial_wavefunction(problem.states, atom.initial_state, atom.initial_amplitudes, atom.initial_phases)
+    absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
+    mask = absorber.step_factor(grid, problem.absorber_width, problem.time.step)
+    prop = Propagator(grid, problem.potential, Field([]), times[: steps + 1],
+                      scheme=scheme_for_order(cfg.propagation.order), absorber_factor=mask, reference=psi0,
+                      fft_effort="FFTW_ESTIMATE")
+    prop.start(psi0)
+    prop.advance(steps)
+    prop.finish()
+    continuum = project_out_bound(prop.length_gauge_state(), problem.states.wavefunctions, grid.spacing)
+    return plane_wave_spectrum(grid.x, continuum, split="momentum")
+
+
+def _companion_on(energy, floor_energy, floor_density):
+    """A floor spectrum interpolated (in log) onto another energy axis."""
+    if floor_energy is None:
+        return None
+    log_f = np.log10(np.maximum(np.nan_to_num(np.asarray(floor_density, float)), 1e-300))
+    return 10.0 ** np.interp(energy, floor_energy, log_f)
 
 
 def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potential, up, *,
-                        upper=None):
+                        upper=None, noise_margin=NOISE_MARGIN, noise=None):
     """Ponderomotive shift from the offset of the ATI comb, where it is measurable.
 
     ATI peaks lie at ``E_n = n hbar w - Ip - Up`` (common practice; the shift of the
@@ -499,7 +769,9 @@ def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potent
     The offset is the phase of the first Fourier coefficient of dP/dE at period
     ``hbar w`` over ``[hbar w / 2, upper]`` (default ``2 Up``, at least ``4 hbar w``).
     The shift counts as measurable only if ``Up < hbar w`` (otherwise the comb fixes it
-    only modulo hbar w) and the comb contrast exceeds :data:`ATI_CONTRAST`.
+    only modulo hbar w), the comb contrast exceeds :data:`ATI_CONTRAST`, and the
+    median of log10 dP/dE over the range stands ``noise_margin`` decades above the
+    spectrum's noise floor (:func:`tdse1d.spectra.noise_floor`).
 
     Parameters
     ----------
@@ -509,6 +781,10 @@ def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potent
         ``hbar w``, Ip and Up of the driving field (hartree).
     upper : float, optional
         Top of the energy range used (hartree).
+    noise_margin : float
+        Decades (see above).
+    noise : array_like, optional
+        Companion floor dP/dE on the same axis (see :func:`photoelectron_edges`).
 
     Returns
     -------
@@ -525,6 +801,14 @@ def ponderomotive_shift(energy, energy_density, photon_energy, ionization_potent
     if chosen.sum() < 16:
         return PonderomotiveShift(False, "too few spectrum samples below the direct edge", math.nan, up)
     ee, dd = e[chosen], d[chosen]
+    positive = np.isfinite(d) & (d > 0) & (e > 0)
+    if positive.sum() >= 8 and np.any(dd > 0):
+        companion = None if noise is None else np.asarray(noise, float)[positive]
+        floor = noise_floor(e[positive], d[positive], companion=companion)
+        floor_here = np.interp(ee, e[positive], floor)
+        headroom = float(np.median(np.log10(np.maximum(dd, 1e-300)) - floor_here))
+        if headroom < noise_margin:
+            return PonderomotiveShift(False, f"ATI comb {unresolved_reason(headroom)}", math.nan, up)
     weights = np.gradient(ee)
     mean = np.sum(dd * weights)
     coefficient = np.sum(dd * weights * np.exp(-2j * np.pi * ee / photon_energy))
@@ -568,7 +852,7 @@ def peak_centroid(momentum, density, *, level=0.5):
 
 
 def streaking_shift(momentum, density_left, density_right, xuv_time, xuv_photon_energy,
-                    ionization_potential, ir_vector_potential):
+                    ionization_potential, ir_vector_potential, *, noise_margin=NOISE_MARGIN):
     """Streaking shift of the XUV photoelectron peak and its classical prediction.
 
     An electron released at ``t_X`` with momentum ``+-p0``, ``p0 = sqrt(2 (hbar w_X -
@@ -587,6 +871,10 @@ def streaking_shift(momentum, density_left, density_right, xuv_time, xuv_photon_
         Centre of the XUV pulse (a.u.), its photon energy and Ip (hartree).
     ir_vector_potential : float
         ``A_IR(t_X)`` of the other pulses (a.u.).
+    noise_margin : float
+        Decades by which the lower of the two peaks must stand above the noise floor
+        of the momentum density (:func:`tdse1d.spectra.noise_floor`); otherwise the
+        shift is NaN and ``reason`` says why.
 
     Returns
     -------
@@ -598,10 +886,21 @@ def streaking_shift(momentum, density_left, density_right, xuv_time, xuv_photon_
     p0 = math.sqrt(2 * excess)
     right = peak_centroid(momentum, density_right)
     left = peak_centroid(momentum, density_left)
+    p = np.asarray(momentum, dtype=float)
+    both = np.nan_to_num(np.asarray(density_left, float)) + np.nan_to_num(np.asarray(density_right, float))
+    positive = (p > 0) & (both > 0)
+    reason = ""
+    if positive.sum() >= 8:
+        floor = float(noise_floor(p[positive], both[positive])[0])
+        lower = min(np.nanmax(density_left), np.nanmax(density_right))
+        headroom = math.log10(lower) - floor if lower > 0 else -math.inf
+        if headroom < noise_margin:
+            reason = unresolved_reason(headroom)
+            right = left = math.nan
     return StreakingShift(
         xuv_time=float(xuv_time), xuv_photon_energy=float(xuv_photon_energy), initial_momentum=p0,
         vector_potential=float(ir_vector_potential), peak_right=right, peak_left=left,
-        measured=0.5 * (left - right), photoelectric_energy=0.125 * (left + right) ** 2,
+        measured=0.5 * (left - right), photoelectric_energy=0.125 * (left + right) ** 2, reason=reason,
     )
 
 
@@ -619,11 +918,14 @@ class _Inputs:
     energies: np.ndarray
     initial_state: int
     ionization_probability: float
-    harmonic_cutoff: float
+    harmonic_frequency: np.ndarray
+    harmonic_power: np.ndarray
+    window: str
     pulses: tuple  # (omega, peak_field, centre time, A(t) callable) per pulse
     photoelectrons: dict  # method -> (momentum, left, right, energy, energy density)
     estimate: dict  # first pulse's PulseEstimate as a dict
     potential: object = None
+    photoelectron_floor: tuple | None = None  # (energy, dP/dE) of the field-free companion
 
 
 def _xuv_pulse(inputs, ip):
@@ -667,10 +969,23 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         except ValueError as exc:
             notes.append(f"tunnelling estimate not evaluated: {exc}")
 
+    cutoff, floor_log10 = None, None
+    if have_field and omega0 > 0 and inputs.harmonic_power.size:
+        # the rule of the run (runner): the field's spectrum through the same window is
+        # the companion floor of the acceleration spectrum
+        leakage = harmonic_spectrum(inputs.time, inputs.electric, omega0, window=inputs.window).power
+        try:
+            cutoff = read_cutoff(inputs.harmonic_frequency, inputs.harmonic_power, omega0, ip, noise=leakage)
+            floor_log10 = noise_floor(inputs.harmonic_frequency, inputs.harmonic_power, companion=leakage,
+                                      half_width=omega0)
+        except ValueError as exc:
+            notes.append(f"harmonic cutoff not read: {exc}")
+    harmonic_cutoff = cutoff.frequency if cutoff is not None else math.nan
+
     tf = emission = None
     if have_field and omega0 > 0:
         predicted = three.cutoff_energy if three is not None else float(est.get("cutoff_energy", ip))
-        read = inputs.harmonic_cutoff if math.isfinite(inputs.harmonic_cutoff) else 0.0
+        read = harmonic_cutoff if math.isfinite(harmonic_cutoff) else 0.0
         try:
             tf = time_frequency_map(inputs.time, inputs.acceleration, omega0, TF_TOP * max(predicted, read))
             if quasi_static and three is not None and three.short_branch:
@@ -686,8 +1001,9 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
             notes.append("the photoelectron spectrum is empty")
         elif xuv is None:
             reach = 2 * three.max_backscattered_energy if three is not None else None
-            edges = photoelectron_edges(energy, density, omega0, max_energy=reach)
-            pond = ponderomotive_shift(energy, density, omega0, ip, up)
+            companion = _companion_on(energy, *(inputs.photoelectron_floor or (None, None)))
+            edges = photoelectron_edges(energy, density, omega0, max_energy=reach, noise=companion)
+            pond = ponderomotive_shift(energy, density, omega0, ip, up, noise=companion)
         else:
             omega_x, _, t_x, _ = inputs.pulses[xuv]
             a_ir = sum(float(q[3](np.array([t_x]))[0]) for i, q in enumerate(inputs.pulses) if i != xuv)
@@ -707,7 +1023,7 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         tunnelling_time=t_tun,
         tunnelling_probability=p_tun,
         ionization_probability=float(inputs.ionization_probability),
-        harmonic_cutoff=float(inputs.harmonic_cutoff),
+        harmonic_cutoff=float(harmonic_cutoff),
         time_frequency=tf,
         emission=emission,
         photoelectron_method=method,
@@ -715,6 +1031,9 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         ponderomotive=pond,
         streaking=streak,
         notes=tuple(notes),
+        cutoff=cutoff,
+        harmonic_floor_log10=floor_log10,
+        photoelectron_floor=inputs.photoelectron_floor,
     )
 
 
@@ -750,11 +1069,21 @@ def analyse_run(problem, result) -> RunAnalysis:
         vector_potential=np.asarray(obs.vector_potential), acceleration=np.asarray(obs.acceleration),
         energies=np.asarray(problem.states.energies), initial_state=min(problem.config.atom.initial_state),
         ionization_probability=result.ionization_probability,
-        harmonic_cutoff=result.cutoff.frequency if result.cutoff is not None else math.nan,
+        harmonic_frequency=np.asarray(result.harmonic.frequency), harmonic_power=np.asarray(result.harmonic.power),
+        window=problem.config.spectra.window,
         pulses=_pulse_rows(problem.field), photoelectrons=photo,
         estimate=as_attributes(problem.pulse_estimates[0]) if problem.pulse_estimates else {},
         potential=problem.potential,
+        photoelectron_floor=_floor_of(problem),
     ))
+
+
+def _floor_of(problem):
+    """(energy, dP/dE) of :func:`field_free_floor`, None for a run without a field."""
+    if not problem.field.pulses:
+        return None
+    spec = field_free_floor(problem)
+    return spec.energy, spec.energy_density
 
 
 def _file_pulses(h5file):
@@ -771,6 +1100,14 @@ def _file_pulses(h5file):
         return _pulse_rows(build_field(config)), min(config.atom.initial_state)
     except (InputError, KeyError, tomllib.TOMLDecodeError):
         return (), 0
+
+
+def _stored_floor(f):
+    """The field-free companion stored by :func:`write_analysis`, None if absent."""
+    key = "spectra/photoelectron/field_free"
+    if key not in f:
+        return None
+    return f[f"{key}/energy"][()], f[f"{key}/energy_density"][()]
 
 
 def analyse_file(h5file) -> RunAnalysis:
@@ -797,14 +1134,18 @@ def analyse_file(h5file) -> RunAnalysis:
             g = f[key]
             photo[name] = (g["momentum"][()], g["density_left"][()], g["density_right"][()], g["energy"][()],
                            g["energy_density_left"][()] + g["energy_density_right"][()])
-    harmonic = f["spectra/harmonic"].attrs.get("cutoff_frequency", math.nan) if "spectra/harmonic" in f else math.nan
+    h = f["spectra/harmonic"] if "spectra/harmonic" in f else None
     analysis = _analyse(_Inputs(
         time=f["field/time"][()], electric=f["field/electric"][()],
         vector_potential=f["field/vector_potential"][()], acceleration=f["observables/acceleration"][()],
         energies=f["states/energy"][()], initial_state=initial,
-        ionization_probability=float(f["ionization/probability"][()]), harmonic_cutoff=float(harmonic),
+        ionization_probability=float(f["ionization/probability"][()]),
+        harmonic_frequency=h["frequency"][()] if h is not None else np.zeros(0),
+        harmonic_power=h["power"][()] if h is not None else np.zeros(0),
+        window=str(h.attrs.get("window", "hann")) if h is not None else "hann",
         pulses=pulses, photoelectrons=photo,
         estimate={k: float(v) for k, v in f["estimates"].attrs.items() if k != "units"},
+        photoelectron_floor=_stored_floor(f),
     ))
     if "classical/tunnelling" in f:
         analysis = replace(analysis, tunnelling_time=f["classical/tunnelling/time"][()],
@@ -867,6 +1208,15 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
         g = c.create_group("tunnelling")
         write_dataset(g, "time", analysis.tunnelling_time, "atomic_unit_of_time")
         write_dataset(g, "probability", analysis.tunnelling_probability, "1")
+    cut = analysis.cutoff
+    if cut is not None and analysis.harmonic_floor_log10 is not None:
+        h = f.require_group("spectra/harmonic")
+        write_dataset(h, "noise_floor_log10", analysis.harmonic_floor_log10, "log10(atomic_units)",
+                      description="log10 of the noise floor of power: the larger of the median of the top half "
+                                  "of the axis and the field's own spectrum through the same window")
+        write_dataset(h, "cutoff_headroom", cut.headroom, "decades",
+                      description="reading level (plateau - drop) above the noise floor at the cutoff",
+                      resolved=bool(cut.resolved), reason=cut.reason)
     tf = analysis.time_frequency
     if tf is not None:
         g = f.create_group("spectra/time_frequency")
@@ -888,13 +1238,26 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
         g = f.create_group("spectra/photoelectron/edges")
         g.attrs["method"] = analysis.photoelectron_method or ""
         if analysis.edges is not None:
-            write_dataset(g, "direct", analysis.edges.direct, "hartree", description="direct-electron edge read off")
-            write_dataset(g, "backscattered", analysis.edges.backscattered, "hartree",
-                 description="backscattered-electron edge read off")
-            write_dataset(g, "plateau_log10", analysis.edges.plateau_log10, "log10(1/hartree)")
+            ed = analysis.edges
+            write_dataset(g, "direct", ed.direct, "hartree", description="direct-electron edge read off (NaN: see reason)",
+                          reason=ed.direct_reason)
+            write_dataset(g, "backscattered", ed.backscattered, "hartree",
+                          description="backscattered-electron edge read off (NaN: see reason)",
+                          reason=ed.backscattered_reason)
+            write_dataset(g, "plateau_log10", ed.plateau_log10, "log10(1/hartree)")
+            write_dataset(g, "noise_floor_log10", ed.noise_floor_log10, "log10(1/hartree)",
+                          description="noise floor of dP/dE on the energy axis of the spectrum read "
+                                      f"({analysis.photoelectron_method}): the larger of the median of log10 over the "
+                                      "top half of the axis and the field-free companion (docs/analysis.md)")
         pond = analysis.ponderomotive
         if pond is not None:
             write_dataset(g, "ponderomotive_shift", pond.measured, "hartree", measurable=pond.measurable, reason=pond.reason)
+    if analysis.photoelectron_floor is not None:
+        g = f.create_group("spectra/photoelectron/field_free")
+        g.attrs["description"] = ("the same numerics with no field for one optical period: the method's floor "
+                                  "(tdse1d.analysis.field_free_floor)")
+        write_dataset(g, "energy", analysis.photoelectron_floor[0], "hartree")
+        write_dataset(g, "energy_density", analysis.photoelectron_floor[1], "1/hartree", description="both sides")
     st = analysis.streaking
     if st is not None:
         g = f.create_group("streaking")
@@ -905,3 +1268,4 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
              description="peak energy without the streaking shift")
         for name in ("initial_momentum", "vector_potential", "peak_right", "peak_left", "measured"):
             write_dataset(g, name, getattr(st, name), "atomic_unit_of_momentum")
+        g.attrs["reason"] = st.reason

@@ -11,7 +11,13 @@ measured spectrum, and
    value there (both peak at 1): a measured spectrum rarely has an absolute scale;
 4. reads the cutoff of each with :func:`tdse1d.spectra.read_cutoff` (same rule, same
    omega0 and Ip, on the measured energy range), and reports the difference
-   measured - computed.
+   measured - computed. A cutoff whose reading level lies within the noise margin of
+   its spectrum's floor is NaN and called "unresolved": for the computed spectrum the
+   floor is the larger of the flat floor of the whole computed axis and, for a run
+   file, the spectrum of the driving field through the same window (both passed
+   through the same broadening, response and normalisation as the spectrum); for the
+   measured one it is the median of the top half of the measured range, the
+   spectrometer's background beyond the harmonics.
 
 :func:`read_spectrum_csv` reads a two-column file (x, signal). The x unit is given by
 a header comment (``# x: photon_energy eV`` or ``# x: wavelength nm``) or by the
@@ -29,11 +35,11 @@ from pathlib import Path
 import numpy as np
 from scipy import constants
 
-from .spectra import read_cutoff
+from .spectra import noise_floor, read_cutoff
 from .units import HARTREE_EV
 
 __all__ = ["MeasuredSpectrum", "read_spectrum_csv", "X_UNITS", "Comparison", "compare_spectra",
-           "gaussian_broaden", "computed_spectrum"]
+           "gaussian_broaden", "computed_spectrum", "computed_floor"]
 
 #: h c in eV nm (CODATA via scipy.constants): E [eV] = HC_EV_NM / lambda [nm]
 HC_EV_NM = constants.h * constants.c / constants.e * 1e9
@@ -150,6 +156,9 @@ class Comparison:
     cutoff_measured_ev: float
     resolution_fwhm_ev: float
     normalisation: str = "each spectrum divided by its largest value within the measured energy range"
+    #: empty when the cutoff was read; else why not ("unresolved (within X decades of the noise floor)")
+    computed_reason: str = ""
+    measured_reason: str = ""
 
     @property
     def difference_ev(self) -> float:
@@ -157,17 +166,23 @@ class Comparison:
         return self.cutoff_measured_ev - self.cutoff_computed_ev
 
     def to_json(self) -> dict:
+        """The comparison for machines; an unresolved cutoff is null, with its reason beside it."""
+        def clean(x):
+            return x if math.isfinite(x) else None
+
         return {
-            "cutoff_computed_eV": self.cutoff_computed_ev,
-            "cutoff_measured_eV": self.cutoff_measured_ev,
-            "difference_eV": self.difference_ev,
+            "cutoff_computed_eV": clean(self.cutoff_computed_ev),
+            "cutoff_measured_eV": clean(self.cutoff_measured_ev),
+            "difference_eV": clean(self.difference_ev),
             "resolution_fwhm_eV": self.resolution_fwhm_ev,
             "normalisation": self.normalisation,
+            **({"computed_unresolved": self.computed_reason} if self.computed_reason else {}),
+            **({"measured_unresolved": self.measured_reason} if self.measured_reason else {}),
         }
 
 
 def compare_spectra(energy_ev, power, measured: MeasuredSpectrum, omega0_ev: float, ip_ev: float, *,
-                    resolution_fwhm_ev: float = 0.0, response=None, drop: float = 1.5) -> Comparison:
+                    resolution_fwhm_ev: float = 0.0, response=None, drop: float = 1.5, floor_power=None) -> Comparison:
     """Broaden, weight and normalise a computed spectrum against a measured one.
 
     Parameters
@@ -183,15 +198,23 @@ def compare_spectra(energy_ev, power, measured: MeasuredSpectrum, omega0_ev: flo
         Response curve (x in eV, relative response), applied to the computed spectrum.
     drop : float
         Decades below the plateau that mark the cutoff (:func:`tdse1d.spectra.read_cutoff`).
+    floor_power : array_like, optional
+        A companion floor of the computed spectrum on its grid (e.g. the driving
+        field's spectrum through the same window, :func:`computed_spectrum`).
 
     Returns
     -------
     Comparison
     """
     e = np.asarray(energy_ev, float)
+    # the floor of the whole computed axis (far beyond the measured range), then
+    # through the same broadening as the spectrum
+    floor = 10.0 ** noise_floor(e, np.asarray(power, float), companion=floor_power)
     p = gaussian_broaden(e, power, resolution_fwhm_ev)
+    floor = gaussian_broaden(e, floor, resolution_fwhm_ev)
     if response is not None:
-        p = p * np.interp(e, response.energy_ev, response.signal, left=0.0, right=0.0)
+        weight = np.interp(e, response.energy_ev, response.signal, left=0.0, right=0.0)
+        p, floor = p * weight, floor * weight
     lo, hi = measured.energy_ev[0], measured.energy_ev[-1]
     inside = (e >= lo) & (e <= hi)
     if inside.sum() < 4:
@@ -200,19 +223,24 @@ def compare_spectra(energy_ev, power, measured: MeasuredSpectrum, omega0_ev: flo
     m = np.maximum(measured.signal, 0.0)
     if not p_in.max() > 0 or not m.max() > 0:
         raise ValueError("a spectrum is zero everywhere in the measured range")
+    floor_in = floor[inside] / p_in.max()
     p_in, m = p_in / p_in.max(), m / m.max()
     # the plateau region of read_cutoff starts at Ip + 2 omega0, or at the data if higher
     omega0, ip = omega0_ev / HARTREE_EV, ip_ev / HARTREE_EV
 
-    def cutoff(x_ev, y):
+    def cutoff(x_ev, y, noise):
         start = max(0.0, (x_ev[0] / HARTREE_EV - ip) / omega0)
         start_orders = max(2.0, start)
-        return read_cutoff(x_ev / HARTREE_EV, y, omega0, ip, start_orders=start_orders, drop=drop).frequency * HARTREE_EV
+        est = read_cutoff(x_ev / HARTREE_EV, y, omega0, ip, start_orders=start_orders, drop=drop, noise=noise)
+        return est.frequency * HARTREE_EV, est.reason if not math.isfinite(est.frequency) else ""
 
+    computed_cut, computed_why = cutoff(e_in, p_in, floor_in)
+    measured_cut, measured_why = cutoff(measured.energy_ev, m, None)
     return Comparison(
         energy_ev=e_in, computed=p_in, measured_energy_ev=measured.energy_ev, measured=m,
-        cutoff_computed_ev=float(cutoff(e_in, p_in)), cutoff_measured_ev=float(cutoff(measured.energy_ev, m)),
-        resolution_fwhm_ev=float(resolution_fwhm_ev or 0.0),
+        cutoff_computed_ev=float(computed_cut), cutoff_measured_ev=float(measured_cut),
+        resolution_fwhm_ev=float(resolution_fwhm_ev or 0.0), computed_reason=computed_why,
+        measured_reason=measured_why,
     )
 
 
@@ -254,6 +282,28 @@ def computed_spectrum(path, point: int | None = None, average: str | None = None
         w = f["spectra/harmonic/frequency"][()]
         return (w * HARTREE_EV, f["spectra/harmonic/power"][()], float(est["photon_energy"]) * HARTREE_EV,
                 float(est["ionization_potential"]) * HARTREE_EV, "computed")
+
+
+def computed_floor(path, point: int | None = None, average: str | None = None):
+    """The companion floor of :func:`computed_spectrum`'s spectrum, or None.
+
+    For a run result: the spectrum of the stored driving field E(t) through the
+    run's window, on the harmonic frequency axis (the floor of the acceleration
+    spectrum, :func:`tdse1d.spectra.noise_floor`). A scan summary holds no field, so
+    its spectra get the flat floor only (None).
+    """
+    import h5py
+
+    from .spectra import harmonic_spectrum
+
+    with h5py.File(path, "r") as f:
+        if f.attrs.get("kind", "") == "scan-summary" or "field/electric" not in f:
+            return None
+        omega0 = float(f["estimates"].attrs["photon_energy"])
+        window = str(f["spectra/harmonic"].attrs.get("window", "hann"))
+        floor = harmonic_spectrum(f["field/time"][()], f["field/electric"][()], omega0, window=window)
+        w = f["spectra/harmonic/frequency"][()]
+    return np.interp(w, floor.frequency, floor.power)
 
 
 def plot_comparison(comparison: Comparison, path, label="computed"):

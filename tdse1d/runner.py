@@ -327,7 +327,11 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     cutoff = None
     if problem.field.pulses and problem.ionization_potential > 0:
         try:
-            cutoff = spectra.read_cutoff(harmonic.frequency, harmonic.power, omega0, problem.ionization_potential)
+            # the field's own spectrum through the same window is the floor of the
+            # acceleration spectrum (spectra.noise_floor): no cutoff is read in it
+            leakage = spectra.harmonic_spectrum(times, obs.electric, omega0, window=cfg.spectra.window).power
+            cutoff = spectra.read_cutoff(harmonic.frequency, harmonic.power, omega0, problem.ionization_potential,
+                                         noise=leakage)
         except ValueError:
             cutoff = None
 

@@ -53,6 +53,9 @@ __all__ = [
     "dipole_forms",
     "CutoffEstimate",
     "read_cutoff",
+    "noise_floor",
+    "unresolved_reason",
+    "NOISE_MARGIN",
     "default_gabor_width",
     "gabor_transform",
     "project_out_bound",
@@ -377,7 +380,17 @@ class CutoffEstimate:
         The smoothed log10(power) on the input frequency axis (for plotting).
     resolved : bool
         False when the spectrum has not fallen by ``drop`` decades before the end of
-        the searched range, i.e. the cutoff lies at or beyond the end of the data.
+        the searched range (the cutoff lies at or beyond the end of the data), or when
+        the reading level stands less than the noise margin above the noise floor.
+    noise_floor_log10 : float
+        log10 of the noise floor at the reading (NaN if no floor was estimated).
+    headroom : float
+        Decades by which the reading level ``plateau_log10 - drop`` stands above the
+        noise floor at the reading.
+    reason : str
+        Empty for a resolved cutoff; otherwise why it is not, e.g.
+        ``"unresolved (within 0.3 decades of the noise floor)"``. ``frequency`` and
+        ``order`` are NaN when the reading is within the noise margin.
     """
 
     frequency: float
@@ -386,6 +399,89 @@ class CutoffEstimate:
     plateau_start: float
     smoothed_log10: np.ndarray
     resolved: bool
+    noise_floor_log10: float = math.nan
+    headroom: float = math.nan
+    reason: str = ""
+
+
+#: decades above the noise floor a reading level must stand for the reading to count.
+#: The smoothed log-spectrum of pure noise scatters by about 0.56 / sqrt(n) decades
+#: (std of log10 of an exponentially distributed power, pi / (sqrt(6) ln 10), over n
+#: independent samples in the smoothing window, n >= 8 for the windows used here), so
+#: one decade is more than five standard deviations of the noise.
+NOISE_MARGIN = 1.0
+#: the flat part of the floor is the median over the axis above this fraction of its end
+NOISE_FROM = 0.5
+
+
+def noise_floor(axis, values, *, companion=None, half_width=None) -> np.ndarray:
+    """Numerical noise floor of a spectrum, log10, on its own axis.
+
+    Two parts, the larger one counts at each point:
+
+    * flat: the median of log10(values) over the top half of the axis. Far beyond
+      any physical feature a computed spectrum holds only numerical noise (round-off
+      of the dipole acceleration, the split-operator and projection error of a
+      photoelectron spectrum); a run's harmonic spectrum reaches the Nyquist frequency
+      pi / dt (60 hartree at dt = 0.05 a.u.) and its photoelectron spectrum
+      (pi / dx)^2 / 2, both far above any cutoff. The median ignores a few lines that
+      reach into the top half.
+    * companion: a spectrum of the same signal path with no emission in it, given by
+      the caller on the same axis, smoothed like the spectrum (running mean of its
+      log10 over ``half_width``). For a harmonic spectrum this is the spectrum of the
+      driving field E(t) through the same window: the Ehrenfest acceleration holds
+      the term -E(t) N(t), and far above the bound-state resonances the linear
+      response of any bound electron tends to the free one, -E(t) (Thomas-Reiche-Kuhn
+      sum rule), so a run at vanishing intensity gives exactly this spectrum there
+      (checked in the tests). It is the leakage of the fundamental line through the
+      pulse envelope and the window, which falls as a power of the frequency and is
+      far above round-off.
+
+    Parameters
+    ----------
+    axis : array_like, shape (n,)
+        Increasing abscissae (photon or kinetic energy).
+    values : array_like, shape (n,)
+        Spectral density (any unit); non-positive or non-finite values are skipped.
+    companion : array_like, shape (n,), optional
+        Floor spectrum on the same axis, same unit as ``values``.
+    half_width : float, optional
+        Half width of the running mean of log10(companion) (unit of ``axis``); none
+        if not given.
+
+    Returns
+    -------
+    ndarray, shape (n,)
+        log10 of the floor.
+    """
+    x = np.asarray(axis, dtype=float)
+    y = np.asarray(values, dtype=float)
+    if x.ndim != 1 or x.shape != y.shape:
+        raise ValueError(f"axis and values must be 1-D of equal length, got {x.shape} and {y.shape}")
+    keep = (x >= NOISE_FROM * x[-1]) & np.isfinite(y) & (y > 0)
+    if keep.sum() < 4:
+        raise ValueError("fewer than 4 positive samples in the top half of the axis: no noise floor can be estimated")
+    floor = np.full(x.shape, float(np.median(np.log10(y[keep]))))
+    if companion is not None:
+        c = np.asarray(companion, dtype=float)
+        if c.shape != x.shape:
+            raise ValueError(f"companion must have the shape of the axis {x.shape}, got {c.shape}")
+        log_c = np.log10(np.maximum(np.nan_to_num(c), 1e-300))
+        if half_width:
+            log_c = running_mean(x, log_c, float(half_width))
+        floor = np.maximum(floor, log_c)
+    return floor
+
+
+def unresolved_reason(headroom: float) -> str:
+    """The words a reading within the noise margin is reported with.
+
+    Parameters
+    ----------
+    headroom : float
+        Decades by which the reading level stands above the noise floor (may be < 0).
+    """
+    return f"unresolved (within {max(headroom, 0.0):.1f} decades of the noise floor)"
 
 
 def running_mean(axis, values, half_width):
@@ -408,6 +504,8 @@ def read_cutoff(
     max_frequency=None,
     floor_decades=30.0,
     max_iterations=20,
+    noise=None,
+    noise_margin=NOISE_MARGIN,
 ) -> CutoffEstimate:
     """Read the plateau cutoff off a harmonic spectrum.
 
@@ -426,6 +524,12 @@ def read_cutoff(
        ``S(w) >= P - drop``, so S stays below ``P - drop`` everywhere above it; then
        ``P`` = median of S over ``[w_start, w_c]``. Stop when ``w_c`` repeats a
        previous value (at most ``max_iterations`` times).
+
+    4. Noise: the reading level ``P - drop`` must stand at least ``noise_margin``
+       decades above the noise floor at ``w_c`` (:func:`noise_floor` of the input and
+       of the companion ``noise`` if given); otherwise the cutoff is
+       unresolved, ``frequency`` is NaN and ``reason`` says so. A plateau must thus
+       stand ``drop + noise_margin`` decades (2.5 by default) above the floor.
 
     Because only the *last* crossing counts, dips of the plateau deeper than ``drop``
     (interference minima) do not end it. For a plateau that ends at order ``q_k`` in
@@ -456,6 +560,13 @@ def read_cutoff(
         before the logarithm (zeros would give -inf).
     max_iterations : int
         Cap on the fixed-point iteration of step 3.
+    noise : array_like or False, optional
+        A floor spectrum on the same axis (same unit as ``power``), e.g. the spectrum
+        of the driving field through the same window; it is combined with the flat
+        floor of the input by :func:`noise_floor`. Default: the flat floor alone;
+        ``False`` skips step 4.
+    noise_margin : float
+        Decades (step 4). Default :data:`NOISE_MARGIN`.
 
     Returns
     -------
@@ -503,6 +614,14 @@ def read_cutoff(
         level = float(np.median(s_region[: last + 1]))
     cutoff = float(w[region[last]])
     resolved = bool(w[region[-1]] - cutoff > smooth_orders * omega0)
+    reason = "" if resolved else "at or beyond the end of the data"
+    floor_at = headroom = math.nan
+    if noise is not False:
+        floor = noise_floor(w, pw, companion=noise, half_width=smooth_orders * omega0)
+        floor_at = float(floor[region[last]])
+        headroom = level - drop - floor_at
+        if not headroom >= noise_margin:
+            resolved, reason, cutoff = False, unresolved_reason(headroom), math.nan
     return CutoffEstimate(
         frequency=cutoff,
         order=cutoff / omega0,
@@ -510,6 +629,9 @@ def read_cutoff(
         plateau_start=float(w[region[0]]),
         smoothed_log10=smoothed,
         resolved=resolved,
+        noise_floor_log10=floor_at,
+        headroom=headroom,
+        reason=reason,
     )
 
 

@@ -353,45 +353,70 @@ class _ScanKind(CaseKind):
 class CutoffLaw(_ScanKind):
     """Harmonic cutoff read off each spectrum against Up: fitted slope and intercept.
 
-    Rows: the slope of cutoff energy versus Up (reference 3.17, relative tolerance) and
-    the intercept, which must lie between Ip and 1.6 Ip (the 1.32 Ip of Lewenstein et
-    al. 1994 lies inside).
+    Bands, from the reading rule and the model (set before the run):
+
+    * reference slope: the three-step model's largest return energy over Up for this
+      pulse shape (3.17 for a long pulse; Krause, Schafer and Kulander 1992), the same
+      at every point of a scan at fixed shape in cycles;
+    * each reading is uncertain by +-omega0 (the rule smooths over one harmonic order
+      on each side), a uniform error of standard deviation omega0 / sqrt(3); the
+      least-squares slope and intercept inherit sigma_slope and sigma_intercept; the
+      slope must lie within 2 sigma_slope of the reference (two-sided, about 95 %);
+    * intercept: between Ip (three-step model) and 1.32 Ip (Lewenstein et al. 1994)
+      plus the rule's documented bias, at most two orders beyond the knee
+      (:func:`tdse1d.spectra.read_cutoff`), each end widened by 2 sigma_intercept.
     """
 
     def run(self):
-        ups, cuts, ips, labels = [], [], [], []
+        from .analysis import analyse_run
+
+        ups, cuts, ips, omegas, ratios, labels = [], [], [], [], [], []
         for value, out in self.points():
             est = out.problem.pulse_estimates[0]
             if out.result.cutoff is None or not out.result.cutoff.resolved:
-                self.notes.append(f"{value}: cutoff not resolved")
+                reason = out.result.cutoff.reason if out.result.cutoff is not None else "not read"
+                self.notes.append(f"{value}: cutoff not resolved ({reason or 'at the end of the data'})")
                 continue
+            three = analyse_run(out.problem, out.result).three_step
             ups.append(est.ponderomotive_energy)
             cuts.append(out.result.cutoff.frequency)
             ips.append(est.ionization_potential)
+            omegas.append(est.photon_energy)
+            ratios.append(three.max_return_energy / est.ponderomotive_energy if three is not None else 3.17)
             labels.append(str(value))
         if len(ups) < 3:
             return [self.row(math.nan, quantity="slope of cutoff vs Up", reference=3.17, relative=True)]
         slope, intercept = _linear_fit(ups, cuts)
+        x = np.asarray(ups)
+        sigma_read = np.asarray(omegas) / math.sqrt(3.0)
+        sxx = float(np.sum((x - x.mean()) ** 2))
+        sigma_slope = float(np.sqrt(np.sum((x - x.mean()) ** 2 * sigma_read**2)) / sxx)
+        sigma_intercept = float(np.sqrt(np.sum(sigma_read**2 * (1 / x.size - x.mean() * (x - x.mean()) / sxx) ** 2)))
+        reference = float(np.mean(ratios))
         ip = float(np.mean(ips))
+        w_max = float(np.max(omegas))
+        low, high = ip - 2 * sigma_intercept, 1.32 * ip + 2 * w_max + 2 * sigma_intercept
         ev = units.HARTREE_EV
         plt = _plt()
         fig, ax = plt.subplots(figsize=(5, 3.6))
         ax.plot(np.array(ups) * ev, np.array(cuts) * ev, "o", label="read off the spectra")
         u = np.linspace(0, max(ups) * 1.1, 50)
         ax.plot(u * ev, (intercept + slope * u) * ev, "-", label=f"fit: {intercept / ip:.2f} Ip + {slope:.2f} Up")
-        ax.plot(u * ev, (ip + 3.17 * u) * ev, "--", label="Ip + 3.17 Up")
+        ax.plot(u * ev, (ip + reference * u) * ev, "--", label=f"Ip + {reference:.2f} Up (three-step, this pulse)")
         ax.set_xlabel("Up (eV)")
         ax.set_ylabel("cutoff photon energy (eV)")
         ax.legend(fontsize=8)
         ax.set_title(self.case.title, fontsize=9)
         self.figure(fig, "cutoff")
-        inside = ip <= intercept <= 1.6 * ip
+        self.notes.append(f"reading uncertainty +-omega0 per point: sigma_slope = {sigma_slope:.3f}, "
+                          f"sigma_intercept = {sigma_intercept * ev:.2f} eV")
         return [
-            self.row(slope, quantity="slope of cutoff energy vs Up", reference=3.17, tolerance=0.10, relative=True,
-                     units="1"),
-            self.row(intercept / ip, quantity="intercept / Ip (reference: 1.32, Lewenstein et al.)", reference=1.32,
-                     tolerance=0.3, units="1",
-                     rule="must lie in [1, 1.6]", passed=inside),
+            self.row(slope, quantity="slope of cutoff energy vs Up (reference: three-step model, this pulse shape)",
+                     reference=reference, tolerance=2 * sigma_slope, units="1",
+                     rule=f"within 2 sigma = {2 * sigma_slope:.3f} of the reading rule"),
+            self.row(intercept / ip, quantity="intercept / Ip", reference=1.32, tolerance=math.nan, units="1",
+                     rule=f"must lie in [{low / ip:.3f}, {high / ip:.3f}]: Ip .. 1.32 Ip + 2 omega0, +-2 sigma",
+                     passed=bool(low <= intercept <= high)),
         ]
 
 
@@ -422,50 +447,63 @@ class PhotoelectricPeak(CaseKind):
 
 
 @register_case_kind("photoelectron_edges")
-class PhotoelectronEdges(CaseKind):
-    """Edges of the direct (2 Up) and backscattered (10 Up) photoelectrons.
+class PhotoelectronEdges(_ScanKind):
+    """The photoelectron edges scale with Up: a law instead of one fitted band.
 
-    Read off the run's photoelectron energy spectrum by the rule ``tdse1d report`` uses
-    (:func:`tdse1d.analysis.photoelectron_edges`, docs/analysis.md): the direct edge is
-    the knee where the direct electrons' distribution starts its steep fall, the
-    backscattered edge the end of the plateau. Tolerances are relative.
+    The edges are read off each run's photoelectron spectrum by the rule ``tdse1d
+    report`` uses (:func:`tdse1d.analysis.photoelectron_edges`). No source gives where
+    that rule's reading lies relative to the classical 2 Up and 10 Up for a finite
+    pulse, so the single values are reported, not checked. Checked is the law: for a
+    fixed pulse shape every classical drift energy is proportional to Up (the simple-man
+    model has no other energy scale), so each edge in units of the three-step model's
+    edge for the same pulse must be the same at every intensity of the scan. Band, set
+    before the run: each reading is made on a spectrum smoothed over one ATI spacing,
+    uncertain by hbar w / 2, so two readings differ by at most
+    ``hbar w / 2 * (1 / E_1 + 1 / E_2)`` in units of their classical edges E_1, E_2.
+    An edge within the noise margin of the floor is "unresolved" and fails.
     """
 
     def run(self):
         from .analysis import analyse_run
 
-        out = self.runner.run(self.case.input())
-        spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
-        up = out.problem.pulse_estimates[0].ponderomotive_energy
-        edges = analyse_run(out.problem, out.result).edges
-        if edges is None:
-            raise ValueError("no photoelectron edges could be read off the spectrum")
-        direct_edge, back_edge = edges.direct / up, edges.backscattered / up
-        keep = spec.energy > 0
-        e = spec.energy[keep] / up
-        log = np.log10(np.maximum(np.nan_to_num(spec.energy_density[keep]), 1e-300))
-        tol = self.case.get("tolerance")
+        values, readings = [], []
+        for value, out in self.points():
+            a = analyse_run(out.problem, out.result)
+            if a.edges is None or a.three_step is None:
+                raise ValueError(f"{value}: no photoelectron edges could be read off the spectrum")
+            values.append(value)
+            readings.append((a, out))
+        rows = []
         plt = _plt()
         fig, ax = plt.subplots(figsize=(5, 3.4))
-        ax.plot(e, log, lw=0.5, label="log10 dP/dE")
-        for ref in (2, 10):
-            ax.axvline(ref, color="k", ls="--", lw=0.8)
-        for edge in (direct_edge, back_edge):
-            ax.axvline(edge, color="r", ls=":", lw=1.2)
-        top = float(log[(e > 0.5) & (e < 14)].max())
+        for (a, out), value in zip(readings, values):
+            up = a.ponderomotive_energy
+            spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+            keep = spec.energy > 0
+            ax.plot(spec.energy[keep] / up, np.log10(np.maximum(np.nan_to_num(spec.energy_density[keep]), 1e-300)),
+                    lw=0.6, label=str(value))
+            for edge, classical_edge, label in (("direct", "max_direct_energy", "direct"),
+                                                ("backscattered", "max_backscattered_energy", "backscattered")):
+                got, ref = getattr(a.edges, edge), getattr(a.three_step, classical_edge)
+                why = getattr(a.edges, f"{edge}_reason")
+                rows.append(self.row(got / ref, quantity=f"{label} edge / three-step edge at {value}"
+                                     + (f" ({why})" if why else ""), reference=1.0, tolerance=math.nan, units="1",
+                                     rule="reported: no source gives a band", informational=True, passed=True))
         ax.set_xlim(0, 14)
-        ax.set_ylim(top - 8, top + 0.5)
         ax.set_xlabel("photoelectron energy / Up")
         ax.set_ylabel("log10 dP/dE (1/Hartree)")
         ax.legend(fontsize=7)
-        ax.set_title("dashed: 2 Up, 10 Up; dotted: edges found", fontsize=8)
         self.figure(fig, "spectrum")
-        return [
-            self.row(direct_edge, quantity="direct electrons' edge / Up", reference=2.0, units="Up", relative=True,
-                     tolerance=tol),
-            self.row(back_edge, quantity="backscattered electrons' edge / Up", reference=10.0, units="Up",
-                     relative=True, tolerance=tol),
-        ]
+        (a1, _), (a2, _) = readings[0], readings[-1]
+        w = a1.omega0
+        for edge, classical_edge in (("direct", "max_direct_energy"), ("backscattered", "max_backscattered_energy")):
+            c1, c2 = getattr(a1.three_step, classical_edge), getattr(a2.three_step, classical_edge)
+            r1, r2 = getattr(a1.edges, edge) / c1, getattr(a2.edges, edge) / c2
+            band = 0.5 * w * (1 / c1 + 1 / c2)
+            rows.append(self.row(r2, quantity=f"{edge} edge / three-step edge at {values[-1]} against {values[0]}",
+                                 reference=r1, tolerance=band, units="1",
+                                 rule=f"equal within hbar w / 2 (1/E1 + 1/E2) = {band:.3f}"))
+        return rows
 
 
 @register_case_kind("streaking")
@@ -523,9 +561,11 @@ class EmissionTimesCase(CaseKind):
     For each half cycle and plateau photon energy, the time of the Gabor maximum of the
     dipole acceleration (:func:`tdse1d.analysis.emission_times`) beside the classical
     short- and long-trajectory return times of the three-step model for the same field.
-    Checked: the median distance to the nearer branch (the trajectories the quantum
-    emission follows). Reported beside it: the median distance to the short branch,
-    and which branch dominates.
+    Checked: the one-sided significance of the correlation of the quantum times with
+    the long branch within each central half cycle (:func:`tdse1d.analysis.branch_correlation`),
+    a statistic that white-noise and time-shuffled maps fail. Reported beside it: how
+    often the times lie within 0.1 cycle of each branch against chance
+    (:func:`tdse1d.analysis.branch_agreement`).
     """
 
     def run(self):
@@ -558,39 +598,72 @@ class EmissionTimesCase(CaseKind):
         ax.set_ylabel("photon energy (eV)")
         ax.legend(fontsize=8)
         self.figure(fig, "emission_times")
+        from .analysis import branch_agreement, branch_correlation
+
+        # set before the run: one-sided p < tolerance (0.01) for the correlation with the
+        # long branch; white-noise and time-shuffled maps score p > 0.06
+        # (tests/test_analysis.py keeps them); the binomial hit counts are reported
+        resolution = 1.0 / analyse_run(out.problem, out.result).time_frequency.width
         tol = float(self.case.get("tolerance"))
-        return [
-            self.row(float(np.median(nearer)), quantity="emission time, distance to the nearer classical branch",
-                     reference=0.0, units="cycles"),
-            self.row(float(np.median(np.abs(em.deviation_cycles("short")))),
-                     quantity="emission time, distance to the short branch", reference=0.0, tolerance=tol,
-                     units="cycles", informational=True, passed=True),
-        ]
+        corr = branch_correlation(em, "long", frequency_resolution=resolution)
+        rows = [self.row(corr.p_value, quantity="emission time vs photon energy follows the long branch: one-sided p "
+                         f"of Pearson r = {corr.correlation:.2f} over {corr.samples} independent samples",
+                         reference=0.0, tolerance=tol, units="1", rule="p below the tolerance")]
+        for branch in ("long", "short"):
+            agreement = branch_agreement(em, branch, frequency_resolution=resolution)
+            rows.append(self.row(agreement.p_value, quantity=f"{branch} branch: {agreement.hits} of {agreement.samples} "
+                                 f"samples within 0.1 cycle ({100 * agreement.chance:.0f}% by chance), binomial p",
+                                 reference=0.0, tolerance=tol, units="1", informational=True, passed=True))
+        return rows
 
 
 @register_case_kind("gauge_invariance")
 class GaugeInvariance(CaseKind):
-    """The same run in the length and velocity gauges: ionization and harmonic plateau.
+    """The same run in the length and velocity gauges: their difference vanishes as dt^p.
 
-    Rows: relative difference of the ionization probability, and the RMS difference
-    (decades) of the harmonic spectra smoothed over one order in the plateau.
+    The exact TDSE is gauge invariant; the split-operator propagator of order p is not
+    exactly, each gauge carrying its own splitting error C_g dt^p. So the difference
+    of the two gauges' results must fall as dt^p: halving the time step divides it by
+    2^p. Checked: the observed order log2(d(dt) / d(dt/2)) of the relative difference of
+    the ionization probability and of the plateau RMS difference, against the
+    scheme's order p. Band, set before the run: the next term of the error changes the
+    ratio by a relative amount of order (dt E)^2, E the top of the plateau compared
+    (Ip + 2.5 Up, about 2 hartree, so 1 % at dt = 0.05 a.u.); 0.1 in the order allows
+    ten times that. The differences themselves are reported; the former bands (2 % and
+    0.1 decade) were four orders of magnitude above them.
     """
 
     def run(self):
-        length = self.runner.run(self.case.input(overrides=['propagation.gauge="length"']))
-        velocity = self.runner.run(self.case.input(overrides=['propagation.gauge="velocity"']))
-        p_l, p_v = length.result.ionization_probability, velocity.result.ionization_probability
+        def pair(extra):
+            length = self.runner.run(self.case.input(overrides=['propagation.gauge="length"', *extra]))
+            velocity = self.runner.run(self.case.input(overrides=['propagation.gauge="velocity"', *extra]))
+            return length, velocity
+
+        length, velocity = pair(())
+        dt = length.problem.time.step
+        order = int(length.problem.config.propagation.order)
+        length_h, velocity_h = pair([f"propagation.time_step={dt / 2!r}"])
         omega0 = length.problem.field.omega
         band = _plateau_band(length.problem)
-        rms = _plateau_rms(length.result.harmonic, velocity.result.harmonic, band, omega0)
+
+        def differences(a, b):
+            p_a, p_b = a.result.ionization_probability, b.result.ionization_probability
+            return abs(p_b - p_a) / p_a, _plateau_rms(a.result.harmonic, b.result.harmonic, band, omega0)
+
+        (ion, rms), (ion_h, rms_h) = differences(length, velocity), differences(length_h, velocity_h)
         _spectra_figure(self, {"length": length.result.harmonic, "velocity": velocity.result.harmonic}, omega0, band)
-        return [
-            self.row(p_v, quantity="ionization probability, velocity gauge (reference: length gauge)",
-                     reference=p_l, tolerance=float(self.case.get("params.ionization_tolerance")), relative=True,
-                     units="1"),
-            self.row(rms, quantity="plateau RMS difference of log10 spectra", reference=0.0,
-                     tolerance=float(self.case.get("params.plateau_tolerance")), units="decades"),
+        tol = float(self.case.get("params.order_tolerance"))
+        rows = [
+            self.row(ion, quantity=f"ionization probability, abs(velocity - length) / length at dt = {dt:.4g}",
+                     reference=0.0, tolerance=math.nan, units="1", rule="reported", informational=True, passed=True),
+            self.row(rms, quantity=f"plateau RMS difference of log10 spectra at dt = {dt:.4g}", reference=0.0,
+                     tolerance=math.nan, units="decades", rule="reported", informational=True, passed=True),
         ]
+        for name, d, d_h in (("ionization probability", ion, ion_h), ("harmonic plateau", rms, rms_h)):
+            observed = math.log2(d / d_h) if d > 0 and d_h > 0 else math.nan
+            rows.append(self.row(observed, quantity=f"order of the gauge difference in dt, {name}", reference=order,
+                                 tolerance=tol, units="1"))
+        return rows
 
 
 def _spectra_figure(kind, spectra_by_name, omega0, band):

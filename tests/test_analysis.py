@@ -141,43 +141,155 @@ def test_streaking_shift_is_the_vector_potential(streaking):
     assert abs(st["photoelectric_energy"] - (omega - ip)) < 0.5 * width
 
 
-def test_photoelectron_edges_of_an_infrared_run(infrared):
-    # classical edges for this pulse: direct electrons below max(A^2)/2 ~ 2 Up,
-    # backscattered ones below ~ 10 Up (Paulus et al. 1994)
-    outcome, a = infrared
-    edges, s = a.edges, a.three_step
-    assert a.streaking is None and edges is not None
-    # The backscattered plateau ends near the classical backscattered cutoff. Read
-    # 1.5 decades down, its soft quantum end lies beyond the classical edge: we find
-    # +12 % for a 10-cycle 800 nm argon run and +22 % for this 4-cycle run, so the
-    # check allows 25 %.
-    assert s.max_backscattered_energy < edges.backscattered < 1.25 * s.max_backscattered_energy
-    # The direct edge (knee of the direct distribution) lies near the classical
-    # direct edge: we find 0.7-1.7 times it over the examples and this run.
-    assert 0.8 * s.max_direct_energy < edges.direct < 1.8 * s.max_direct_energy
-    assert edges.direct < 0.5 * edges.backscattered
-    # the plateau is several decades below the direct peak and above the noise
-    assert 1.0 < edges.peak_log10 - edges.plateau_log10 < 8.0
+@pytest.fixture(scope="module")
+def infrared_weaker(tmp_path_factory):
+    """The infrared run at 1.0e14 W/cm^2: Up smaller by a factor 1.4, same pulse shape."""
+    text = HYDROGEN + IR.format(intensity="1.0e14 W/cm^2", cycles=4) + _grid(768, 0.25, 30.0, "0.5 fs", 0.05)
+    outcome = _run(tmp_path_factory, "infrared_weaker", text)
+    with h5py.File(outcome.path) as f:
+        return outcome, analysis.analyse_file(f)
 
 
-def test_emission_times_follow_the_classical_branches(infrared):
-    # three-step model (Corkum 1993) against the Gabor map of the quantum acceleration.
-    # In this 1-D model the dominant emission in the plateau follows the LONG branch,
-    # not the short one (no macroscopic phase matching selects the short one here);
-    # we assert that the quantum time agrees with the nearer classical branch to
-    # 0.1 cycles, the Gabor window's time resolution (sigma = T/10), in the central
-    # half cycles, and print which branch dominates.
+@pytest.fixture(scope="module")
+def infrared_vanishing(tmp_path_factory):
+    """The infrared run at 1e6 W/cm^2: nothing but the numerical floor above the linear response."""
+    text = HYDROGEN + IR.format(intensity="1e6 W/cm^2", cycles=4) + _grid(768, 0.25, 30.0, "0.5 fs", 0.05)
+    outcome = _run(tmp_path_factory, "infrared_vanishing", text)
+    with h5py.File(outcome.path) as f:
+        return outcome, analysis.analyse_file(f)
+
+
+@pytest.mark.xfail(strict=True, reason="measured: the backscattered edge reads 1.195 of its classical value at "
+                                       "1.4e14 W/cm^2 and 1.317 at 1.0e14 (difference 0.12 against a band of 0.024): "
+                                       "the quantum tail beyond the classical edge does not scale with Up")
+def test_edges_scale_with_up_at_fixed_pulse_shape(infrared, infrared_weaker):
+    # Law, not a number: for a fixed pulse shape every classical drift energy scales
+    # exactly with Up (the three-step model has no other energy scale; Paulus et al.
+    # 1994), so an edge in units of its classical value must not depend on the
+    # intensity. Band, set before the run: each edge is read on an axis smoothed over
+    # one ATI spacing hbar*w, so each reading is uncertain by hbar*w / 2; the two
+    # readings together by hbar*w / 2 * (1 / E_1 + 1 / E_2) relative.
+    (_, strong), (_, weak) = infrared, infrared_weaker
+    w = strong.omega0
+    for edge, classical_edge in (("backscattered", "max_backscattered_energy"), ("direct", "max_direct_energy")):
+        e1, e2 = getattr(strong.edges, edge), getattr(weak.edges, edge)
+        c1, c2 = getattr(strong.three_step, classical_edge), getattr(weak.three_step, classical_edge)
+        assert math.isfinite(e1) and math.isfinite(e2), edge
+        band = 0.5 * w * (1 / c1 + 1 / c2)
+        print(f"{edge}: {e1 / c1:.3f} and {e2 / c2:.3f} of the classical edge, band {band:.3f}")
+        assert abs(e1 / c1 - e2 / c2) <= band, edge
+    # one-sided, from the rule itself: the backscattered edge is read where the spectrum
+    # has fallen 1.5 decades below the plateau, which the classical plateau reaches only
+    # at its end, so the reading lies at or beyond the classical edge (minus half an ATI spacing)
+    assert strong.edges.backscattered >= strong.three_step.max_backscattered_energy - 0.5 * w
+
+
+def test_readings_at_vanishing_intensity_are_unresolved(infrared, infrared_vanishing):
+    # at 1e6 W/cm^2 nothing above the linear response is emitted: the harmonic cutoff and
+    # both photoelectron edges must be reported as unresolved, never as numbers
+    _, weak = infrared_vanishing
+    assert math.isnan(weak.harmonic_cutoff) and weak.cutoff.reason.startswith("unresolved")
+    e = weak.edges
+    assert e is None or (math.isnan(e.direct) and math.isnan(e.backscattered)
+                         and e.direct_reason.startswith("unresolved") and e.backscattered_reason.startswith("unresolved"))
+    # the same case at 1.4e14 W/cm^2 reads all three, more than the margin above the floor
+    _, strong = infrared
+    assert strong.cutoff.resolved and strong.cutoff.headroom >= 1.0
+    assert math.isfinite(strong.edges.direct) and math.isfinite(strong.edges.backscattered)
+
+
+def test_the_vanishing_intensity_spectrum_is_the_field_companion(infrared_vanishing):
+    # the companion floor of the harmonic spectrum: far above the bound-state resonances
+    # the linear response of the bound electron tends to the free one, a = -E(t)
+    # (Thomas-Reiche-Kuhn sum rule), so a run at vanishing intensity gives the field's own
+    # spectrum there; 0.1 decade allows for the remaining bound-state dispersion
+    outcome, weak = infrared_vanishing
+    with h5py.File(outcome.path) as f:
+        w = f["spectra/harmonic/frequency"][()]
+        p = f["spectra/harmonic/power"][()]
+        floor = f["spectra/harmonic/noise_floor_log10"][()]
+        assert f["spectra/harmonic/noise_floor_log10"].attrs["units"] == "log10(atomic_units)"
+        assert f["spectra/photoelectron/edges/noise_floor_log10"].attrs["units"] == "log10(1/hartree)"
+    from tdse1d.spectra import running_mean
+
+    smoothed = running_mean(w, np.log10(p), weak.omega0)
+    far = w >= 2.0  # hartree: four times Ip
+    assert np.median(np.abs(smoothed[far] - floor[far])) < 0.1
+
+
+def test_field_free_companion_is_the_vanishing_intensity_spectrum(infrared_vanishing):
+    # the photoelectron floor (analysis.field_free_floor: one optical period with no field)
+    # against the plane-wave spectrum of the whole run at 1e6 W/cm^2, where nothing is
+    # ionized physically (a 14-photon process at ~1e-130): the same numbers wherever the
+    # floor is defined, above one photon energy; 0.3 decade allows for the dephasing not
+    # complete after one period (stated before the run)
+    outcome, weak = infrared_vanishing
+    spec = analysis.field_free_floor(outcome.problem)
+    with h5py.File(outcome.path) as f:
+        g = f["spectra/photoelectron/plane_wave"]
+        e = g["energy"][()]
+        run = g["energy_density_left"][()] + g["energy_density_right"][()]
+    chosen = (e >= weak.omega0) & (e <= 0.5 * e[-1]) & (run > 0) & (spec.energy_density > 0)
+    assert chosen.sum() > 20
+    difference = np.log10(run[chosen]) - np.log10(spec.energy_density[chosen])
+    assert np.median(np.abs(difference)) < 0.3
+
+
+def _emission_null_maps(a, seeds=(0, 1, 2)):
+    from dataclasses import replace
+
+    tf = a.time_frequency
+    for seed in seeds:
+        rng = np.random.default_rng(seed)
+        yield f"noise {seed}", replace(tf, power=rng.exponential(size=tf.power.shape))
+        yield f"time-shuffled {seed}", replace(tf, power=tf.power[rng.permutation(tf.time.size)])
+
+
+#: significance a map must reach to count as following a branch (chosen before the run)
+EMISSION_P = 0.01
+
+
+def test_emission_time_statistic_fails_on_null_maps(infrared):
+    # a map without emission in it (white noise, or the real map with its time rows
+    # shuffled) must not pass: its maxima hit the branch band only by chance
     outcome, a = infrared
-    em = a.emission
-    assert em is not None and em.frequency.size > 20
-    labels, counts = np.unique(em.half_cycle, return_counts=True)
-    central = np.isin(em.half_cycle, labels[counts >= 0.5 * counts.max()])
-    nearest = np.minimum(np.abs(em.deviation_cycles("short")), np.abs(em.deviation_cycles("long")))[central]
-    assert np.median(nearest) < 0.1
-    share_short = np.mean(em.dominant_branch()[central] == "short")
-    print(f"share of plateau points nearer the short branch: {share_short:.2f}; "
-          f"median deviation from short {np.median(em.deviation_cycles('short')[central]):+.3f} cycles, "
-          f"from long {np.median(em.deviation_cycles('long')[central]):+.3f} cycles")
+    resolution = 1.0 / a.time_frequency.width
+    for name, null in _emission_null_maps(a):
+        em = analysis.emission_times(null, a.three_step, a.emission.period)
+        for branch in ("short", "long"):
+            agreement = analysis.branch_agreement(em, branch, frequency_resolution=resolution)
+            assert agreement.p_value > EMISSION_P, (name, branch, agreement)
+
+
+def test_emission_times_move_with_the_long_branch(infrared):
+    # three-step model (Corkum 1993): within a half cycle the long-trajectory emission time
+    # falls with photon energy, the short one rises (the attochirp). The quantum times
+    # (Gabor maxima) must correlate with the long branch at one-sided p < EMISSION_P, and
+    # no null map may (kept below); the short-branch statistic is not used, a null map
+    # can pass it (see analysis.branch_correlation)
+    outcome, a = infrared
+    resolution = 1.0 / a.time_frequency.width
+    real = analysis.branch_correlation(a.emission, "long", frequency_resolution=resolution)
+    print(real)
+    assert real.p_value < EMISSION_P
+    for name, null in _emission_null_maps(a):
+        em = analysis.emission_times(null, a.three_step, a.emission.period)
+        agreement = analysis.branch_correlation(em, "long", frequency_resolution=resolution)
+        assert agreement.p_value > EMISSION_P, (name, agreement)
+
+
+@pytest.mark.xfail(strict=True, reason="measured: on this 4-cycle run the Gabor maxima hit the long branch in "
+                                       "11 of 25 independent samples against 38 % by chance (p = 0.33), the short "
+                                       "one in 7 (p = 0.89): the map does not beat chance")
+def test_emission_times_beat_chance_on_a_classical_branch(infrared):
+    # three-step model (Corkum 1993) against the Gabor map of the quantum acceleration:
+    # the quantum times must lie within 0.1 cycle (the Gabor window's time resolution,
+    # sigma = T/10) of one classical branch significantly more often than chance
+    outcome, a = infrared
+    resolution = 1.0 / a.time_frequency.width
+    results = {b: analysis.branch_agreement(a.emission, b, frequency_resolution=resolution) for b in ("short", "long")}
+    print(results)
+    assert min(r.p_value for r in results.values()) < EMISSION_P
 
 
 def test_time_frequency_map_is_stored_with_units(infrared):

@@ -435,18 +435,27 @@ def test_argon_example_runs(argon):
     assert not path.with_name(path.name + store.PART_SUFFIX).exists()
 
 
+@pytest.mark.xfail(strict=True, reason="measured: the cutoff reads H35.44 against the argued band H28.54 .. H34.79 "
+                                       "(0.65 order beyond; the former upper bound of +5 orders was set after the result)")
 def test_argon_cutoff_between_classical_and_quantum_rules(argon):
-    # Krause, Schafer and Kulander 1992; Corkum 1993: plateau ends near Ip + 3.17 Up;
-    # Lewenstein et al. 1994: 1.32 Ip + 3.17 Up. Bounds from the issue: -2 / +5 harmonics.
+    # The plateau ends at Ip + E_ret (Krause, Schafer and Kulander 1992; Corkum 1993) or
+    # 1.32 Ip + E_ret (Lewenstein et al. 1994), E_ret the largest classical return energy
+    # of this pulse (3.17 Up for a long one; the run stores its own three-step value).
+    # Band from the reading rule (tdse1d.spectra.read_cutoff), set before the run: the
+    # reading may lie one order below the knee (it smooths over +-1 order) and up to two
+    # orders beyond it (its documented bias of drop / slope orders for falls steeper
+    # than about one decade per order).
     _, _, path = argon
     with store.read_result(path) as r:
         est = r.attrs("estimates")
         cutoff = r.attrs("spectra/harmonic")["cutoff_frequency"]
         ground = r["states/energy"][0]
-    ip, up, w = est["ionization_potential"], est["ponderomotive_energy"], est["photon_energy"]
+        e_ret = float(r["classical/max_return_energy"][()])
+    ip, w = est["ionization_potential"], est["photon_energy"]
     assert math.isclose(ip, -ground, rel_tol=1e-12)
     assert math.isclose(ip * HARTREE_EV, 15.76, rel_tol=1e-6)  # the input's Ip, fitted
-    assert ip + 3.17 * up - 2 * w <= cutoff <= 1.32 * ip + 3.17 * up + 5 * w
+    print(f"cutoff H{cutoff / w:.2f}; band H{(ip + e_ret - w) / w:.2f} .. H{(1.32 * ip + e_ret + 2 * w) / w:.2f}")
+    assert ip + e_ret - w <= cutoff <= 1.32 * ip + e_ret + 2 * w
 
 
 CONTRACT = [

@@ -479,3 +479,52 @@ def test_module_has_no_io():
     source = inspect.getsource(spectra)
     for word in ("print(", "open(", "h5py", "np.save", "np.load"):
         assert word not in source
+
+
+# ------------------------------------------------------- noise floor of the cutoff reading
+
+
+def _plateau_with_floor(floor_log10, cutoff_order=41, plateau_log10=-2.0, seed=0):
+    """Odd-harmonic comb with a flat plateau, a fall of 2 decades per order beyond the
+    cutoff, and white noise of known level added on the whole axis."""
+    w = np.arange(1, 4000) * (OMEGA0 / 20)  # 20 samples per order, up to ~200 orders
+    q = w / OMEGA0
+    comb = np.exp(-0.5 * ((q - 2 * np.round((q - 1) / 2) - 1) / 0.15) ** 2)
+    level = plateau_log10 - 2.0 * np.maximum(q - cutoff_order, 0)
+    noise = 10.0**floor_log10 * np.random.default_rng(seed).exponential(size=w.size)
+    return w, 10.0**level * comb + noise
+
+
+def test_cutoff_read_above_a_known_floor_is_resolved():
+    # plateau 10 decades above the floor: the knee (order 41) is read, to within the
+    # documented bias of drop / slope = 0.75 order plus one order of smoothing
+    w, p = _plateau_with_floor(-12.0)
+    est = read_cutoff(w, p, OMEGA0, 0.5)
+    assert est.resolved and est.reason == ""
+    assert abs(est.order - 41.75) <= 1.0
+    # the estimated floor is the known one: median of log10 of exponential noise is
+    # log10(ln 2) = -0.16 decade below its mean
+    assert est.noise_floor_log10 == pytest.approx(-12.0 + math.log10(math.log(2)), abs=0.1)
+
+
+@pytest.mark.parametrize("floor_log10", [-3.0, -1.0])
+def test_cutoff_read_near_or_under_the_floor_is_unresolved(floor_log10):
+    # the floor raised to 1 decade under, or above, the plateau: a 1.5-decade drop
+    # cannot be seen, so no number is given
+    w, p = _plateau_with_floor(floor_log10)
+    est = read_cutoff(w, p, OMEGA0, 0.5)
+    assert not est.resolved
+    assert math.isnan(est.frequency) and math.isnan(est.order)
+    assert est.reason.startswith("unresolved (within") and "noise floor" in est.reason
+
+
+def test_companion_floor_makes_a_reading_in_leakage_unresolved():
+    # a weak plateau sitting on a power-law leakage tail that dominates the far end
+    # less than the plateau: read against the tail itself (the companion), the knee
+    # stands under 1 decade above it, so it is unresolved; 8 decades weaker tail: read
+    w = np.arange(1, 4000) * (OMEGA0 / 20)
+    tail = 1e-6 * (w / OMEGA0) ** -5.0
+    plateau = np.where(w / OMEGA0 < 41, 1e-13, 1e-18)
+    assert read_cutoff(w, plateau + 1e-8 * tail, OMEGA0, 0.5, noise=1e-8 * tail).resolved
+    est = read_cutoff(w, plateau + tail, OMEGA0, 0.5, noise=tail)
+    assert not est.resolved and math.isnan(est.frequency)

@@ -32,8 +32,9 @@ def main(args):
         measured = compare.read_spectrum_csv(args.measured, args.x_unit)
         response = compare.read_spectrum_csv(args.response, args.x_unit) if args.response else None
         energy, power, omega0, ip, label = compare.computed_spectrum(args.computed, args.point, args.average)
+        floor = compare.computed_floor(args.computed, args.point, args.average)
         result = compare.compare_spectra(energy, power, measured, omega0, ip,
-                                         resolution_fwhm_ev=args.resolution, response=response)
+                                         resolution_fwhm_ev=args.resolution, response=response, floor_power=floor)
     except (ValueError, OSError, KeyError) as exc:
         raise InputError(str(exc)) from None
     if args.plot:
@@ -41,8 +42,8 @@ def main(args):
     if args.json:
         print(json.dumps(result.to_json(), indent=1))
     else:
-        print(f"cutoff computed ({label})  {result.cutoff_computed_ev:8.2f} eV")
-        print(f"cutoff measured            {result.cutoff_measured_ev:8.2f} eV")
+        print(f"cutoff computed ({label})  " + (result.computed_reason or f"{result.cutoff_computed_ev:8.2f} eV"))
+        print("cutoff measured            " + (result.measured_reason or f"{result.cutoff_measured_ev:8.2f} eV"))
         print(f"difference (meas. - comp.) {result.difference_ev:+8.2f} eV")
         print(f"resolution {result.resolution_fwhm_ev:g} eV FWHM; normalisation: {result.normalisation}")
         if args.plot:

@@ -18,6 +18,7 @@ from .. import units
 from ..analysis import RunAnalysis, analyse_file
 from ..cli import CommandError
 from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
+from ..spectra import NOISE_MARGIN
 
 HELP = "side-by-side table: semiclassical prediction | quantum result | ratio, for a result file"
 
@@ -38,6 +39,9 @@ class Row:
     kind: str  # "energy", "photon", "probability", "momentum", "time", "number"
     compare: str = "ratio"  # or "difference"
     note: str = ""
+    #: why the quantum value could not be read, e.g. "unresolved (within 0.3 decades
+    #: of the noise floor)"; the table then says "unresolved" and gives this as a footnote
+    unresolved: str = ""
 
     @property
     def comparison(self) -> float:
@@ -64,12 +68,15 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "")
         Row("ionization potential Ip", "asked for in the input", target_ip, ip, "energy",
             note="quantum: -E of the initial state on the run's grid; the rows below use it"),
     ]
+    cut_why = a.cutoff.reason if a.cutoff is not None and not math.isfinite(a.harmonic_cutoff) else ""
     if math.isfinite(up):
         out += [
             Row("harmonic cutoff", "three-step model, this pulse", s.cutoff_energy if s else nan,
-                a.harmonic_cutoff, "photon", note="quantum: read off the spectrum (docs/analysis.md)"),
-            Row("harmonic cutoff", "Ip + 3.17 Up", ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon"),
-            Row("harmonic cutoff", "1.32 Ip + 3.17 Up", LEWENSTEIN_IP * ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon"),
+                a.harmonic_cutoff, "photon", note="quantum: read off the spectrum (docs/analysis.md)",
+                unresolved=cut_why),
+            Row("harmonic cutoff", "Ip + 3.17 Up", ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon", unresolved=cut_why),
+            Row("harmonic cutoff", "1.32 Ip + 3.17 Up", LEWENSTEIN_IP * ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon",
+                unresolved=cut_why),
             Row("max. return energy / Up", "three-step model (3.17 for a long pulse)",
                 s.max_return_energy / up if s else nan, nan, "number"),
         ]
@@ -80,15 +87,18 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "")
                         + (f". {ionization_note}" if ionization_note else "")))
     if a.streaking is None and math.isfinite(up):
         e = a.edges
+        d_why = e.direct_reason if e else ""
+        b_why = e.backscattered_reason if e else ""
         out += [
             Row("direct-electron edge", "2 Up", 2 * up, e.direct if e else nan, "energy",
-                note="quantum: knee where the direct distribution falls 0.5 decade (docs/analysis.md)"),
+                note="quantum: knee where the direct distribution falls 0.5 decade (docs/analysis.md)",
+                unresolved=d_why),
             Row("direct-electron edge", "three-step model, this pulse", s.max_direct_energy if s else nan,
-                e.direct if e else nan, "energy"),
+                e.direct if e else nan, "energy", unresolved=d_why),
             Row("backscattered edge", "10 Up", 10 * up, e.backscattered if e else nan, "energy",
-                note=f"quantum: end of the plateau, {a.photoelectron_method or 'no'} spectrum"),
+                note=f"quantum: end of the plateau, {a.photoelectron_method or 'no'} spectrum", unresolved=b_why),
             Row("backscattered edge", "three-step model, this pulse", s.max_backscattered_energy if s else nan,
-                e.backscattered if e else nan, "energy"),
+                e.backscattered if e else nan, "energy", unresolved=b_why),
         ]
     pond = a.ponderomotive
     if pond is not None:
@@ -109,9 +119,9 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "")
     if st is not None:
         out += [
             Row("photoelectric peak", "hbar w_XUV - Ip", st.xuv_photon_energy - ip, st.photoelectric_energy, "energy",
-                note="quantum: from (|p_left| + p_right) / 2"),
+                note="quantum: from (|p_left| + p_right) / 2", unresolved=st.reason),
             Row("streaking shift", "A_IR(t_XUV)", st.vector_potential, st.measured, "momentum",
-                note="quantum: (|p_left| - p_right) / 2"),
+                note="quantum: (|p_left| - p_right) / 2", unresolved=st.reason),
         ]
     return out
 
@@ -205,6 +215,7 @@ def to_json(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = 
                 "quantum": {k: clean(v) for k, v in _units_of(r, r.quantum, a.omega0).items()},
                 r.compare: clean(r.comparison),
                 "note": r.note,
+                **({"unresolved": r.unresolved} if r.unresolved else {}),
             }
             for r in rows(a, target_ip, ionization_note)
         ],
@@ -215,12 +226,23 @@ def to_json(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = 
 def format_table(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "") -> str:
     """The table as plain text for people."""
     head = ("quantity", "semiclassical prediction", "prediction", "quantum result", "ratio/diff")
-    body = [(r.quantity, r.prediction_label, _format(r, r.prediction, a.omega0), _format(r, r.quantum, a.omega0),
-             _format_comparison(r)) for r in rows(a, target_ip, ionization_note)]
+    table = rows(a, target_ip, ionization_note)
+    footnotes = []
+    for r in table:
+        if r.unresolved and r.unresolved not in footnotes:
+            footnotes.append(r.unresolved)
+
+    def quantum_cell(r):
+        if r.unresolved:
+            return f"unresolved [{footnotes.index(r.unresolved) + 1}]"
+        return _format(r, r.quantum, a.omega0)
+
+    body = [(r.quantity, r.prediction_label, _format(r, r.prediction, a.omega0), quantum_cell(r),
+             _format_comparison(r)) for r in table]
     widths = [max(len(x[i]) for x in [head, *body]) for i in range(len(head))]
     lines = ["  ".join(h.ljust(w) for h, w in zip(head, widths)), "  ".join("-" * w for w in widths)]
     notes = []
-    for r, cells in zip(rows(a, target_ip, ionization_note), body):
+    for r, cells in zip(table, body):
         lines.append("  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip())
         if r.note and r.note not in notes:
             notes.append(r.note)
@@ -228,6 +250,8 @@ def format_table(a: RunAnalysis, target_ip: float = math.nan, ionization_note: s
         lines.insert(0, f"photon energy {a.omega0 * units.HARTREE_EV:.4f} eV, Up {a.ponderomotive_energy * units.HARTREE_EV:.4f} eV, "
                         f"Ip {a.ionization_potential * units.HARTREE_EV:.4f} eV; energies in eV (a.u.), H = harmonic order")
     lines += [""] + [f"* {n}" for n in notes + list(a.notes)]
+    lines += [f"[{k}] {why}: the reading level stands less than {NOISE_MARGIN:g} decade above the spectrum's "
+              "noise floor, so no value is given (docs/analysis.md)" for k, why in enumerate(footnotes, 1)]
     return "\n".join(lines)
 
 

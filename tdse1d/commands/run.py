@@ -99,7 +99,10 @@ def main(args):
     print(f"  ionization probability {r.ionization_probability:.4e}  (absorbed {r.absorbed:.4e})")
     if p.pulse_estimates and r.cutoff is not None:
         est = p.pulse_estimates[0]
+        cut = r.cutoff
+        # an unresolved reading has no number (NaN) and says why instead
+        read = (f"{cut.frequency * ev:.2f} eV (order {cut.order:.1f})" + ("" if cut.resolved else ", not resolved")
+                if cut.frequency == cut.frequency else cut.reason)
         print(f"  harmonic cutoff        Ip + 3.17 Up = {est.cutoff_energy * ev:.2f} eV (order {est.cutoff_order:.1f}); "
-              f"read off the spectrum: {r.cutoff.frequency * ev:.2f} eV (order {r.cutoff.order:.1f})"
-              + ("" if r.cutoff.resolved else ", not resolved"))
+              f"read off the spectrum: {read}")
     return 0
