@@ -80,9 +80,10 @@ TF_TOP = 1.4
 #: is this factor above the top of the map (aliasing then stays far below the map)
 TF_NYQUIST_MARGIN = 2.0
 
-#: photoelectron spectra in order of preference: the mask method holds the absorbed
-#: electrons too, so it is complete on a small box
-PHOTOELECTRON_METHOD_ORDER = ("mask", "plane_wave")
+#: photoelectron spectra in order of preference: the surface flux method counts the
+#: absorbed electrons too, so it is complete on a small box; "mask" is read from files
+#: written before it replaced the mask method
+PHOTOELECTRON_METHOD_ORDER = ("surface_flux", "mask", "plane_wave")
 
 #: decades by which the smoothed spectrum falls below the direct level at the direct
 #: edge (and may stay above the plateau where the plateau starts), and falls below

@@ -401,7 +401,7 @@ class PhotoelectricPeak(CaseKind):
 
     def run(self):
         out = self.runner.run(self.case.input())
-        spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+        spec = out.result.photoelectrons.get("surface_flux") or out.result.photoelectrons["plane_wave"]
         est = out.problem.pulse_estimates[0]
         e = spec.energy
         dens = np.nan_to_num(spec.energy_density)
@@ -435,7 +435,7 @@ class PhotoelectronEdges(CaseKind):
         from .analysis import analyse_run
 
         out = self.runner.run(self.case.input())
-        spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+        spec = out.result.photoelectrons.get("surface_flux") or out.result.photoelectrons["plane_wave"]
         up = out.problem.pulse_estimates[0].ponderomotive_energy
         edges = analyse_run(out.problem, out.result).edges
         if edges is None:
@@ -481,7 +481,7 @@ class Streaking(_ScanKind):
     def run(self):
         shifts, minus_a = [], []
         for value, out in self.points():
-            spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+            spec = out.result.photoelectrons.get("surface_flux") or out.result.photoelectrons["plane_wave"]
             p = spec.momentum
             xuv = out.problem.pulse_estimates[-1]
             p0 = math.sqrt(2 * (xuv.photon_energy - xuv.ionization_potential))

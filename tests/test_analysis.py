@@ -4,7 +4,7 @@ Each physics check names its source beside it:
 
 * Einstein's photoelectric relation: one XUV photon gives a photoelectron of energy
   hbar*w - Ip, here within the spectral width of the pulse;
-* the mask method (Tong, Hino and Toshima, Phys. Rev. A 74, 031405(R) (2006)) on a
+* the surface flux method (Tao and Scrinzi, New J. Phys. 14, 013021 (2012)) on a
   small box against plane-wave projection on a box that holds the whole wave packet;
 * the classical photoelectron edges 2 Up and 10 Up (Paulus et al., J. Phys. B 27,
   L703 (1994), from memory) for the run's own pulse;
@@ -96,7 +96,7 @@ def _xuv_numbers(outcome):
 def test_photoelectric_peak_at_photon_energy_minus_ip(xuv_small):
     # Einstein's photoelectric relation: E = hbar w - Ip, within the pulse's spectral width
     omega, ip, width = _xuv_numbers(xuv_small)
-    p, left, right = _spectrum(xuv_small.path, "mask")
+    p, left, right = _spectrum(xuv_small.path, "surface_flux")
     peak = analysis.peak_centroid(p, left + right)
     energy = 0.5 * peak**2
     assert abs(energy - (omega - ip)) < 0.5 * width, (energy, omega - ip, width)
@@ -104,15 +104,15 @@ def test_photoelectric_peak_at_photon_energy_minus_ip(xuv_small):
     assert analysis.peak_centroid(p, left) == pytest.approx(analysis.peak_centroid(p, right), rel=1e-3)
 
 
-def test_mask_method_on_small_box_agrees_with_plane_waves_on_large_box(xuv_small, xuv_large):
-    # mask method (Tong, Hino, Toshima 2006) vs projection on plane waves
+def test_surface_flux_on_small_box_agrees_with_plane_waves_on_large_box(xuv_small, xuv_large):
+    # surface flux method (Tao and Scrinzi 2012) vs projection on plane waves
     with h5py.File(xuv_small.path) as f:
         absorbed = float(f["ionization/absorbed"][()])
     with h5py.File(xuv_large.path) as f:
         # only the fastest few per cent reach the large box's absorber
         assert float(f["ionization/absorbed"][()]) < 0.03 * absorbed
     assert absorbed > 0.5 * xuv_small.result.ionization_probability  # the small box did absorb
-    p_s, l_s, r_s = _spectrum(xuv_small.path, "mask")
+    p_s, l_s, r_s = _spectrum(xuv_small.path, "surface_flux")
     p_l, l_l, r_l = _spectrum(xuv_large.path, "plane_wave")
     total_s = np.sum(l_s + r_s) * (p_s[1] - p_s[0])
     total_l = np.sum(l_l + r_l) * (p_l[1] - p_l[0])
