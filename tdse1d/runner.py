@@ -337,13 +337,6 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     )
 
 
-SURFACE_MARGIN_QUIVER = 0.0
-
-
-def _quiver_amplitude(problem):
-    return max((p.peak_field / p.omega**2 for p in problem.field.pulses if p.omega > 0), default=0.0)
-
-
 def _surface_flux(problem: Problem, prop: Propagator, mask):
     """The surface-flux accumulator of a run, or (None, reason) if it cannot be set up.
 
@@ -358,9 +351,7 @@ def _surface_flux(problem: Problem, prop: Propagator, mask):
     if inside.size == 0 or inside[0] < r or inside[-1] >= x.size - r or not (x[inside[0]] < 0 < x[inside[-1]]):
         return None, ("no surface-flux photoelectron spectrum: it needs absorbing layers on both sides of "
                       f"the box with at least {r} inner grid points before each")
-    margin = SURFACE_MARGIN_QUIVER * _quiver_amplitude(problem)
-    right = int(np.flatnonzero(x <= x[inside[-1]] - margin)[-1])
-    left = int(np.flatnonzero(x >= x[inside[0]] + margin)[0])
+    right, left = int(inside[-1]), int(inside[0])
     a_t = prop.observables.vector_potential
     omegas = [p.omega for p in problem.field.pulses if math.isfinite(p.omega) and p.omega > 0]
     if not omegas:

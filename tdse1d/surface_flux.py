@@ -216,8 +216,7 @@ def momentum_grid(top_energy: float, photon_energy: float, max_momentum: float |
     count = min(count, MAX_MOMENTA)
     block = max(1, int(math.sqrt(2 * count)))
     count = int(math.ceil(count / block)) * block
-    if capped:
-        dp = p_top / count
+    dp = p_top / count  # no coarser than asked: the top sample (count - 1/2) dp < p_top
     m = np.arange(count)
     positive = (m + 0.5) * dp
     return np.concatenate([-positive[::-1], positive]), block, capped
