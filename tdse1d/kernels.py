@@ -18,7 +18,7 @@ from numba import njit
 
 __all__ = [
     "block_size", "linear_phase", "kick", "kick_observe", "kinetic_moment",
-    "surface_values", "flux_accumulate", "plane_wave_sum",
+    "surface_values", "surface_terms", "flux_accumulate", "plane_wave_sum",
 ]
 
 
@@ -158,6 +158,33 @@ def surface_values(psi, index, stencil):
         dr += stencil[m] * psi[j]
         di += stencil[m] * psi[j + 1]
     return psi[2 * index], psi[2 * index + 1], dr, di
+
+
+@njit(**_JIT)
+def surface_terms(psi, index, stencil, dx, x0, a, length, out, row):
+    """The two coefficients of the flux integrand at one surface, velocity gauge.
+
+    With psi_V and psi_V' at grid point ``index`` (position ``x0``), writes
+    out[row] = (Re, Im) of psi_V / 2 and out[row + 1] = (Re, Im) of A psi_V - i psi_V' / 2,
+    so that (p/2 + A) psi_V - (i/2) psi_V' = p out[row] + out[row + 1]. A length-gauge
+    ``psi`` (``length`` true) is transformed first: psi_V = exp(-i A x) psi_L,
+    psi_V' = exp(-i A x) (psi_L' - i A psi_L).
+    """
+    vr, vi, dr, di = surface_values(psi, index, stencil)
+    dr /= dx
+    di /= dx
+    if length:
+        # psi_L' - i A psi_L, then both times exp(-i A x0)
+        dr, di = dr + a * vi, di - a * vr
+        c = np.cos(a * x0)
+        sn = -np.sin(a * x0)
+        vr, vi = _cmul(vr, vi, c, sn)
+        dr, di = _cmul(dr, di, c, sn)
+    out[row, 0] = 0.5 * vr
+    out[row, 1] = 0.5 * vi
+    # A psi - (i/2) psi' = (A vr + di/2) + i (A vi - dr/2)
+    out[row + 1, 0] = a * vr + 0.5 * di
+    out[row + 1, 1] = a * vi - 0.5 * dr
 
 
 @njit(**_JIT)

@@ -342,7 +342,9 @@ def _surface_flux(problem: Problem, prop: Propagator, mask):
 
     Surfaces at the last grid points inside the absorbing layers; momenta from
     :func:`tdse1d.surface_flux.momentum_grid` over the range of
-    :func:`tdse1d.surface_flux.spectrum_top_energy`, capped at the grid's pi / dx.
+    :func:`tdse1d.surface_flux.spectrum_top_energy`, capped at the grid's pi / dx, with
+    4 samples per photon energy of the softest pulse, and per bandwidth of any pulse
+    that ionizes with one photon, at the top energy.
     """
     grid = problem.grid
     x = grid.x
@@ -356,8 +358,16 @@ def _surface_flux(problem: Problem, prop: Propagator, mask):
     omegas = [p.omega for p in problem.field.pulses if math.isfinite(p.omega) and p.omega > 0]
     if not omegas:
         return None, "no surface-flux photoelectron spectrum: no pulse has a carrier frequency"
-    top = _flux.spectrum_top_energy(float(np.max(np.abs(a_t))), problem.ionization_potential, omegas)
-    momenta, block, capped = _flux.momentum_grid(top, min(omegas), max_momentum=math.pi / grid.spacing)
+    ip = problem.ionization_potential
+    top = _flux.spectrum_top_energy(float(np.max(np.abs(a_t))), ip, omegas)
+    # resolve the photon energy of the softest pulse (ATI comb) and the bandwidth of a
+    # one-photon line, 4 ln 2 / FWHM of the intensity for a transform-limited pulse
+    scales = list(omegas)
+    for p in problem.field.pulses:
+        envelope = getattr(p, "envelope", None)
+        if envelope is not None and p.omega > ip:
+            scales.append(4 * math.log(2) / envelope.intensity_fwhm)
+    momenta, block, capped = _flux.momentum_grid(top, min(scales), max_momentum=math.pi / grid.spacing)
     note = None
     if capped:
         note = (f"the surface-flux momentum grid was limited to {momenta.size} momenta: fewer than "

@@ -192,7 +192,8 @@ def momentum_grid(top_energy: float, photon_energy: float, max_momentum: float |
     top_energy : float
         Highest kinetic energy (hartree).
     photon_energy : float
-        The photon energy to resolve (hartree).
+        The energy scale to resolve (hartree): a photon energy, or the bandwidth of a
+        one-photon line.
     max_momentum : float, optional
         Cap on the top momentum (a.u.), e.g. the grid's pi / dx.
 
@@ -297,17 +298,6 @@ class SurfaceFlux:
             "_step_phase", "_surface_right", "_surface_left", "_coarse", "_fine", "volkov",
             "amp_right", "amp_left")}
 
-    def _surface(self, psi_view, index, a):
-        """(psi_V, psi_V') at grid point ``index`` (velocity gauge)."""
-        pr, pi_, dr, di = kernels.surface_values(psi_view, index, self.stencil)
-        value = complex(pr, pi_)
-        slope = complex(dr, di) / self.dx
-        if self.gauge == "length" and a != 0.0:
-            # psi_V = exp(-i A x) psi_L, psi_V' = exp(-i A x) (psi_L' - i A psi_L)
-            phase = complex(math.cos(a * self.x[index]), -math.sin(a * self.x[index]))
-            return phase * value, phase * (slope - 1j * a * value)
-        return value, slope
-
     def add(self, psi_view, step_index: int, vector_potential: float, weight: float, advance: bool):
         """Add one time sample of the flux through both surfaces.
 
@@ -336,12 +326,9 @@ class SurfaceFlux:
             raise ValueError(f"flux sample of step {step_index} at step {self.step}")
         a = float(vector_potential)
         s = self._scalars
-        for row, index in ((0, self.right_index), (2, self.left_index)):
-            value, slope = self._surface(psi_view, index, a)
-            coefficient = 0.5 * value
-            constant = a * value - 0.5j * slope
-            s[row] = coefficient.real, coefficient.imag
-            s[row + 1] = constant.real, constant.imag
+        length = self.gauge == "length"
+        kernels.surface_terms(psi_view, self.right_index, self.stencil, self.dx, self.radius_right, a, length, s, 0)
+        kernels.surface_terms(psi_view, self.left_index, self.stencil, self.dx, self.radius_left, a, length, s, 2)
         v = self._v
         kernels.flux_accumulate(
             v["volkov"], v["_step_phase"], v["_coarse"], v["_fine"], self.block, self.momenta, bool(advance),
