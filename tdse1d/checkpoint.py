@@ -148,6 +148,13 @@ def read_checkpoint(path, digest: str | None = None):
     with f:
         if f.attrs.get("format") != _FORMAT:
             raise InputError(f"{str(path)!r} is not a tdse1d checkpoint", "--resume")
+        version = int(f.attrs.get("format_version", 0))
+        if version != _FORMAT_VERSION:
+            raise InputError(
+                f"the checkpoint {str(path)!r} has format version {version}, this tdse1d reads "
+                f"{_FORMAT_VERSION} (the photoelectron accumulator changed); run without --resume",
+                "--resume",
+            )
         if digest is not None and f.attrs["input_hash"] != digest:
             raise InputError(
                 f"the checkpoint {str(path)!r} was written for a different input (resolved-input hash "

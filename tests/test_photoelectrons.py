@@ -404,3 +404,18 @@ def test_tabulated_field_of_non_zero_area_gives_gauge_independent_spectra(tmp_pa
     sv = runs["velocity"].result.photoelectrons["surface_flux"]
     assert _decade_gap(sl, sv, up) < 0.02
     assert sl.norm == pytest.approx(sv.norm, rel=0.02)
+
+
+def test_checkpoint_of_the_mask_accumulator_is_refused(tmp_path):
+    # a checkpoint written before the surface flux method holds a mask accumulator,
+    # which cannot continue a surface-flux run: one clear message, no traceback
+    from tdse1d.checkpoint import read_checkpoint
+
+    path = tmp_path / "old.h5.checkpoint"
+    with h5py.File(path, "w") as f:
+        f.attrs["format"] = "tdse1d-checkpoint"
+        f.attrs["format_version"] = 1
+        f.attrs["input_hash"] = "0" * 64
+        f.create_group("mask")
+    with pytest.raises(InputError, match="format version 1"):
+        read_checkpoint(path)
