@@ -95,9 +95,10 @@ TF_TOP = 1.4
 #: is this factor above the top of the map (aliasing then stays far below the map)
 TF_NYQUIST_MARGIN = 2.0
 
-#: photoelectron spectra in order of preference: the mask method holds the absorbed
-#: electrons too, so it is complete on a small box
-PHOTOELECTRON_METHOD_ORDER = ("mask", "plane_wave")
+#: photoelectron spectra in order of preference: the surface flux method counts the
+#: absorbed electrons too, so it is complete on a small box; "mask" is read from files
+#: written before it replaced the mask method
+PHOTOELECTRON_METHOD_ORDER = ("surface_flux", "mask", "plane_wave")
 
 #: decades by which the smoothed spectrum falls below the direct level at the direct
 #: edge (and may stay above the plateau where the plateau starts), and falls below
@@ -891,8 +892,12 @@ def streaking_shift(momentum, density_left, density_right, xuv_time, xuv_photon_
     positive = (p > 0) & (both > 0)
     reason = ""
     if positive.sum() >= 8:
-        floor = float(noise_floor(p[positive], both[positive])[0])
-        lower = min(np.nanmax(density_left), np.nanmax(density_right))
+        # the floor on the energy axis (dP/dE = dP/dp / p): the top half of the
+        # energy axis lies beyond the line, the top half of the momentum axis need not
+        energy = 0.5 * p[positive] ** 2
+        floor = float(noise_floor(energy, both[positive] / p[positive])[0])
+        lower = min(np.nanmax(density_left / np.where(p > 0, p, np.inf)),
+                    np.nanmax(density_right / np.where(p > 0, p, np.inf)))
         headroom = math.log10(lower) - floor if lower > 0 else -math.inf
         if headroom < noise_margin:
             reason = unresolved_reason(headroom)

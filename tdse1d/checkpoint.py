@@ -8,7 +8,8 @@ holding
 * the index of the next analysis event (population or snapshot step) to handle;
 * every per-step observable recorded so far (norm, dipole, momentum, acceleration,
   initial-state population) and the bound-state populations projected so far;
-* the mask-method accumulator (absorbed photoelectron amplitudes, steps used);
+* the surface-flux accumulator (photoelectron amplitudes through each surface, Volkov
+  phases, step);
 * the snapshots written so far (as stored, i.e. with the output's snapshot stride);
 * the SHA-256 hash of the resolved input (:func:`input_hash`), so that a checkpoint
   is never continued with another input.
@@ -48,7 +49,7 @@ __all__ = [
 
 CHECKPOINT_SUFFIX = ".checkpoint"
 _FORMAT = "tdse1d-checkpoint"
-_FORMAT_VERSION = 1
+_FORMAT_VERSION = 2  # 2: surface-flux accumulator replaces the mask one
 _OBSERVABLES = ("norm", "dipole", "momentum", "acceleration", "initial_population")
 
 
@@ -103,9 +104,9 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
         for name in _OBSERVABLES:
             obs.create_dataset(name, data=state.observables[name])
         f.create_dataset("bound_population", data=state.bound_population)
-        if state.mask is not None:
-            g = f.create_group("mask")
-            for name, value in state.mask.items():
+        if state.surface_flux is not None:
+            g = f.create_group("surface_flux")
+            for name, value in state.surface_flux.items():
                 g.create_dataset(name, data=value)
         snaps = f.create_group("snapshots")
         if snapshots is not None:
@@ -147,13 +148,20 @@ def read_checkpoint(path, digest: str | None = None):
     with f:
         if f.attrs.get("format") != _FORMAT:
             raise InputError(f"{str(path)!r} is not a tdse1d checkpoint", "--resume")
+        version = int(f.attrs.get("format_version", 0))
+        if version != _FORMAT_VERSION:
+            raise InputError(
+                f"the checkpoint {str(path)!r} has format version {version}, this tdse1d reads "
+                f"{_FORMAT_VERSION} (the photoelectron accumulator changed); run without --resume",
+                "--resume",
+            )
         if digest is not None and f.attrs["input_hash"] != digest:
             raise InputError(
                 f"the checkpoint {str(path)!r} was written for a different input (resolved-input hash "
                 f"{f.attrs['input_hash'][:12]}..., this input {digest[:12]}...); remove it or run without --resume",
                 "--resume",
             )
-        mask = {k: v[()] for k, v in f["mask"].items()} if "mask" in f else None
+        flux = {k: v[()] for k, v in f["surface_flux"].items()} if "surface_flux" in f else None
         state = RunState(
             step_index=int(f.attrs["step_index"]),
             next_event=int(f.attrs["next_event"]),
@@ -161,7 +169,7 @@ def read_checkpoint(path, digest: str | None = None):
             psi=f["psi"][()],
             observables={name: f["observables"][name][()] for name in _OBSERVABLES},
             bound_population=f["bound_population"][()],
-            mask=mask,
+            surface_flux=flux,
         )
         snaps = f["snapshots"]
         if "psi" in snaps:

@@ -98,6 +98,9 @@ class Spec:
         accepted, so that registries filled later are consulted at validation time.
     doc : str
         One-line description (used in messages).
+    retired : dict of str to str
+        For ``kind="choice"``: values no longer accepted, each with the one-line
+        reason given when it is used.
     """
 
     kind: str
@@ -109,6 +112,7 @@ class Spec:
     maximum: float | None = None
     choices: Any = ()
     doc: str = ""
+    retired: Any = ()
 
     def allowed_choices(self):
         return tuple(self.choices() if callable(self.choices) else self.choices)
@@ -168,6 +172,8 @@ def _read_value(raw, spec: Spec, path: str):
         return raw
     if kind == "choice":
         options = spec.allowed_choices()
+        if not isinstance(raw, bool) and raw in dict(spec.retired):
+            raise InputError(dict(spec.retired)[raw], path)
         if isinstance(raw, bool) or raw not in options:
             near = difflib.get_close_matches(str(raw), list(map(str, options)), n=1)
             hint = f" (did you mean '{near[0]}'?)" if near else ""
@@ -400,8 +406,11 @@ class SpectraConfig:
 
     window: str = key(Spec("choice", choices=_window_names, doc="window of the harmonic spectrum"), "hann")
     photoelectrons: str = key(
-        Spec("choice", choices=("mask", "none"), doc="collect absorbed electrons for the photoelectron spectrum"),
-        "mask",
+        Spec("choice", choices=("surface_flux", "none"),
+             doc="photoelectron spectrum by the flux through surfaces at the absorbers",
+             retired={"mask": '"mask" is no longer offered: use "surface_flux" (the time-dependent surface '
+                              'flux method), the default'}),
+        "surface_flux",
     )
 
 

@@ -16,7 +16,10 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-__all__ = ["block_size", "linear_phase", "kick", "kick_observe", "kinetic_moment"]
+__all__ = [
+    "block_size", "linear_phase", "kick", "kick_observe", "kinetic_moment",
+    "surface_values", "surface_terms", "flux_accumulate", "plane_wave_sum",
+]
 
 
 def block_size(points: int) -> int:
@@ -30,14 +33,15 @@ def block_size(points: int) -> int:
 
 
 @njit(cache=True, nogil=True)
-def linear_phase(theta, first, step, block, coarse, fine):
+def linear_phase(theta, first, step, block, coarse, fine, offset=0.0):
     """Fill ``coarse``, ``fine`` (float64 views of complex arrays) so that
-    coarse[b] * fine[m] = exp(-i theta u_{bB+m}).
+    coarse[b] * fine[m] = exp(-i (theta u_{bB+m} + offset)).
 
-    ``first[b]`` is u at the start of block b, ``step`` the spacing du within a block.
+    ``first[b]`` is u at the start of block b, ``step`` the spacing du within a block;
+    the constant phase ``offset`` (radians) goes into ``coarse`` at no cost.
     """
     for b in range(coarse.shape[0] // 2):
-        a = theta * first[b]
+        a = theta * first[b] + offset
         coarse[2 * b] = np.cos(a)
         coarse[2 * b + 1] = -np.sin(a)
     for m in range(block):
@@ -136,3 +140,117 @@ def kinetic_moment(psi, phase, coarse, fine, block, k):
             s1 += d * k[i]
             psi[j], psi[j + 1] = _cmul(vr, vi, qr, qi)
     return s0, s1
+
+
+@njit(**_JIT)
+def surface_values(psi, index, stencil):
+    """psi and (dx times) its derivative at grid point ``index`` of a float64 view.
+
+    The derivative is the central finite difference sum_m stencil[m] psi[index + m - r]
+    with r = (len(stencil) - 1) / 2, not yet divided by dx. Returns (Re psi, Im psi,
+    Re dx psi', Im dx psi').
+    """
+    r = (stencil.shape[0] - 1) // 2
+    dr = 0.0
+    di = 0.0
+    for m in range(stencil.shape[0]):
+        j = 2 * (index + m - r)
+        dr += stencil[m] * psi[j]
+        di += stencil[m] * psi[j + 1]
+    return psi[2 * index], psi[2 * index + 1], dr, di
+
+
+@njit(**_JIT)
+def surface_terms(psi, index, stencil, dx, x0, a, length, out, row):
+    """The two coefficients of the flux integrand at one surface, velocity gauge.
+
+    With psi_V and psi_V' at grid point ``index`` (position ``x0``), writes
+    out[row] = (Re, Im) of psi_V / 2 and out[row + 1] = (Re, Im) of A psi_V - i psi_V' / 2,
+    so that (p/2 + A) psi_V - (i/2) psi_V' = p out[row] + out[row + 1]. A length-gauge
+    ``psi`` (``length`` true) is transformed first: psi_V = exp(-i A x) psi_L,
+    psi_V' = exp(-i A x) (psi_L' - i A psi_L).
+    """
+    vr, vi, dr, di = surface_values(psi, index, stencil)
+    dr /= dx
+    di /= dx
+    if length:
+        # psi_L' - i A psi_L, then both times exp(-i A x0)
+        dr, di = dr + a * vi, di - a * vr
+        c = np.cos(a * x0)
+        sn = -np.sin(a * x0)
+        vr, vi = _cmul(vr, vi, c, sn)
+        dr, di = _cmul(dr, di, c, sn)
+    out[row, 0] = 0.5 * vr
+    out[row, 1] = 0.5 * vi
+    # A psi - (i/2) psi' = (A vr + di/2) + i (A vi - dr/2)
+    out[row + 1, 0] = a * vr + 0.5 * di
+    out[row + 1, 1] = a * vi - 0.5 * dr
+
+
+@njit(**_JIT)
+def flux_accumulate(volkov, step_phase, coarse, fine, block, momentum, advance,
+                    weight_right, right_a, right_b, surface_right, amp_right,
+                    weight_left, left_a, left_b, surface_left, amp_left):
+    """One time sample of the surface-flux integrals (all arrays float64 views).
+
+    If ``advance``: volkov_j *= step_phase_j * coarse[j // B] * fine[j % B] (the Volkov
+    phase exp(i Phi(p_j, t)) moved on by one step). Then, for each side s,
+    amp_s_j += weight_s * surface_s_j * volkov_j * (p_j * a_s + b_s), with the complex
+    scalars a_s = (right_a[0] + i right_a[1]) etc.
+    """
+    nb = volkov.shape[0] // (2 * block)
+    rar = right_a[0]
+    rai = right_a[1]
+    rbr = right_b[0]
+    rbi = right_b[1]
+    lar = left_a[0]
+    lai = left_a[1]
+    lbr = left_b[0]
+    lbi = left_b[1]
+    for b in range(nb):
+        cr = coarse[2 * b]
+        ci = coarse[2 * b + 1]
+        o = 2 * b * block
+        for m in range(block):
+            i = b * block + m
+            j = o + 2 * m
+            ur = volkov[j]
+            ui = volkov[j + 1]
+            if advance:
+                fr, fi = _cmul(fine[2 * m], fine[2 * m + 1], cr, ci)
+                qr, qi = _cmul(step_phase[j], step_phase[j + 1], fr, fi)
+                ur, ui = _cmul(ur, ui, qr, qi)
+                volkov[j] = ur
+                volkov[j + 1] = ui
+            p = momentum[i]
+            gr, gi = _cmul(ur, ui, surface_right[j], surface_right[j + 1])
+            hr, hi = _cmul(gr, gi, p * rar + rbr, p * rai + rbi)
+            amp_right[j] += weight_right * hr
+            amp_right[j + 1] += weight_right * hi
+            gr, gi = _cmul(ur, ui, surface_left[j], surface_left[j + 1])
+            hr, hi = _cmul(gr, gi, p * lar + lbr, p * lai + lbi)
+            amp_left[j] += weight_left * hr
+            amp_left[j + 1] += weight_left * hi
+
+
+@njit(cache=True, nogil=True)
+def plane_wave_sum(psi, first, last, x0, dx, momentum, out):
+    """out_j = sum_{n=first}^{last-1} psi_n exp(-i p_j (x0 + n dx)) (complex arrays).
+
+    A direct sum by the recurrence z^n, z = exp(-i p dx), so no exponential per term.
+    """
+    for jj in range(momentum.shape[0]):
+        p = momentum[jj]
+        zr = np.cos(p * dx)
+        zi = -np.sin(p * dx)
+        a = p * (x0 + first * dx)
+        wr = np.cos(a)
+        wi = -np.sin(a)
+        sr = 0.0
+        si = 0.0
+        for n in range(first, last):
+            v = psi[n]
+            sr += v.real * wr - v.imag * wi
+            si += v.real * wi + v.imag * wr
+            wr, wi = wr * zr - wi * zi, wr * zi + wi * zr
+        out[jj] = complex(sr, si)

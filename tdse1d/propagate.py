@@ -15,16 +15,19 @@ within a step are merged.
 Gauges (electron charge -1, E = -dA/dt):
 
 * length gauge: V(x, t) = V(x) + x E(t); the grid momentum is the kinetic momentum;
-* velocity gauge: T(t) = (p + A(t))^2 / 2 (the A^2/2 term, a global phase, is dropped);
-  the kinetic momentum is p + A(t), and states are compared with field-free ones after
-  the transformation psi_L = exp(i A x) psi_V.
+* velocity gauge: T(t) = (p + A(t))^2 / 2, the A^2/2 term included (a phase common to
+  all of space, folded into the linear-phase table at no cost), so that
+  psi_L = exp(i A x) psi_V holds exactly, global phase included, and a wave propagated
+  here keeps the phase of the Volkov waves of :mod:`tdse1d.surface_flux`; the kinetic
+  momentum is p + A(t).
 
-Absorption (:mod:`tdse1d.absorb`) is applied once per full step, after its last
-sub-step. Observables are recorded at every step t_n: norm, dipole <x>, kinetic
-momentum <p>, the Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t) (a more accurate
-source of harmonic spectra than differentiating the dipole; Burnett et al., Phys. Rev. A
-45, 3347 (1992), from memory), and the population of the initial state; the bound-state
-populations at a coarser cadence.
+Absorption (:mod:`tdse1d.absorb`) is applied at every step, after its last sub-step.
+Observables are recorded at every step t_n: norm, dipole <x>, kinetic momentum <p>,
+the Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t) (a more accurate source of
+harmonic spectra than differentiating the dipole; Burnett et al., Phys. Rev. A 45, 3347
+(1992), from memory), and the population of the initial state; the bound-state
+populations at a coarser cadence. Given a :class:`tdse1d.surface_flux.SurfaceFlux`,
+the propagator adds the flux through its surfaces at every step.
 
 The time loop allocates no arrays: every work array is made in the constructor, and the
 point-wise work is done by the fused kernels of :mod:`tdse1d.kernels`.
@@ -164,14 +167,10 @@ class Propagator:
         State whose population is recorded every step (the initial state).
     fft_effort : str
         FFTW planner flag.
-    absorb_every : int
-        Apply the absorber every this many steps (as M^absorb_every), e.g. so that the
-        removed parts can be handed to ``on_absorb`` less often.
-    on_absorb : callable, optional
-        ``on_absorb(step, removed_left, removed_right)`` after each absorbing step, with
-        the parts the absorber removed on each side (full-grid arrays, zero inside the
-        box; in the length gauge multiplied by exp(-i A x), so that the grid momentum is
-        the canonical one). The arrays are reused: copy what you keep.
+    surface_flux : tdse1d.surface_flux.SurfaceFlux, optional
+        Accumulates the flux through its surfaces: the propagator adds the state of
+        every step to it (the first with :meth:`start`, the last half-weight
+        correction with :meth:`finish`).
 
     Notes
     -----
@@ -182,7 +181,7 @@ class Propagator:
 
     def __init__(self, grid: Grid, potential, field, times, gauge="length", scheme=None,
                  absorber_factor=None, reference=None, fft_effort="FFTW_MEASURE",
-                 absorb_every=1, on_absorb=None):
+                 surface_flux=None):
         if gauge not in ("length", "velocity"):
             raise ValueError(f"gauge must be 'length' or 'velocity', got {gauge!r}")
         times = np.asarray(times, dtype=float)
@@ -213,22 +212,7 @@ class Propagator:
         self._mask = np.ones(n) if absorber_factor is None else np.ascontiguousarray(absorber_factor, dtype=float)
         if self._mask.shape != (n,) or np.any(self._mask <= 0) or np.any(self._mask > 1):
             raise ValueError("absorber_factor must hold values in (0, 1] on the grid")
-        if int(absorb_every) != absorb_every or absorb_every < 1:
-            raise ValueError(f"absorb_every must be a positive integer, got {absorb_every}")
-        self.absorb_every = int(absorb_every)
-        self._on_absorb = on_absorb
-        self._mask_apply = self._mask ** self.absorb_every
-        self._mask_none = np.ones(n)
-        # each absorbing layer as one contiguous slice, so that handing over what it
-        # removed works on views, without allocating in the time loop
-        edge = np.flatnonzero(self._mask < 1)
-        left, right = edge[edge < n // 2], edge[edge >= n // 2]
-        self._edges = []
-        for idx, buf in ((left, np.zeros(n, complex)), (right, np.zeros(n, complex))):
-            where = slice(int(idx.min()), int(idx.max()) + 1) if len(idx) else slice(0, 0)
-            m = self._mask_apply[where]
-            gain = (1 - m) / m  # removed = kept * (1 - M) / M
-            self._edges.append((where, gain, buf, np.zeros(len(gain), complex)))
+        self.surface_flux = surface_flux
         self._reference = np.ascontiguousarray(
             np.zeros(n, complex) if reference is None else np.asarray(reference, dtype=complex)
         )
@@ -298,7 +282,11 @@ class Propagator:
         return float(self.times[self.step_index])
 
     def start(self, psi0, step_index: int = 0):
-        """Set the state at ``times[step_index]`` and record its observables."""
+        """Set the state at ``times[step_index]`` and record its observables.
+
+        At step 0 the state's flux enters the surface-flux integral with weight h/2; a
+        resumed run (step > 0) restores the accumulator from its checkpoint instead.
+        """
         psi0 = np.asarray(psi0, dtype=complex)
         if psi0.shape != (self.grid.points,):
             raise ValueError(f"psi0 must have shape ({self.grid.points},), got {psi0.shape}")
@@ -307,6 +295,21 @@ class Propagator:
         self.psi[:] = psi0
         self.step_index = step_index
         self._record_position(step_index, *self._position_moments(step_index))
+        if self.surface_flux is not None and step_index == 0:
+            self.surface_flux.add(self._v_psi, 0, float(self.observables.vector_potential[0]),
+                                  0.5 * self.time_step, advance=False)
+
+    def vector_potential_steps(self):
+        """int A dt and int A^2 dt over each step, by the propagator's midpoint rule.
+
+        Returns
+        -------
+        dG, dH : ndarray, shape (steps,)
+            (a.u.) The Volkov phase of a velocity-gauge free wave advances by
+            p^2 h / 2 + p dG + dH / 2 per step, exactly as this propagator moves it.
+        """
+        w = self._kinetic_weights * self.time_step
+        return self._a_mid @ w, self._a_mid**2 @ w
 
     def _velocity_reference_phase(self, a):
         # psi_L = exp(i A x) psi_V, so <ref|psi_L> = sum conj(ref exp(-i A x)) psi_V:
@@ -350,6 +353,7 @@ class Propagator:
         coarse, fine = self._v_coarse, self._v_fine
         ones_c, ones_f = self._v_ones_coarse, self._v_ones_fine
         kick_parts = self._kick_parts
+        flux = self.surface_flux
         last = len(kick_parts) - 1
         for _ in range(count):
             n = self.step_index
@@ -370,7 +374,10 @@ class Propagator:
                     if length:
                         lc, lf = ones_c, ones_f
                     else:
-                        kernels.linear_phase(self._kinetic_weights[i] * h * a_mid[i], k_first, dk, block, coarse, fine)
+                        wh = self._kinetic_weights[i] * h
+                        # exp(-i w h (k + A)^2 / 2) = static k^2 table * exp(-i w h (A k + A^2 / 2))
+                        kernels.linear_phase(wh * a_mid[i], k_first, dk, block, coarse, fine,
+                                             0.5 * wh * a_mid[i] * a_mid[i])
                         lc, lf = coarse, fine
                     s0, s1 = kernels.kinetic_moment(psi, self._v_kinetic[i], lc, lf, block, self._k)
                     if i == 0:
@@ -378,14 +385,12 @@ class Propagator:
                     fft.backward()
                 else:
                     rc, rf = self._velocity_reference_phase(obs.vector_potential[n + 1])
-                    absorbing = (n + 1) % self.absorb_every == 0
                     s0, s1, s2, ovr, ovi = kernels.kick_observe(
-                        psi, self._v_kick[i], kc, kf, block,
-                        self._mask_apply if absorbing else self._mask_none,
+                        psi, self._v_kick[i], kc, kf, block, self._mask,
                         self._x, self._grad, self._v_ref, rc, rf,
                     )
-                    if absorbing and self._on_absorb is not None:
-                        self._hand_over_removed(n + 1)
+                    if flux is not None:
+                        flux.add(psi, n + 1, float(obs.vector_potential[n + 1]), h, advance=True)
             self._record_momentum(n)
             self.step_index = n + 1
             self._record_position(n + 1, s0, s1, s2, complex(ovr, ovi))
@@ -394,17 +399,6 @@ class Propagator:
                     f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")
                 raise NumericalError(what, n + 1, float(self.times[n + 1]))
         return count
-
-    def _hand_over_removed(self, n):
-        a = float(self.observables.vector_potential[n])
-        for where, gain, buf, phase in self._edges:
-            part = buf[where]
-            np.multiply(self.psi[where], gain, out=part)
-            if self.gauge == "length" and a != 0.0:
-                np.multiply(self._x[where], -1j * a, out=phase)
-                np.exp(phase, out=phase)
-                part *= phase
-        self._on_absorb(n, self._edges[0][2], self._edges[1][2])
 
     def _record_momentum(self, n):
         """<p>(t_n) from <k> after the first potential kick of step n: that kick changes
@@ -422,8 +416,12 @@ class Propagator:
         obs.momentum[n] = p
 
     def finish(self):
-        """Record the momentum at the last step reached (needs one extra FFT)."""
+        """Record the momentum at the last step reached (needs one extra FFT), and
+        complete the trapezoidal rule of the surface flux (call once)."""
         n = self.step_index
+        if self.surface_flux is not None:
+            self.surface_flux.add(self._v_psi, n, float(self.observables.vector_potential[n]),
+                                  -0.5 * self.time_step, advance=False)
         saved = self.psi.copy()
         self._fft.forward()
         d = self.psi.real**2 + self.psi.imag**2

@@ -3,8 +3,9 @@
 :func:`simulate` drives the :class:`~tdse1d.propagate.Propagator` through the run in
 chunks, between which it records bound-state populations, hands snapshots to a sink
 (the HDF5 writer streams them to disk, so memory does not grow with their number),
-collects the electrons the absorber removes (mask method) and reports progress. No
-file is read or written here; the sink does that.
+has the propagator count the electrons crossing the surfaces at the inner edges of the
+absorbing layers (surface flux method, :mod:`tdse1d.surface_flux`) and reports progress.
+No file is read or written here; the sink does that.
 
 Stopping and continuing: between chunks the runner asks a :class:`RunControl` whether
 a checkpoint is due (its wall-clock interval has passed, or a stop was requested, e.g.
@@ -27,6 +28,7 @@ import numpy as np
 
 from . import health as _health
 from . import spectra
+from . import surface_flux as _flux
 from .absorb import ABSORBERS
 from .propagate import Observables, Propagator, scheme_for_order
 from .problem import Problem
@@ -37,8 +39,6 @@ __all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", 
 
 #: default bound-state projections per optical cycle of the first pulse
 POPULATIONS_PER_CYCLE = 20
-#: absorb every this many a.u. of time when the mask method collects electrons
-MASK_METHOD_INTERVAL = 1.0
 
 
 @dataclass
@@ -99,8 +99,8 @@ class RunState:
         what was recorded).
     bound_population : ndarray, shape (m, n_states)
         Populations projected so far (zero rows for later events).
-    mask : dict or None
-        :meth:`tdse1d.spectra.MaskAccumulator.state`, if the mask method is on.
+    surface_flux : dict or None
+        :meth:`tdse1d.surface_flux.SurfaceFlux.state`, if the surface flux method is on.
     """
 
     step_index: int
@@ -109,7 +109,7 @@ class RunState:
     psi: np.ndarray
     observables: dict
     bound_population: np.ndarray
-    mask: dict | None = None
+    surface_flux: dict | None = None
 
 
 class RunInterrupted(RuntimeError):
@@ -240,15 +240,6 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
     mask = absorber.step_factor(grid, problem.absorber_width, problem.time.step)
 
-    collect = cfg.spectra.photoelectrons == "mask" and np.any(mask < 1) and problem.field.pulses
-    accumulator = None
-    absorb_every = 1
-    if collect:
-        absorb_every = max(1, int(round(MASK_METHOD_INTERVAL / problem.time.step)))
-        a = problem.field.vector_potential(times)
-        g, h = spectra.vector_potential_integrals(times, a)
-        accumulator = spectra.MaskAccumulator(grid.x, times, g, h)
-
     prop = Propagator(
         grid, problem.potential, problem.field, times,
         gauge=cfg.propagation.gauge,
@@ -256,9 +247,14 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         absorber_factor=mask,
         reference=psi0,
         fft_effort=fft_effort,
-        absorb_every=absorb_every,
-        on_absorb=accumulator.accumulate if accumulator is not None else None,
     )
+    notes = []
+    flux = None
+    if cfg.spectra.photoelectrons == "surface_flux" and problem.field.pulses:
+        flux, note = _surface_flux(problem, prop, mask)
+        if note:
+            notes.append(note)
+        prop.surface_flux = flux
     snaps = snapshot_steps(problem)
     pops = population_steps(problem)
     events = np.unique(np.concatenate([snaps, pops, [problem.time.steps]]))
@@ -281,8 +277,10 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         for name in _OBSERVABLE_NAMES:
             getattr(prop.observables, name)[:] = resume.observables[name]
         bound[:] = resume.bound_population
-        if accumulator is not None:
-            accumulator.restore(resume.mask)
+        if flux is not None:
+            if resume.surface_flux is None:
+                raise ValueError("the state to resume holds no surface-flux accumulator")
+            flux.restore(resume.surface_flux)
         first_event = resume.next_event
         snapshots_done = resume.snapshots_done
 
@@ -292,7 +290,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
             psi=prop.psi.copy(),
             observables={name: getattr(prop.observables, name).copy() for name in _OBSERVABLE_NAMES},
             bound_population=bound.copy(),
-            mask=accumulator.state() if accumulator is not None else None,
+            surface_flux=flux.state() if flux is not None else None,
         )
 
     for event_index in range(first_event, len(events)):
@@ -337,9 +335,13 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
 
     continuum = spectra.project_out_bound(final, problem.states.wavefunctions, grid.spacing)
     photo = {"plane_wave": spectra.plane_wave_spectrum(grid.x, continuum, split="momentum")}
-    if accumulator is not None:
-        # the accumulator works in the velocity gauge; A = 0 at the end, so both agree
-        photo["mask"] = accumulator.result(continuum, final_step=-1, split="momentum")
+    if flux is not None:
+        # the flux accumulator works with canonical momenta in the velocity gauge
+        a_end = float(obs.vector_potential[-1])
+        to_velocity = np.exp(-1j * a_end * grid.x)
+        a_start = float(obs.vector_potential[0])
+        photo["surface_flux"] = flux.result(continuum * to_velocity, (final - continuum) * to_velocity,
+                                            psi0 * np.exp(-1j * a_start * grid.x), split="momentum")
 
     return RunResult(
         observables=obs,
@@ -352,5 +354,45 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         harmonic=harmonic,
         cutoff=cutoff,
         photoelectrons=photo,
-        warnings=list(problem.warnings) + monitor.warnings,
+        warnings=list(problem.warnings) + notes + monitor.warnings,
     )
+
+
+def _surface_flux(problem: Problem, prop: Propagator, mask):
+    """The surface-flux accumulator of a run, or (None, reason) if it cannot be set up.
+
+    Surfaces at the last grid points inside the absorbing layers; momenta from
+    :func:`tdse1d.surface_flux.momentum_grid` over the range of
+    :func:`tdse1d.surface_flux.spectrum_top_energy`, capped at the grid's pi / dx, with
+    4 samples per photon energy of the softest pulse, and per bandwidth of any pulse
+    that ionizes with one photon, at the top energy.
+    """
+    grid = problem.grid
+    x = grid.x
+    inside = np.flatnonzero(mask >= 1.0)
+    r = _flux.STENCIL_RADIUS
+    if inside.size == 0 or inside[0] < r or inside[-1] >= x.size - r or not (x[inside[0]] < 0 < x[inside[-1]]):
+        return None, ("no surface-flux photoelectron spectrum: it needs absorbing layers on both sides of "
+                      f"the box with at least {r} inner grid points before each")
+    right, left = int(inside[-1]), int(inside[0])
+    a_t = prop.observables.vector_potential
+    omegas = [p.omega for p in problem.field.pulses if math.isfinite(p.omega) and p.omega > 0]
+    if not omegas:
+        return None, "no surface-flux photoelectron spectrum: no pulse has a carrier frequency"
+    ip = problem.ionization_potential
+    top = _flux.spectrum_top_energy(float(np.max(np.abs(a_t))), ip, omegas)
+    # resolve the photon energy of the softest pulse (ATI comb) and the bandwidth of a
+    # one-photon line, 4 ln 2 / FWHM of the intensity for a transform-limited pulse
+    scales = list(omegas)
+    for p in problem.field.pulses:
+        envelope = getattr(p, "envelope", None)
+        if envelope is not None and p.omega > ip:
+            scales.append(4 * math.log(2) / envelope.intensity_fwhm)
+    momenta, block, capped = _flux.momentum_grid(top, min(scales), max_momentum=math.pi / grid.spacing)
+    note = None
+    if capped:
+        note = (f"the surface-flux momentum grid was limited to {momenta.size} momenta: fewer than "
+                f"{_flux.SAMPLES_PER_PHOTON} samples per photon energy at the top of the spectrum")
+    flux = _flux.SurfaceFlux(x, right, left, momenta, block, problem.time.step, prop.vector_potential_steps(),
+                             float(a_t[-1]), prop.gauge)
+    return flux, note

@@ -14,10 +14,10 @@ Time-frequency analysis
     :func:`gabor_transform`.
 Photoelectron spectra
     :func:`project_out_bound` removes bound-state components; :func:`plane_wave_spectrum`
-    projects a continuum wavefunction on plane waves; :class:`MaskAccumulator` collects
-    the parts removed by an absorber (mask method). Both give a
-    :class:`PhotoelectronSpectrum` with left- and right-going electrons apart, under one
-    of the rules registered in :data:`SPLITS`.
+    projects a continuum wavefunction on plane waves; the surface flux method
+    (:mod:`tdse1d.surface_flux`) counts the electrons crossing surfaces at the absorbers.
+    Both give a :class:`PhotoelectronSpectrum` with left- and right-going electrons
+    apart, under one of the rules registered in :data:`SPLITS`.
 
 Sign conventions
 ----------------
@@ -33,7 +33,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.integrate import cumulative_trapezoid
 from scipy.signal import windows as _scipy_windows
 
 from .registry import registrar
@@ -62,15 +61,10 @@ __all__ = [
     "PhotoelectronSpectrum",
     "SPLITS",
     "plane_wave_spectrum",
-    "vector_potential_integrals",
-    "MaskAccumulator",
 ]
 
 #: relative tolerance on the spacing of a "uniform" time or space grid
 _UNIFORM_RTOL = 1e-6
-
-#: numpy.fft writes into a given array only from numpy 2.0 on
-_FFT_TAKES_OUT = np.lib.NumpyVersion(np.__version__) >= "2.0.0"
 
 
 # --------------------------------------------------------------------------- helpers
@@ -808,14 +802,17 @@ class PhotoelectronSpectrum:
     Attributes
     ----------
     momentum : ndarray, shape (k,)
-        Momentum magnitude |p| (a.u.), uniform from 0 with step ``2 pi / (n dx)``.
+        Final kinetic momentum magnitude |p| (a.u.), uniform: from 0 with step
+        ``2 pi / (n dx)`` for the plane-wave projection, at (m + 1/2) dp for the
+        surface flux method (which never samples p = 0).
     density_left, density_right : ndarray, shape (k,)
         dP/d|p| of electrons going to the left (negative x) and right (a.u.), with
         ``sum(density_left + density_right) * dp`` equal to the norm analysed.
     energy : ndarray, shape (k,)
         Kinetic energy ``p^2 / 2`` (Hartree).
     energy_density_left, energy_density_right : ndarray, shape (k,)
-        dP/dE = (dP/dp) / p (1/Hartree); NaN at p = 0, where it is undefined.
+        dP/dE = (dP/dp) / p (1/Hartree); NaN at p = 0 (plane-wave projection only),
+        where it is undefined.
     split : str
         The key of :data:`SPLITS` that decided left from right.
     """
@@ -970,226 +967,3 @@ def plane_wave_spectrum(x, psi_continuum, *, split="momentum") -> PhotoelectronS
     phi_left = np.fft.fft(left) * factor
     phi_right = np.fft.fft(right) * factor
     return _spectrum_from_amplitudes(np.fft.fft(psi) * factor, phi_left, phi_right, dx, split)
-
-
-def vector_potential_integrals(times, vector_potential):
-    """Running integrals ``G(t) = int A dt`` and ``H(t) = int A^2 dt`` from the first time.
-
-    Trapezoidal rule on the given samples; a propagator with its own quadrature of
-    the Volkov phase should pass its own G and H to :class:`MaskAccumulator`.
-
-    Parameters
-    ----------
-    times : array_like, shape (n,)
-        Increasing times (a.u.).
-    vector_potential : array_like, shape (n,)
-        A(t) at those times (a.u.).
-
-    Returns
-    -------
-    G, H : ndarray, shape (n,)
-        With G[0] = H[0] = 0.
-    """
-    t = np.asarray(times, dtype=float)
-    a = np.asarray(vector_potential, dtype=float)
-    if t.ndim != 1 or a.shape != t.shape or t.size < 2:
-        raise ValueError("times and vector_potential must be 1-D of equal length >= 2")
-    if np.any(np.diff(t) <= 0):
-        raise ValueError("times must be strictly increasing")
-    return cumulative_trapezoid(a, t, initial=0.0), cumulative_trapezoid(a * a, t, initial=0.0)
-
-
-class MaskAccumulator:
-    """Collects the photoelectron amplitude removed by an absorber (mask method).
-
-    In the mask method (Tong, Hino and Toshima, Phys. Rev. A 74, 031405(R) (2006))
-    the part of the wavefunction that an absorbing mask removes at time t is far from
-    the ion and is propagated to the final time T as a free electron in the field, in
-    closed form (Volkov). In the velocity gauge a free electron keeps its canonical
-    momentum p and gains the phase
-
-    ``Phi(p, t) = int_t^T (p + A)^2 / 2 dt'
-    = p^2 (T - t) / 2 + p (G(T) - G(t)) + (H(T) - H(t)) / 2``
-
-    with ``G = int A dt`` and ``H = int A^2 dt``. Each call of :meth:`accumulate` adds
-    ``phi_r(p) exp(-i Phi(p, t))``, where phi_r is the plane-wave amplitude of the
-    removed part (as in :func:`plane_wave_spectrum`); left- and right-absorber parts are
-    kept in separate sums. Electrons that stay bound are never absorbed and are not
-    counted.
-
-    Combining with the electrons left on the grid: the final momentum amplitude is
-    the coherent sum of the absorbed amplitude and the plane-wave amplitude of the
-    continuum part of the wavefunction at the end. Pass that continuum part (bound
-    states projected out) to :meth:`result`, which adds it coherently. Adding the
-    densities of a separate :func:`plane_wave_spectrum` instead drops the interference
-    between the two and is right only when they do not overlap in momentum.
-
-    Usage contract for the propagator: after step ``i`` (the wavefunction at time
-    ``times[i]``) call ``accumulate(i, removed_left, removed_right)`` with the
-    removed parts ``(1 - mask) psi`` restricted to each absorber, on the full grid.
-    In the length gauge first multiply them by ``exp(-i A(t) x)`` (the gauge
-    transformation to the velocity gauge), so that the grid momentum is the canonical
-    one. Each step index may be used once.
-
-    Parameters
-    ----------
-    x : array_like, shape (n,)
-        Uniform grid positions (bohr); the momentum axis is the FFT one,
-        ``p = 2 pi k / (n dx)``.
-    times : array_like, shape (s,)
-        Times of the steps (a.u.), increasing.
-    vector_potential_integral : array_like, shape (s,)
-        G(t) = int A dt at those times, from any fixed origin (a.u.).
-    vector_potential_square_integral : array_like, shape (s,)
-        H(t) = int A^2 dt at those times, from any fixed origin (a.u.).
-    final_time : float, optional
-        Time T the amplitudes are referred to; >= ``times[-1]`` (the default). A is
-        taken to vanish after ``times[-1]``, so G and H stay constant up to T.
-    """
-
-    def __init__(
-        self,
-        x,
-        times,
-        vector_potential_integral,
-        vector_potential_square_integral,
-        final_time=None,
-    ):
-        x, dx = _uniform_axis(x, "x")
-        t = np.asarray(times, dtype=float)
-        g = np.asarray(vector_potential_integral, dtype=float)
-        h = np.asarray(vector_potential_square_integral, dtype=float)
-        if t.ndim != 1 or t.size < 1:
-            raise ValueError(f"times must be a non-empty 1-D array, got shape {t.shape}")
-        if g.shape != t.shape or h.shape != t.shape:
-            raise ValueError(
-                f"the integrals of A and A^2 must have the shape of times {t.shape}, got "
-                f"{g.shape} and {h.shape}"
-            )
-        if not (np.all(np.isfinite(t)) and np.all(np.isfinite(g)) and np.all(np.isfinite(h))):
-            raise ValueError("times and the integrals of A must be finite")
-        if np.any(np.diff(t) <= 0):
-            raise ValueError("times must be strictly increasing")
-        final = t[-1] if final_time is None else float(final_time)
-        if not final >= t[-1]:
-            raise ValueError(f"final_time {final} is before the last step time {t[-1]}")
-        self.x = x
-        self.dx = dx
-        self.times = t
-        self.final_time = final
-        self._g = g
-        self._h = h
-        self._p, self._factor = _plane_wave_factor(x, dx)
-        n = x.size
-        self._amp_left = np.zeros(n, complex)
-        self._amp_right = np.zeros(n, complex)
-        # work arrays reused by every call: the propagator calls accumulate each step
-        self._phase = np.empty(n)
-        self._volkov = np.empty(n, complex)
-        self._transform = np.empty(n, complex)
-        self._used = np.zeros(t.size, bool)
-
-    def _volkov_factor(self, step_index):
-        """``dx/sqrt(2 pi) exp(-i p x0) exp(-i Phi(p, t_i))`` into the work array."""
-        tau = self.final_time - self.times[step_index]
-        dg = self._g[-1] - self._g[step_index]
-        dh = self._h[-1] - self._h[step_index]
-        phase = self._phase
-        np.multiply(self._p, 0.5 * tau, out=phase)
-        phase += dg
-        phase *= self._p
-        phase += 0.5 * dh
-        out = self._volkov
-        np.cos(phase, out=out.real)
-        np.sin(phase, out=out.imag)
-        np.negative(out.imag, out=out.imag)
-        out *= self._factor
-        return out
-
-    def _check_index(self, step_index):
-        if int(step_index) != step_index or not 0 <= step_index < self.times.size:
-            raise IndexError(f"step_index must be in [0, {self.times.size}), got {step_index}")
-        return int(step_index)
-
-    def accumulate(self, step_index, removed_left, removed_right):
-        """Add the parts removed by the left and right absorbers at one step.
-
-        Parameters
-        ----------
-        step_index : int
-            Index into ``times`` of the step at which the parts were removed.
-        removed_left, removed_right : array_like of complex, shape (n,) or None
-            The removed wavefunction (velocity gauge), zero outside each absorber.
-            None means nothing was removed on that side.
-        """
-        i = self._check_index(step_index)
-        if self._used[i]:
-            raise ValueError(f"step {i} was already accumulated")
-        factor = self._volkov_factor(i)
-        for removed, total in ((removed_left, self._amp_left), (removed_right, self._amp_right)):
-            if removed is None:
-                continue
-            if np.shape(removed) != self.x.shape:
-                raise ValueError(
-                    f"removed part has shape {np.shape(removed)}, the grid {self.x.shape}"
-                )
-            if _FFT_TAKES_OUT:
-                np.fft.fft(removed, out=self._transform)
-            else:  # pragma: no cover - older numpy
-                self._transform[...] = np.fft.fft(removed)
-            self._transform *= factor
-            total += self._transform
-        self._used[i] = True
-
-    def state(self) -> dict:
-        """Copies of the accumulated amplitudes and of the steps used (for checkpoints)."""
-        return {"amp_left": self._amp_left.copy(), "amp_right": self._amp_right.copy(), "used": self._used.copy()}
-
-    def restore(self, state: dict):
-        """Continue from a :meth:`state` of an accumulator on the same grid and times."""
-        for name, target in (("amp_left", self._amp_left), ("amp_right", self._amp_right), ("used", self._used)):
-            value = np.asarray(state[name])
-            if value.shape != target.shape:
-                raise ValueError(f"{name} has shape {value.shape}, expected {target.shape}")
-            target[...] = value
-
-    def result(self, final_continuum=None, *, final_step=-1, split="position"):
-        """The photoelectron spectrum at the final time.
-
-        Parameters
-        ----------
-        final_continuum : array_like, shape (n,), optional
-            Continuum part (bound states projected out) of the wavefunction still on
-            the grid at ``times[final_step]``, velocity gauge. It is propagated to the
-            final time as a free electron and added coherently, its x < 0 part to
-            the left sum and x > 0 part to the right sum. The accumulator itself is
-            not changed.
-        final_step : int
-            Index into ``times`` of ``final_continuum``. Default the last step.
-        split : str
-            A key of :data:`SPLITS`. ``"position"`` (default): left = absorbed by the
-            left absorber (or on x < 0 at the end). ``"momentum"``: the coherent total
-            split by the sign of p, the exact total distribution.
-
-        Returns
-        -------
-        PhotoelectronSpectrum
-        """
-        if split not in SPLITS:
-            raise ValueError(f"unknown split {split!r}; choose one of {sorted(SPLITS)}")
-        left = self._amp_left.copy()
-        right = self._amp_right.copy()
-        total = left + right
-        if final_continuum is not None:
-            psi = np.asarray(final_continuum, dtype=complex)
-            if psi.shape != self.x.shape:
-                raise ValueError(
-                    f"final_continuum has shape {psi.shape}, the grid {self.x.shape}"
-                )
-            i = final_step + self.times.size if final_step < 0 else final_step
-            factor = self._volkov_factor(self._check_index(i)).copy()
-            psi_left, psi_right = _sides(self.x, psi)
-            left += np.fft.fft(psi_left) * factor
-            right += np.fft.fft(psi_right) * factor
-            total += np.fft.fft(psi) * factor
-        return _spectrum_from_amplitudes(total, left, right, self.dx, split)

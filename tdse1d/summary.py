@@ -94,12 +94,12 @@ def photoelectron_cutoff(f: h5py.File, omega0: float) -> float:
     A cutoff stored by the run (attribute ``cutoff_energy`` of a
     ``/spectra/photoelectron/<method>`` group) is used as is. Otherwise a rough rule
     of ours: :func:`tdse1d.spectra.read_cutoff` applied to the energy density summed over
-    both directions, from the mask method if there, else from the plane-wave projection,
+    both directions, from the surface flux (or, in older files, mask) method if there, else from the plane-wave projection,
     with the plateau region starting at half a photon energy and a drop of 2 decades.
     """
     from .spectra import read_cutoff
 
-    for method in ("mask", "plane_wave"):
+    for method in ("surface_flux", "mask", "plane_wave"):
         key = f"spectra/photoelectron/{method}"
         if key not in f:
             continue

@@ -426,7 +426,7 @@ class PhotoelectricPeak(CaseKind):
 
     def run(self):
         out = self.runner.run(self.case.input())
-        spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+        spec = out.result.photoelectrons.get("surface_flux") or out.result.photoelectrons["plane_wave"]
         est = out.problem.pulse_estimates[0]
         e = spec.energy
         dens = np.nan_to_num(spec.energy_density)
@@ -478,7 +478,7 @@ class PhotoelectronEdges(_ScanKind):
         fig, ax = plt.subplots(figsize=(5, 3.4))
         for (a, out), value in zip(readings, values):
             up = a.ponderomotive_energy
-            spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+            spec = out.result.photoelectrons.get("surface_flux") or out.result.photoelectrons["plane_wave"]
             keep = spec.energy > 0
             ax.plot(spec.energy[keep] / up, np.log10(np.maximum(np.nan_to_num(spec.energy_density[keep]), 1e-300)),
                     lw=0.6, label=str(value))
@@ -519,7 +519,7 @@ class Streaking(_ScanKind):
     def run(self):
         shifts, minus_a = [], []
         for value, out in self.points():
-            spec = out.result.photoelectrons.get("mask") or out.result.photoelectrons["plane_wave"]
+            spec = out.result.photoelectrons.get("surface_flux") or out.result.photoelectrons["plane_wave"]
             p = spec.momentum
             xuv = out.problem.pulse_estimates[-1]
             p0 = math.sqrt(2 * (xuv.photon_energy - xuv.ionization_potential))

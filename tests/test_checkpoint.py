@@ -39,8 +39,8 @@ snapshots = 7
 COMPARED = [
     "observables/norm", "observables/dipole", "observables/momentum", "observables/acceleration",
     "observables/initial_population", "observables/bound_population", "snapshots/psi", "snapshots/time",
-    "final/psi", "spectra/harmonic/power", "spectra/photoelectron/mask/density_left",
-    "spectra/photoelectron/mask/density_right", "ionization/probability",
+    "final/psi", "spectra/harmonic/power", "spectra/photoelectron/surface_flux/density_left",
+    "spectra/photoelectron/surface_flux/density_right", "ionization/probability",
 ]
 
 

@@ -478,7 +478,7 @@ def test_result_file_holds_the_contract(argon):
             assert name in f, name
             assert isinstance(f[name], h5py.Dataset), name
             assert "units" in f[name].attrs, name
-        for group in ("spectra/photoelectron/mask", "spectra/photoelectron/plane_wave"):
+        for group in ("spectra/photoelectron/surface_flux", "spectra/photoelectron/plane_wave"):
             for name in ("momentum", "density_left", "density_right", "energy", "energy_density_left",
                          "energy_density_right"):
                 assert "units" in f[group][name].attrs, (group, name)

@@ -2,10 +2,7 @@
 
 References used below: Fourier transforms of Gaussians and Parseval's theorem (exact);
 the Gabor transform of a linear chirp has its ridge exactly at the instantaneous
-frequency (Gaussian integral, derived in the test); a free electron keeps its
-(canonical) momentum distribution, so an exactly propagated free wave packet is its own
-reference for the mask method (Tong, Hino and Toshima, Phys. Rev. A 74, 031405(R)
-(2006)); harmonic-oscillator eigenfunctions (Hermite functions) are exact bound states.
+frequency (Gaussian integral, derived in the test); harmonic-oscillator eigenfunctions (Hermite functions) are exact bound states.
 """
 
 import math
@@ -22,7 +19,6 @@ from tdse1d.spectra import (
     DIPOLE_FORMS,
     SPLITS,
     WINDOWS,
-    MaskAccumulator,
     Tukey,
     default_gabor_width,
     dipole_forms,
@@ -31,7 +27,6 @@ from tdse1d.spectra import (
     plane_wave_spectrum,
     project_out_bound,
     read_cutoff,
-    vector_potential_integrals,
 )
 
 OMEGA0 = 0.057  # 800 nm in a.u. (common practice)
@@ -354,123 +349,6 @@ def test_project_out_bound_removes_exactly_the_bound_components():
         project_out_bound(psi, 2 * states, dx)
     with pytest.raises(ValueError, match="shape"):
         project_out_bound(psi, states[:, :-1], dx)
-
-
-# --------------------------------------------------------------------------- mask method
-
-
-def cos8_mask(x, width):
-    """cos^(1/8) absorber over the outer ``width`` bohr at each end (common practice)."""
-    edge = np.max(np.abs(x)) - width
-    depth = np.clip((np.abs(x) - edge) / width, 0, 1)
-    return np.cos(0.5 * np.pi * depth) ** 0.125
-
-
-def run_free_packet_with_mask(vector_potential, x, psi0, dt, steps, phases_for_accumulator=True):
-    """Exact free propagation in momentum space, exp(-i (p + A)^2 dt / 2) per step, with a mask.
-
-    A is taken constant over each step at its midpoint value, and G, H are the exact
-    integrals of that piecewise-constant A, so the Volkov phase is exact on the grid.
-    """
-    dx = x[1] - x[0]
-    p = 2 * np.pi * np.fft.fftfreq(x.size, dx)
-    mask = cos8_mask(x, 30.0)
-    times = dt * np.arange(1, steps + 1)
-    a_mid = vector_potential(times - 0.5 * dt)
-    g = np.cumsum(a_mid * dt)
-    h = np.cumsum(a_mid**2 * dt)
-    if not phases_for_accumulator:
-        g, h = np.zeros_like(g), np.zeros_like(h)
-    acc = MaskAccumulator(x, times, g, h)
-    psi = psi0.copy()
-    for i in range(steps):
-        psi = np.fft.ifft(np.exp(-0.5j * (p + a_mid[i]) ** 2 * dt) * np.fft.fft(psi))
-        removed = (1 - mask) * psi
-        psi = psi - removed
-        acc.accumulate(i, np.where(x < 0, removed, 0), np.where(x > 0, removed, 0))
-    return acc, psi
-
-
-def pulse_vector_potential(t, a0=1.0, cycles=3):
-    """sin^2 pulse with A = 0 at both ends (zero area: the final A vanishes)."""
-    duration = cycles * 2 * np.pi / OMEGA0
-    inside = (t > 0) & (t < duration)
-    return np.where(inside, a0 * np.sin(np.pi * t / duration) ** 2 * np.sin(OMEGA0 * t), 0.0)
-
-
-@pytest.mark.parametrize("field", ["none", "pulse"])
-def test_mask_method_conserves_the_free_momentum_distribution(field):
-    x = centred_grid(512, 0.4)
-    p0, width = 1.5, 3.0
-    psi0 = gaussian_packet(x, 0.0, p0, width)
-    a_of_t = (lambda t: 0.0 * t) if field == "none" else pulse_vector_potential
-    acc, psi_end = run_free_packet_with_mask(a_of_t, x, psi0, 0.1, 3000)
-    on_grid = np.sum(np.abs(psi_end) ** 2) * 0.4
-    assert on_grid < 1e-3  # nearly everything has been absorbed by t = 300
-
-    exact = gaussian_momentum_density(plane_wave_spectrum(x, psi0).momentum, p0, width)
-    # the coherent sum of the absorbed parts and the rest on the grid is exact on the grid
-    full = acc.result(psi_end, split="momentum")
-    assert np.allclose(full.density_right, exact, atol=1e-10)
-    assert np.isclose(full.norm, 1.0, rtol=1e-10)
-    # the absorbed part alone already gives the distribution to ~1e-3
-    absorbed = acc.result(split="momentum")
-    assert np.max(np.abs(absorbed.density_right - exact)) < 1e-3 * exact.max()
-    # the right absorber took the packet; the mask's small reflection went left
-    by_side = acc.result(psi_end)
-    assert by_side.split == "position"
-    assert np.sum(by_side.density_right) * by_side.momentum_step > 0.99
-    assert np.isclose(by_side.norm, 1.0, atol=1e-6)
-
-
-def test_mask_method_needs_the_volkov_phase_in_a_field():
-    # with the field-dependent part of the phase dropped the spectrum is visibly wrong:
-    # the check above is sensitive to G and H
-    x = centred_grid(512, 0.4)
-    psi0 = gaussian_packet(x, 0.0, 1.5, 3.0)
-    acc, _ = run_free_packet_with_mask(
-        pulse_vector_potential, x, psi0, 0.1, 3000, phases_for_accumulator=False
-    )
-    spec = acc.result(split="momentum")
-    exact = gaussian_momentum_density(spec.momentum, 1.5, 3.0)
-    assert np.max(np.abs(spec.density_right - exact)) > 0.05 * exact.max()
-
-
-def test_mask_final_time_after_last_step_changes_only_a_phase():
-    x = centred_grid(256, 0.4)
-    psi0 = gaussian_packet(x, 0.0, 1.5, 3.0)
-    times = np.arange(1, 6) * 1.0
-    g, h = vector_potential_integrals(times, 0.1 * np.sin(times))
-    removed = 0.1 * psi0
-    a = MaskAccumulator(x, times, g, h)
-    b = MaskAccumulator(x, times, g, h, final_time=50.0)
-    for acc in (a, b):
-        acc.accumulate(0, None, removed)
-        acc.accumulate(3, None, 0.5 * removed)
-    assert np.allclose(a.result().density_right, b.result().density_right)
-    # a final wavefunction given at step i counts as if it had been removed then
-    c = MaskAccumulator(x, times, g, h)
-    c.accumulate(0, None, removed)
-    assert np.allclose(
-        c.result(0.5 * removed, final_step=3, split="momentum").density,
-        a.result(split="momentum").density,
-        rtol=1e-12,
-    )
-    with pytest.raises(ValueError, match="already"):
-        a.accumulate(3, None, removed)
-    with pytest.raises(IndexError):
-        a.accumulate(5, None, removed)
-    with pytest.raises(ValueError, match="shape"):
-        a.accumulate(4, removed[:-1], None)
-    with pytest.raises(ValueError, match="before the last"):
-        MaskAccumulator(x, times, g, h, final_time=2.0)
-
-
-def test_vector_potential_integrals_of_a_known_function():
-    t = np.linspace(0, 2 * np.pi, 2001)
-    g, h = vector_potential_integrals(t, np.cos(t))
-    assert np.allclose(g, np.sin(t), atol=1e-6)
-    assert np.allclose(h, t / 2 + np.sin(2 * t) / 4, atol=1e-6)
 
 
 def test_module_has_no_io():

@@ -27,7 +27,7 @@ def _harmonic(f):
 
 
 def _photoelectron(f):
-    for method in ("mask", "plane_wave"):
+    for method in ("surface_flux", "mask", "plane_wave"):
         key = f"spectra/photoelectron/{method}"
         if key in f:
             g = f[key]
