@@ -276,7 +276,7 @@ class WriterLock:
             os.close(fd)
 
     def __enter__(self):
-        return self.acquire()
+        return self if self.fd is not None else self.acquire()
 
     def __exit__(self, *exc):
         self.release()
