@@ -104,6 +104,7 @@ __all__ = [
     "install_stop_handlers",
     "remove_stop_handlers",
     "local_cluster",
+    "open_local_client",
     "SCAN_LOCK",
 ]
 
@@ -1065,6 +1066,33 @@ def local_cluster(workers: int | None = None, dashboard: bool = False):
         )
 
 
+def open_local_client(workers: int | None = None, dashboard: bool = False):
+    """A :func:`local_cluster` and a client of it, with the HTTP servers stopped (the
+    scheduler's kept with ``dashboard``) and the workers' signal handlers installed.
+
+    Returns
+    -------
+    cluster, client
+        Close both when done.
+    """
+    from distributed import Client
+
+    cluster = local_cluster(workers, dashboard)
+    try:
+        client = Client(cluster, set_as_default=False)
+        try:
+            if not dashboard:
+                client.run_on_scheduler(_stop_scheduler_http)
+            client.register_plugin(_worker_setup(stop_http=True), name="tdse1d-stop-on-signals")
+        except BaseException:
+            client.close()
+            raise
+    except BaseException:
+        cluster.close()
+        raise
+    return cluster, client
+
+
 def connect(address: str, timeout: float = 10.0):
     """A Dask client of the scheduler at ``address``; :class:`SchedulerUnreachable` if none answers."""
     from distributed import Client
@@ -1175,14 +1203,11 @@ def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard,
             if scheduler is not None:
                 client = own_client = connect(scheduler, timeout)
             else:
-                from distributed import Client
-
-                own_cluster = local_cluster(workers, dashboard)
-                client = own_client = Client(own_cluster, set_as_default=False)
-                if not dashboard:
-                    client.run_on_scheduler(_stop_scheduler_http)
-        # workers stop their runs with a checkpoint on SIGTERM/SIGINT (also workers that join later)
-        client.register_plugin(_worker_setup(stop_http=own_cluster is not None), name="tdse1d-stop-on-signals")
+                own_cluster, client = open_local_client(workers, dashboard)
+                own_client = client
+        if own_cluster is None:
+            # workers stop their runs with a checkpoint on SIGTERM/SIGINT (also workers that join later)
+            client.register_plugin(_worker_setup(stop_http=False), name="tdse1d-stop-on-signals")
         by_key = {}
         futures = []
         for rank, p in enumerate(todo):

@@ -67,9 +67,12 @@ HDF5_SIGNATURE = b"\x89HDF\r\n\x1a\n"
 def describe_os_error(exc: OSError, path=None, action: str | None = "write") -> str:
     """One line for a failed file operation: what, where, why (no traceback).
 
+    ``path`` (the file the user asked for) is named rather than the helper file that
+    failed (``.part``, ``.lock``); without it, the file of the error.
+
     ``action`` None gives ``'FILE': REASON`` (when it is not known whether a read or a
     write failed)."""
-    where = exc.filename if exc.filename is not None else path
+    where = path if path is not None else exc.filename
     why = exc.strerror or str(exc)
     if exc.errno == errno.ENOSPC:
         why = "no space left on the device"
