@@ -471,15 +471,29 @@ def content_problems(f, token: str | None = None) -> list[str]:
         return ["no grid_points/steps attributes"]
     if token is not None and f.attrs.get(WRITER_ATTR) != token:
         problems.append("written over by another writer")
+    # shapes that follow from the header (the per-step series are checked against their
+    # own time axis, whatever its length: a run may store them decimated)
     expected = {"grid/x": (n,), "final/psi": (n,), "states/energy": None, "spectra/harmonic/power": None,
-                "spectra/harmonic/frequency": None, "ionization/probability": (), "snapshots/psi": None}
-    for name in ("time", "norm", "dipole", "momentum", "acceleration", "initial_population"):
-        expected[f"observables/{name}"] = (s + 1,)
+                "spectra/harmonic/frequency": None, "ionization/probability": None, "snapshots/psi": None,
+                "snapshots/time": None, "observables/time": None}
     for name, shape in expected.items():
         if name not in f:
             problems.append(f"{name} missing")
         elif shape is not None and f[name].shape != shape:
             problems.append(f"{name} has shape {f[name].shape}, expected {shape}")
+    if "observables/time" in f:
+        steps = f["observables/time"].shape
+        if s > 0 and not 1 < steps[0] <= s + 1:
+            problems.append(f"observables/time has shape {steps} for {s} steps")
+        for name in ("norm", "dipole", "momentum", "acceleration"):
+            key = f"observables/{name}"
+            if key not in f:
+                problems.append(f"{key} missing")
+            elif f[key].shape != steps:
+                problems.append(f"{key} has shape {f[key].shape}, expected {steps}")
+    if "spectra/harmonic/power" in f and "spectra/harmonic/frequency" in f \
+            and f["spectra/harmonic/power"].shape != f["spectra/harmonic/frequency"].shape:
+        problems.append("spectra/harmonic/power and frequency differ in shape")
     if "snapshots/psi" in f and "snapshots/time" in f and f["snapshots/psi"].shape[0] != f["snapshots/time"].shape[0]:
         problems.append("snapshots/psi and snapshots/time differ in length")
     return problems
