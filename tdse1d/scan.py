@@ -783,7 +783,13 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     record = {"host": socket.gethostname(), "pid": os.getpid(), "source": source, "started_at": time.time()}
     control = None
     try:
-        config = parse_input(tomllib.loads(resolved_toml), source=source, base_dir=base_dir)
+        raw = tomllib.loads(resolved_toml)
+        if result_matches(output, input_hash(raw)):
+            # finished meanwhile (by another process, or by this task on a worker that was
+            # stopped before it could report): not computed twice
+            record.update(status="done", seconds=0.0, already_finished=True, finished_at=time.time())
+            return record
+        config = parse_input(raw, source=source, base_dir=base_dir)
         control = _register(api.default_control(config))
         with fftw_wisdom():
             # an unfinished point continues from the checkpoint its last attempt left

@@ -222,7 +222,8 @@ def test_sigterm_to_a_scan_worker_leaves_a_checkpoint_that_the_scan_continues(tm
         assert report.interrupted == [point.index] or point.index in report.failed, report
         report = scan.run_scan(plan, out, workers=1, progress=False)
     assert report.done == [point.index]
-    again = [json.loads(p.read_text()) for p in hold.glob("propagation.*.json") if str(first["pid"]) not in p.name]
+    again = [json.loads(p.read_text()) for p in hold.glob("propagation.*.json")
+             if p.name != f"propagation.{first['pid']}.json"]
     assert again and all(a["resumed_from"] is not None and a["resumed_from"] >= state.step_index for a in again)
     assert scan.result_matches(out / "points" / f"{point.hash}.h5", point.hash) and not cp.exists()
 

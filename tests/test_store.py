@@ -374,6 +374,8 @@ def read_only_dir(tmp_path):
     ["scan", "plan.toml", "--quiet", "--point", "0"],
     ["plot", "r.h5"],
     ["export", "r.h5", "-o", "h.csv"],
+    ["validate", "--cases", Path(__file__).resolve().parents[1] / "validation", "--only", "ground_state_softcore",
+     "-o", "report"],
 ])
 def test_read_only_directory_is_one_line_for_every_command(read_only_dir, command):
     before = (read_only_dir / "r.h5").read_bytes()
