@@ -116,6 +116,8 @@ def _read_holder(path: Path) -> LockHolder | None:
 
 
 def _pid_alive(pid: int) -> bool:
+    if os.name == "nt":  # os.kill there terminates the process: never probe, assume alive
+        return True
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
@@ -289,6 +291,20 @@ class WriterLock:
 # ------------------------------------------------------------- guarded files
 
 
+def _pwrite(fd, data, offset):
+    if hasattr(os, "pwrite"):
+        return os.pwrite(fd, data, offset)
+    os.lseek(fd, offset, os.SEEK_SET)  # pragma: no cover - platforms without pwrite
+    return os.write(fd, data)
+
+
+def _pread(fd, n, offset):
+    if hasattr(os, "pread"):
+        return os.pread(fd, n, offset)
+    os.lseek(fd, offset, os.SEEK_SET)  # pragma: no cover - platforms without pread
+    return os.read(fd, n)
+
+
 class GuardedFile:
     """A binary file for h5py's ``fileobj`` driver that never reports a failed write.
 
@@ -336,7 +352,7 @@ class GuardedFile:
             try:
                 done = 0
                 while done < n:
-                    done += os.pwrite(self.fd, view[done:], self.pos + done)
+                    done += _pwrite(self.fd, view[done:], self.pos + done)
             except OSError as exc:
                 self.error = exc
         if self.error is not None:
@@ -348,7 +364,7 @@ class GuardedFile:
     def readinto(self, buffer):
         view = memoryview(buffer).cast("B")
         n = len(view)
-        data = os.pread(self.fd, n, self.pos) if n else b""
+        data = _pread(self.fd, n, self.pos) if n else b""
         view[: len(data)] = data
         view[len(data):] = bytes(n - len(data))
         for offset, chunk in self._overlay:  # writes kept in memory after a failure
