@@ -321,3 +321,26 @@ def test_a_point_file_missing_data_is_not_skipped(tmp_path):
     again = scan.run_one(plan, out, 0)
     assert again.done == [0] and not again.skipped
     assert scan.result_matches(path, plan.points[0].hash)
+
+
+def test_full_disk_while_writing_the_summary_keeps_the_earlier_one(tmp_path, monkeypatch):
+    import errno
+
+    from tdse1d import store
+    from tdse1d.summary import write_summary
+
+    plan = scan.load_plan(_plan(tmp_path))
+    out = tmp_path / "out"
+    assert scan.run_one(plan, out, 0).done == [0]
+    write_summary(plan, out)
+    before = (out / "summary.h5").read_bytes()
+
+    def full(fd, data, offset):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(store.os, "pwrite", full)
+    with pytest.raises(OSError) as info:
+        write_summary(plan, out)
+    assert info.value.errno == errno.ENOSPC
+    assert (out / "summary.h5").read_bytes() == before
+    assert not list(out.glob("*.tmp"))
