@@ -10,7 +10,10 @@ Each command of the ``tdse1d`` program is a thin layer over one of these::
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import json
+import os
+import time
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from .config import RunConfig, load_input
@@ -91,15 +94,65 @@ class RunOutcome:
     path: Path
     problem: Problem
     result: object
+    notes: tuple = field(default=())
+    """Remarks for the user, e.g. a stale lock of a dead writer taken over."""
+    stopped_late: bool = False
+    """A stop was requested after the last step: the run finished its analysis and wrote its result."""
 
 
 def output_path(config: RunConfig, output=None) -> Path:
-    """Result file of a run: ``output``, else ``output.file``, else INPUT-STEM.h5 here."""
+    """Result file of a run: ``output`` (relative to the working directory), else
+    ``output.file`` (relative to the input file's folder, like every path of an
+    input), else INPUT-STEM.h5 in the working directory."""
     if output is not None:
         return Path(output)
     if config.output.file is not None:
-        return Path(config.output.file)
+        return config.resolve_path(config.output.file)
     return Path(Path(config.source).stem + ".h5")
+
+
+def _output_key(config: RunConfig, output) -> str | None:
+    if output is not None:
+        return "-o"
+    return "output.file" if config.output.file is not None else None
+
+
+#: test-only handshake (docs/checkpoints.md, "Testing the signals"): a directory in which
+#: a run announces that it reached a known point (``PHASE.PID.json``) and then waits until
+#: it is asked to stop or a file ``go`` appears; ``TDSE1D_TEST_HOLD_AT`` names the point,
+#: ``propagation`` (the first chunk boundary, default) or ``analysis`` (after the last step)
+HOLD_ENV = "TDSE1D_TEST_HOLD"
+HOLD_AT_ENV = "TDSE1D_TEST_HOLD_AT"
+_HOLD_LIMIT_S = 300.0  # a forgotten handshake must not hang a process for ever
+
+
+def _hold(phase: str, control, **info) -> None:
+    directory = os.environ.get(HOLD_ENV)
+    if not directory or os.environ.get(HOLD_AT_ENV, "propagation") != phase:
+        return
+    d = Path(directory)
+    record = {"pid": os.getpid(), "phase": phase, **info}
+    tmp = d / f"{phase}.{os.getpid()}.json.tmp"
+    tmp.write_text(json.dumps(record), encoding="utf-8")
+    os.replace(tmp, d / f"{phase}.{os.getpid()}.json")
+    deadline = time.monotonic() + _HOLD_LIMIT_S
+    while not (d / "go").exists() and not control.stop_requested and time.monotonic() < deadline:
+        time.sleep(0.005)
+
+
+class _HoldingProgress:
+    """The caller's progress callback, plus the test handshake at the first chunk boundary."""
+
+    def __init__(self, progress, control, resumed_from):
+        self.progress, self.control, self.resumed_from = progress, control, resumed_from
+        self.held = False
+
+    def __call__(self, step, steps):
+        if self.progress is not None:
+            self.progress(step, steps)
+        if not self.held and step < steps:
+            self.held = True
+            _hold("propagation", self.control, step=int(step), steps=int(steps), resumed_from=self.resumed_from)
 
 
 def run(config: RunConfig | str, output=None, progress=None, overrides=(), resume=False, control=None,
@@ -156,28 +209,45 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
 
     if strict and problem.warnings:
         raise NumericalError(f"before the run: {problem.warnings[0]}", 0, problem.time.start)
+    from .config import InputError
+    from .errors import OutputError
+    from .store import describe_os_error, refuse_reason
+
     path = output_path(problem.config, output)
+    reason = refuse_reason(path)
+    if reason is not None:  # checked before anything is computed
+        raise InputError(reason, _output_key(problem.config, output), problem.config.source)
     cp_path = checkpoint_path(path)
     digest = input_hash(problem.config)
-    state = snapshots = None
-    if resume and cp_path.exists():
-        state, snapshots = read_checkpoint(cp_path, digest)
     if control is None:
         control = default_control(problem.config)
     snap_times = problem.time.times[snapshot_steps(problem)]
-    with ResultWriter(path, problem, snap_times) as writer:
-        sink = CheckpointSink(writer, cp_path, digest)
-        if snapshots is not None:
-            sink.restore_snapshots(snapshots)
-        result = simulate(problem, sink=sink, progress=progress, control=control, resume=state, strict=strict)
-        from .analysis import analyse_run, write_analysis
+    try:
+        # the writer takes the result's lock and writes the header: an output that cannot
+        # be written (read-only, missing directory, another writer) fails here, not after the run
+        with ResultWriter(path, problem, snap_times) as writer:
+            state = snapshots = None
+            if resume and cp_path.exists():  # read under the lock: the checkpoint is the writer's
+                state, snapshots = read_checkpoint(cp_path, digest)
+            sink = CheckpointSink(writer, cp_path, digest)
+            if snapshots is not None:
+                sink.restore_snapshots(snapshots)
+            watched = _HoldingProgress(progress, control, None if state is None else int(state.step_index))
+            result = simulate(problem, sink=sink, progress=watched, control=control, resume=state, strict=strict)
+            # a stop request from here on comes after the last step: the analysis and the
+            # writing take a small fraction of the run, so the run finishes (docs/checkpoints.md)
+            _hold("analysis", control)
+            from .analysis import analyse_run, write_analysis
 
-        try:  # the comparison must never cost the run itself
-            analysis = analyse_run(problem, result)
-        except (ValueError, IndexError, ArithmeticError) as exc:
-            analysis = None
-            result.warnings.append(f"semiclassical analysis not stored: {exc}")
-        writer.write_result(result, extra=None if analysis is None else lambda h5: write_analysis(h5, analysis))
-        writer.close()
-    sink.discard()
-    return RunOutcome(path, problem, result)
+            try:  # the comparison must never cost the run itself
+                analysis = analyse_run(problem, result)
+            except (ValueError, IndexError, ArithmeticError) as exc:
+                analysis = None
+                result.warnings.append(f"semiclassical analysis not stored: {exc}")
+            writer.write_result(result, extra=None if analysis is None else lambda h5: write_analysis(h5, analysis))
+            writer.close()
+            notes = (writer.note,) if writer.note else ()
+        sink.discard()
+    except OSError as exc:
+        raise OutputError(describe_os_error(exc, path)) from None
+    return RunOutcome(path, problem, result, notes=notes, stopped_late=bool(control.stop_requested))

@@ -90,7 +90,11 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
     """
     path = Path(path)
     tmp = path.with_name(path.name + ".tmp")
-    with h5py.File(tmp, "w") as f:
+    # through a GuardedFile: a full disk raises OSError here (tmp removed, the previous
+    # checkpoint intact) instead of leaving the HDF5 library in a state that crashes at exit
+    from .store import new_hdf5
+
+    with new_hdf5(tmp) as f:
         f.attrs["format"] = _FORMAT
         f.attrs["format_version"] = _FORMAT_VERSION
         f.attrs["tdse1d_version"] = __version__

@@ -16,7 +16,7 @@ import sys
 
 from . import __version__
 from .config import InputError
-from .errors import NumericalError
+from .errors import NumericalError, OutputError
 
 #: command name -> module implementing it
 COMMANDS = {
@@ -111,6 +111,11 @@ def main(argv=None) -> int:
             raise
         print(f"tdse1d: error: {exc}", file=sys.stderr)
         return EXIT_FAILURE
+    except OutputError as exc:
+        if debug:
+            raise
+        print(f"tdse1d: error: {exc}", file=sys.stderr)
+        return EXIT_FAILURE
     except BrokenPipeError:
         # the reader went away (e.g. `tdse1d export ... | head`): not an error of ours
         import os
@@ -121,6 +126,13 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("tdse1d: interrupted", file=sys.stderr)
         return 130
+    except OSError as exc:  # a file that cannot be written or read (read-only, full disk...)
+        if debug:
+            raise
+        from .store import describe_os_error
+
+        print(f"tdse1d: error: {describe_os_error(exc, action=None)}", file=sys.stderr)
+        return EXIT_FAILURE
 
 
 def entry_point():  # console script

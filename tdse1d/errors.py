@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["NumericalError"]
+__all__ = ["NumericalError", "OutputError", "OutputBusy"]
 
 
 class NumericalError(RuntimeError):
@@ -19,3 +19,11 @@ class NumericalError(RuntimeError):
         self.step = step
         self.time = time
         super().__init__(f"{message} at step {step}, t = {time:.6g} a.u.")
+
+
+class OutputError(RuntimeError):
+    """A result cannot be written where asked (one line for the user, exit status 1)."""
+
+
+class OutputBusy(OutputError):
+    """Another process is writing the same result or scan directory; the message names it."""

@@ -3,15 +3,29 @@
 Plans are cached per process; :func:`export_wisdom` and :func:`import_wisdom` let the
 caller (the command-line layer) keep FFTW's wisdom between runs, so that measuring the
 best plan is paid once per machine.
+
+The stored form is data only, never code: JSON ``{"format": "tdse1d-fftw-wisdom",
+"version": 1, "wisdom": [base64, ...]}`` holding the byte strings FFTW exports (one per
+precision). Reading checks every field's type before anything reaches FFTW.
 """
 
 from __future__ import annotations
 
-import pickle
+import base64
+import binascii
+import json
 
 import pyfftw
 
-__all__ = ["InPlaceFFT", "export_wisdom", "import_wisdom"]
+__all__ = ["InPlaceFFT", "export_wisdom", "import_wisdom", "WisdomError", "WISDOM_FORMAT", "WISDOM_VERSION"]
+
+WISDOM_FORMAT = "tdse1d-fftw-wisdom"
+WISDOM_VERSION = 1
+_WISDOM_MAX_BYTES = 16 * 2**20  # FFTW wisdom is a few kB per size; more is not wisdom
+
+
+class WisdomError(ValueError):
+    """A stored wisdom blob that is not ours, of another version, or malformed."""
 
 
 class InPlaceFFT:
@@ -48,14 +62,59 @@ class InPlaceFFT:
 
 
 def export_wisdom() -> bytes:
-    """FFTW's accumulated wisdom, as bytes to store."""
-    return pickle.dumps(pyfftw.export_wisdom())
+    """FFTW's accumulated wisdom, as JSON bytes to store (see the module notes)."""
+    parts = pyfftw.export_wisdom()
+    doc = {"format": WISDOM_FORMAT, "version": WISDOM_VERSION,
+           "wisdom": [base64.b64encode(bytes(p)).decode("ascii") for p in parts]}
+    return json.dumps(doc).encode("utf-8")
 
 
-def import_wisdom(blob: bytes) -> None:
-    """Load wisdom saved by :func:`export_wisdom` (ignored if unreadable)."""
+def decode_wisdom(blob: bytes) -> tuple[bytes, ...]:
+    """The FFTW byte strings of a blob written by :func:`export_wisdom`.
+
+    Raises
+    ------
+    WisdomError
+        If the blob is not such a document (too large, not JSON, another format or
+        version, fields of the wrong type, bad base64).
+    """
+    if len(blob) > _WISDOM_MAX_BYTES:
+        raise WisdomError(f"{len(blob)} bytes, more than wisdom ever takes")
     try:
-        pyfftw.import_wisdom(pickle.loads(blob))
-    except Exception:  # stale or foreign wisdom is harmless to drop
-        pass
+        doc = json.loads(blob.decode("utf-8"))
+    except (UnicodeDecodeError, ValueError):
+        raise WisdomError("not a JSON document") from None
+    if not isinstance(doc, dict) or doc.get("format") != WISDOM_FORMAT:
+        raise WisdomError("not tdse1d FFTW wisdom")
+    if doc.get("version") != WISDOM_VERSION:
+        raise WisdomError(f"format version {doc.get('version')!r}, this program reads {WISDOM_VERSION}")
+    parts = doc.get("wisdom")
+    if not isinstance(parts, list) or not parts or not all(isinstance(p, str) for p in parts):
+        raise WisdomError("the wisdom field is not a list of strings")
+    try:
+        return tuple(base64.b64decode(p.encode("ascii"), validate=True) for p in parts)
+    except (binascii.Error, UnicodeEncodeError):
+        raise WisdomError("bad base64 in the wisdom field") from None
+
+
+def import_wisdom(blob: bytes) -> bool:
+    """Load wisdom saved by :func:`export_wisdom`.
+
+    Returns
+    -------
+    bool
+        Whether FFTW accepted all of it (wisdom of another FFTW build may be refused,
+        which is harmless: plans are measured again).
+
+    Raises
+    ------
+    WisdomError
+        If the blob is not tdse1d wisdom (see :func:`decode_wisdom`).
+    """
+    parts = decode_wisdom(blob)
+    try:
+        accepted = pyfftw.import_wisdom(parts)
+    except (TypeError, ValueError, IndexError) as exc:
+        raise WisdomError(f"FFTW refused it ({exc})") from None
+    return bool(all(accepted))
 

@@ -30,6 +30,13 @@ only when asked. The plan is recorded in ``SCAN_DIR/manifest.json`` (and a copy 
 plan text in ``SCAN_DIR/scan.toml``), so that a directory holding another plan's points
 is refused unless the user starts afresh.
 
+One writer at a time: :func:`run_scan` holds ``SCAN_DIR/scan.lock`` for the whole scan
+(a second scan of the same directory is refused at once, naming the holder), and every
+point file is written under its own lock (:class:`tdse1d.store.WriterLock`), so a
+job-array task (:func:`run_one`) never writes a point that another process is writing.
+A SIGTERM or SIGINT reaching a process that runs points (a Dask worker, a job-array
+task) makes each of its runs write its checkpoint and stop (:func:`install_stop_handlers`).
+
 Execution (:func:`run_scan`) submits the points, longest first (cost
 :func:`estimate_cost` = grid points x time steps, from the semiclassical grid advice
 without computing bound states), to a Dask ``distributed`` cluster: by default a
@@ -46,7 +53,9 @@ import itertools
 import json
 import math
 import os
+import signal
 import sys
+import threading
 import time
 import traceback
 from dataclasses import dataclass, field
@@ -92,6 +101,11 @@ __all__ = [
     "run_scan",
     "ScanReport",
     "SchedulerUnreachable",
+    "install_stop_handlers",
+    "remove_stop_handlers",
+    "local_cluster",
+    "open_local_client",
+    "SCAN_LOCK",
 ]
 
 HASH_DIGITS = 16
@@ -99,6 +113,7 @@ MANIFEST = "manifest.json"
 PLAN_COPY = "scan.toml"
 POINTS_DIR = "points"
 SUMMARY = "summary.h5"
+SCAN_LOCK = "scan.lock"
 
 
 class PlanError(InputError):
@@ -638,18 +653,52 @@ class ScanDirectory:
         if plan.text:
             _write_atomic(self.root / PLAN_COPY, plan.text)
 
+    @property
+    def lock_file(self) -> Path:
+        return self.root / SCAN_LOCK
+
+    def lock(self) -> "WriterLock":
+        """The directory's lock, taken: :class:`~tdse1d.errors.OutputBusy` if another scan holds it."""
+        from .store import WriterLock
+
+        self.root.mkdir(parents=True, exist_ok=True)
+        return WriterLock(self.lock_file, what=f"the scan directory {str(self.root)!r}", purpose="tdse1d scan").acquire()
+
+    def writer_of(self, point: ScanPoint):
+        """The live process writing ``point`` (a :class:`~tdse1d.store.LockHolder`), or None."""
+        from .store import WriterLock, lock_path
+
+        return WriterLock.holder(lock_path(self.result(point)))
+
     def clear(self) -> None:
-        """Delete the files a scan writes (and nothing else)."""
+        """Delete the files a scan writes (and nothing else).
+
+        Raises
+        ------
+        tdse1d.errors.OutputBusy
+            If a point is being written by a live process (nothing is deleted).
+        """
+        from .errors import OutputBusy
+        from .store import WriterLock
+
         if self.points.exists():
-            for pattern in ("*.h5", "*.h5.part", "*.error", "*.json", "*.tmp"):
+            for lock in self.points.glob("*.h5.lock"):
+                holder = WriterLock.holder(lock)
+                if holder is not None:
+                    raise OutputBusy(f"{lock.name[:-5]} in {self.root} is being written by {holder.describe()}; "
+                                     "stop it before starting afresh")
+            for pattern in ("*.h5", "*.h5.part", "*.h5.lock", "*.error", "*.json", "*.tmp", "*.checkpoint"):
                 for p in self.points.glob(pattern):
                     p.unlink(missing_ok=True)
         for name in (MANIFEST, PLAN_COPY, SUMMARY):
             (self.root / name).unlink(missing_ok=True)
 
     def state(self, point: ScanPoint) -> str:
-        """``"done"``, ``"failed"`` or ``"todo"``; a corrupt or foreign result file is deleted."""
+        """``"done"``, ``"busy"`` (another live process writes it), ``"failed"`` or ``"todo"``;
+        a result file that fails verification (:func:`result_matches`) is deleted."""
         path = self.result(point)
+        if self.writer_of(point) is not None:
+            return "busy"
         if path.exists():
             if result_matches(path, point.hash):
                 return "done"
@@ -667,18 +716,24 @@ def _write_atomic(path: Path, text: str) -> None:
 
 
 def result_matches(path, expected_hash: str) -> bool:
-    """True if ``path`` is a complete, readable result file of the input named ``expected_hash``."""
+    """True if ``path`` is a complete result file of the input named ``expected_hash``
+    holding every dataset of the contract with its shape (:func:`tdse1d.store.content_problems`),
+    and its data are readable, not only its header."""
     import h5py
 
-    from .store import is_complete
+    from .store import content_problems, is_complete
 
     if not is_complete(path):
         return False
     try:
         with h5py.File(path, "r") as f:
             raw = tomllib.loads(f.attrs["input"])
-            f["spectra/harmonic/power"][-1]  # the data are readable, not only the header
-            f["observables/acceleration"][-1]
+            if content_problems(f):
+                return False
+            for name in ("spectra/harmonic/power", "observables/acceleration", "observables/norm", "final/psi"):
+                data = f[name][()]  # reads every chunk: a truncated file fails here
+                if not np.all(np.isfinite(data)):
+                    return False
     except Exception:  # h5py raises several types for a damaged file
         return False
     return input_hash(raw) == expected_hash
@@ -691,7 +746,10 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     """Run one point and write its result file; the function Dask workers execute.
 
     Never raises for a failure of the run itself: the traceback goes to
-    ``<output stem>.error`` and the returned record says ``status = "failed"``.
+    ``<output stem>.error`` and the returned record says ``status = "failed"``. A run
+    stopped by SIGTERM/SIGINT (:func:`install_stop_handlers`) leaves its checkpoint and
+    says ``"interrupted"``; a point another process is writing says ``"busy"``; neither
+    leaves an ``.error`` file.
 
     Parameters
     ----------
@@ -709,11 +767,13 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     dict
         ``status``, ``seconds`` (wall time of the run), ``host``, ``pid``,
         ``started_at`` (Unix time), and for a finished point ``tunnelling_yield`` and
-        ``finished_at``; for a failed one ``error``.
+        ``finished_at``; for a failed, busy or interrupted one ``error``.
     """
     import socket
 
     from . import api
+    from .errors import OutputBusy
+    from .runner import RunInterrupted
     from .wisdom import fftw_wisdom
 
     output = Path(output)
@@ -721,21 +781,149 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     record_file = output.with_suffix(".json")
     started = time.perf_counter()
     record = {"host": socket.gethostname(), "pid": os.getpid(), "source": source, "started_at": time.time()}
+    control = None
     try:
-        config = parse_input(tomllib.loads(resolved_toml), source=source, base_dir=base_dir)
+        raw = tomllib.loads(resolved_toml)
+        if result_matches(output, input_hash(raw)):
+            # finished meanwhile (by another process, or by this task on a worker that was
+            # stopped before it could report): not computed twice
+            record.update(status="done", seconds=0.0, already_finished=True, finished_at=time.time())
+            return record
+        config = parse_input(raw, source=source, base_dir=base_dir)
+        control = _register(api.default_control(config))
         with fftw_wisdom():
             # an unfinished point continues from the checkpoint its last attempt left
-            outcome = api.run(config, output, resume=True)
+            outcome = api.run(config, output, resume=True, control=control)
         tunnelling = _tunnelling_yield(outcome)
         record.update(status="done", seconds=time.perf_counter() - started, tunnelling_yield=tunnelling,
                       finished_at=time.time())
+        if outcome.notes:
+            record["notes"] = list(outcome.notes)
         error_file.unlink(missing_ok=True)
         _write_atomic(record_file, json.dumps(record))
+    except RunInterrupted as exc:
+        record.update(status="interrupted", seconds=time.perf_counter() - started,
+                      error=f"stopped by a signal, {exc}; checkpoint {output.name}.checkpoint")
+    except OutputBusy as exc:
+        record.update(status="busy", seconds=time.perf_counter() - started, error=str(exc))
     except Exception as exc:  # a failed point is reported, the scan goes on
         record.update(status="failed", seconds=time.perf_counter() - started,
                       error=f"{type(exc).__name__}: {exc}")
-        _write_atomic(error_file, f"{record['error']}\n\n{traceback.format_exc()}")
+        try:
+            _write_atomic(error_file, f"{record['error']}\n\n{traceback.format_exc()}")
+        except OSError:  # e.g. the disk is full: the record still says what happened
+            pass
+    finally:
+        if control is not None:
+            _unregister(control)
     return record
+
+
+# ------------------------------------------------------------------ stop on signals
+#
+# A process that runs points keeps the RunControl of every run in progress here. The
+# handler only sets their stop flags (safe in a signal handler), so each run writes its
+# checkpoint at its next chunk boundary and raises RunInterrupted. Dask runs tasks in
+# threads while signals reach the main thread: the flag is the way across. In a Dask
+# worker the signal is then delivered again to the handler that was there before (by
+# default: the process ends, and the scheduler hands the point to another worker, which
+# continues from the checkpoint); in a job-array task the command exits with status 75.
+
+_ACTIVE: tuple = ()  # RunControls of the runs in progress (a tuple: read atomically by the handler)
+_ACTIVE_LOCK = threading.Lock()
+_PREVIOUS: dict = {}  # signal -> handler before ours
+_REDELIVER = {"on": False, "pending": None}
+
+
+def _register(control):
+    global _ACTIVE
+    with _ACTIVE_LOCK:
+        _ACTIVE = _ACTIVE + (control,)
+    return control
+
+
+def _unregister(control):
+    global _ACTIVE
+    with _ACTIVE_LOCK:
+        _ACTIVE = tuple(c for c in _ACTIVE if c is not control)
+        left, pending = _ACTIVE, _REDELIVER["pending"]
+    if not left and pending is not None and _REDELIVER["on"]:
+        os.kill(os.getpid(), pending)  # handled again in the main thread, now with no run left
+
+
+def _on_signal(signum, frame):
+    controls = _ACTIVE
+    for c in controls:
+        c.request_stop()
+    if controls or not _REDELIVER["on"]:
+        _REDELIVER["pending"] = signum
+        return
+    previous = _PREVIOUS.get(signum, signal.SIG_DFL)
+    signal.signal(signum, previous)
+    if callable(previous):
+        previous(signum, frame)
+    else:
+        os.kill(os.getpid(), signum)
+
+
+def install_stop_handlers(signals=(signal.SIGTERM, signal.SIGINT), redeliver: bool = False) -> bool:
+    """Make SIGTERM/SIGINT stop the runs of this process with a checkpoint.
+
+    Parameters
+    ----------
+    signals : tuple of int
+    redeliver : bool
+        Once no run is left, hand the signal to the handler that was installed before
+        (a Dask worker then ends as it would have); otherwise only remember it.
+
+    Returns
+    -------
+    bool
+        False when called outside the main thread (where signal handlers cannot be set).
+    """
+    if threading.current_thread() is not threading.main_thread():
+        return False
+    for sig in signals:
+        if sig not in _PREVIOUS:
+            _PREVIOUS[sig] = signal.signal(sig, _on_signal)
+    _REDELIVER["on"] = redeliver
+    return True
+
+
+def remove_stop_handlers() -> None:
+    """Put back the handlers :func:`install_stop_handlers` replaced (main thread only)."""
+    for sig, previous in list(_PREVIOUS.items()):
+        signal.signal(sig, previous)
+        del _PREVIOUS[sig]
+    _REDELIVER.update(on=False, pending=None)
+
+
+def _worker_setup(stop_http: bool):
+    """A Dask WorkerPlugin (made here, so that importing this module does not import
+    distributed) that installs :func:`install_stop_handlers` on every worker, also one
+    that joins later, and for our own local cluster stops the worker's HTTP server."""
+    from distributed.diagnostics.plugin import WorkerPlugin
+
+    class StopOnSignals(WorkerPlugin):
+        name = "tdse1d-stop-on-signals"
+
+        def __init__(self, stop_http):
+            self.stop_http = stop_http
+
+        def setup(self, worker):
+            # plugins are set up in the worker's event loop, the process's main thread
+            from tdse1d.scan import install_stop_handlers
+
+            install_stop_handlers(redeliver=True)
+            if self.stop_http and getattr(worker, "http_server", None) is not None:
+                worker.http_server.stop()
+
+    return StopOnSignals(stop_http)
+
+
+def _stop_scheduler_http(dask_scheduler=None):
+    if getattr(dask_scheduler, "http_server", None) is not None:
+        dask_scheduler.http_server.stop()
 
 
 def _tunnelling_yield(outcome) -> float:
@@ -768,12 +956,14 @@ class ScanReport:
     done: list = field(default_factory=list)
     skipped: list = field(default_factory=list)
     failed: dict = field(default_factory=dict)  # index -> error message
+    busy: dict = field(default_factory=dict)  # index -> who else is writing it
+    interrupted: list = field(default_factory=list)  # stopped by a signal, checkpoint left
     records: dict = field(default_factory=dict)  # index -> run_point record
     wall: float = 0.0
 
     @property
     def ok(self) -> bool:
-        return not self.failed
+        return not self.failed and not self.busy and not self.interrupted
 
 
 def _prepare(plan: ScanPlan, directory: ScanDirectory, fresh: bool, retry_failed: bool, report: ScanReport):
@@ -784,6 +974,9 @@ def _prepare(plan: ScanPlan, directory: ScanDirectory, fresh: bool, retry_failed
         state = directory.state(p)
         if state == "done":
             report.skipped.append(p.index)
+        elif state == "busy":
+            holder = directory.writer_of(p)
+            report.busy[p.index] = f"being written by {holder.describe() if holder else 'another process'}"
         elif state == "failed" and not retry_failed:
             report.failed[p.index] = directory.error(p).read_text(encoding="utf-8").splitlines()[0]
         else:
@@ -813,6 +1006,10 @@ def run_one(plan: ScanPlan, directory, index: int, fresh: bool = False, retry_fa
     if state == "done":
         report.skipped.append(index)
         return report
+    if state == "busy":
+        holder = directory.writer_of(p)
+        report.busy[index] = f"being written by {holder.describe() if holder else 'another process'}"
+        return report
     if state == "failed" and not retry_failed:
         report.failed[index] = directory.error(p).read_text(encoding="utf-8").splitlines()[0]
         return report
@@ -820,15 +1017,34 @@ def run_one(plan: ScanPlan, directory, index: int, fresh: bool = False, retry_fa
     record = run_point(*_args(plan, directory, p))
     report.wall = time.perf_counter() - started
     report.records[index] = record
-    if record["status"] == "done":
-        report.done.append(index)
-    else:
-        report.failed[index] = record["error"]
+    _file_record(report, index, record, record["status"] == "done")
     return report
 
 
+def _file_record(report: ScanReport, index: int, record: dict, done: bool) -> None:
+    """Sort a point's record into the report by its outcome."""
+    status = record.get("status")
+    if done:
+        report.done.append(index)
+    elif status == "busy":
+        report.busy[index] = record.get("error", "being written by another process")
+    elif status == "interrupted":
+        report.interrupted.append(index)
+    else:
+        report.failed[index] = record.get("error", "no result file")
+
+
 def local_cluster(workers: int | None = None, dashboard: bool = False):
-    """A ``LocalCluster`` of single-threaded worker processes on 127.0.0.1.
+    """A ``LocalCluster`` of single-threaded worker processes on 127.0.0.1, closed to
+    other local users.
+
+    Every connection (client, scheduler, workers) uses TLS with credentials made for
+    this cluster alone (``distributed.security.Security.temporary``, kept in memory
+    and handed to the worker processes through their start-up pipe): a process without
+    them cannot attach a client, so cannot run code as the user. Dask starts an HTTP
+    server in the scheduler and in each worker whatever its options say; they serve no
+    routes and are stopped once the cluster is up (:func:`run_scan`), unless
+    ``dashboard`` asks for the scheduler's.
 
     Parameters
     ----------
@@ -837,17 +1053,50 @@ def local_cluster(workers: int | None = None, dashboard: bool = False):
     dashboard : bool
         Serve the Dask dashboard on 127.0.0.1:8787 (off by default).
     """
+    import dask
     from distributed import LocalCluster
+    from distributed.security import Security
 
     n = workers or os.cpu_count() or 1
-    return LocalCluster(
-        n_workers=n,
-        threads_per_worker=1,
-        processes=True,
-        host="127.0.0.1",
-        dashboard_address="127.0.0.1:8787" if dashboard else None,
-        silence_logs=40,  # logging.ERROR: a restarted worker is reported by the scan itself
-    )
+    routes = {} if dashboard else {"distributed.scheduler.http.routes": []}
+    with dask.config.set({**routes, "distributed.worker.http.routes": []}):
+        return LocalCluster(
+            n_workers=n,
+            threads_per_worker=1,
+            processes=True,
+            host="127.0.0.1",
+            protocol="tls://",
+            security=Security.temporary(),
+            dashboard_address="127.0.0.1:8787" if dashboard else "127.0.0.1:0",
+            silence_logs=40,  # logging.ERROR: a restarted worker is reported by the scan itself
+        )
+
+
+def open_local_client(workers: int | None = None, dashboard: bool = False):
+    """A :func:`local_cluster` and a client of it, with the HTTP servers stopped (the
+    scheduler's kept with ``dashboard``) and the workers' signal handlers installed.
+
+    Returns
+    -------
+    cluster, client
+        Close both when done.
+    """
+    from distributed import Client
+
+    cluster = local_cluster(workers, dashboard)
+    try:
+        client = Client(cluster, set_as_default=False)
+        try:
+            if not dashboard:
+                client.run_on_scheduler(_stop_scheduler_http)
+            client.register_plugin(_worker_setup(stop_http=True), name="tdse1d-stop-on-signals")
+        except BaseException:
+            client.close()
+            raise
+    except BaseException:
+        cluster.close()
+        raise
+    return cluster, client
 
 
 def connect(address: str, timeout: float = 10.0):
@@ -936,11 +1185,20 @@ def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, timeout
     Raises
     ------
     PlanMismatch, SchedulerUnreachable
+    tdse1d.errors.OutputBusy
+        Another scan holds the directory (the message names it).
     """
-    from distributed import as_completed
-
     directory = ScanDirectory(directory)
     report = ScanReport(total=len(plan.points))
+    with directory.lock():  # a second scan of this directory is refused here, naming this one
+        return _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard, fresh,
+                           retry_failed, progress, client)
+
+
+def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard, fresh, retry_failed,
+                progress, client):
+    from distributed import as_completed
+
     todo = _prepare(plan, directory, fresh, retry_failed, report)
     started = time.perf_counter()
     if not todo:
@@ -951,10 +1209,11 @@ def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, timeout
             if scheduler is not None:
                 client = own_client = connect(scheduler, timeout)
             else:
-                from distributed import Client
-
-                own_cluster = local_cluster(workers, dashboard)
-                client = own_client = Client(own_cluster, set_as_default=False)
+                own_cluster, client = open_local_client(workers, dashboard)
+                own_client = client
+        if own_cluster is None:
+            # workers stop their runs with a checkpoint on SIGTERM/SIGINT (also workers that join later)
+            client.register_plugin(_worker_setup(stop_http=False), name="tdse1d-stop-on-signals")
         by_key = {}
         futures = []
         for rank, p in enumerate(todo):
@@ -974,10 +1233,8 @@ def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, timeout
                     # own fault, so no .error file and a plain rerun runs it again
                     record = {"status": "lost", "error": f"worker lost: {type(exc).__name__}: {exc}"}
                 report.records[p.index] = record
-                if record["status"] == "done" and result_matches(directory.result(p), p.hash):
-                    report.done.append(p.index)
-                else:
-                    report.failed[p.index] = record.get("error", "no result file")
+                done = record["status"] == "done" and result_matches(directory.result(p), p.hash)
+                _file_record(report, p.index, record, done)
                 bar.update(p, record)
         finally:
             bar.close()

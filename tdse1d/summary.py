@@ -25,7 +25,7 @@ import numpy as np
 
 from . import __version__, units
 from .estimates import CUTOFF_UP, LEWENSTEIN_IP
-from .store import write_dataset
+from .store import new_hdf5, write_dataset
 
 __all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
 
@@ -211,7 +211,7 @@ def write_summary(plan, directory) -> Summary:
     fit = cutoff_fit(up_ev[resolved], cutoff_ev[resolved], ip_ev[resolved])
 
     tmp = sd.summary.with_name(f"{sd.summary.name}.{os.getpid()}.tmp")
-    with h5py.File(tmp, "w") as f:
+    with new_hdf5(tmp) as f:  # a full disk: one OSError, tmp removed, the earlier summary kept
         f.attrs["kind"] = SUMMARY_KIND
         f.attrs["complete"] = True  # a finished file (written under a temporary name, then renamed)
         f.attrs["tdse1d_version"] = __version__

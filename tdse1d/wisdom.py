@@ -3,20 +3,31 @@
 Measuring the fastest FFT plan for a size takes a moment; the wisdom FFTW gathers is
 saved under ``$XDG_CACHE_HOME/tdse1d`` (default ``~/.cache/tdse1d``) and loaded by the
 next run. Set ``TDSE1D_NO_WISDOM=1`` to neither read nor write it.
+
+The file (``fftw_wisdom.json``) holds data only (:func:`tdse1d.fft.export_wisdom`); a
+file that is not valid wisdom is ignored with a warning and replaced on exit. Files of
+older versions (``fftw_wisdom.pickle``) are never read: unpickling runs code.
 """
 
 from __future__ import annotations
 
 import contextlib
 import os
+import warnings
 from pathlib import Path
 
-from .fft import export_wisdom, import_wisdom
+from .fft import WisdomError, export_wisdom, import_wisdom
+
+__all__ = ["wisdom_path", "fftw_wisdom", "WisdomWarning"]
+
+
+class WisdomWarning(UserWarning):
+    """The stored FFTW wisdom was unusable and is ignored."""
 
 
 def wisdom_path() -> Path:
     base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
-    return Path(base) / "tdse1d" / "fftw_wisdom.pickle"
+    return Path(base) / "tdse1d" / "fftw_wisdom.json"
 
 
 @contextlib.contextmanager
@@ -27,7 +38,12 @@ def fftw_wisdom():
         return
     path = wisdom_path()
     with contextlib.suppress(OSError):
-        import_wisdom(path.read_bytes())
+        blob = path.read_bytes()
+        try:
+            import_wisdom(blob)
+        except WisdomError as exc:
+            warnings.warn(f"ignoring the FFTW wisdom in {path} ({exc}); it will be replaced",
+                          WisdomWarning, stacklevel=3)
     try:
         yield
     finally:

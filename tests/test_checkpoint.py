@@ -1,8 +1,14 @@
 """Checkpoints and resume: a resumed run equals an uninterrupted one, signals leave a
-checkpoint, a checkpoint of another input is refused, SIGKILL leaves nothing finished."""
+checkpoint, a checkpoint of another input is refused, SIGKILL leaves nothing finished.
 
+The signal tests use the run's test handshake (``TDSE1D_TEST_HOLD``, docs/checkpoints.md):
+the run announces that it reached a known point and waits there, so the signal lands
+where the test means it to, however fast the machine."""
+
+import json
 import os
 import signal
+import socket
 import subprocess
 import sys
 import time
@@ -106,33 +112,45 @@ def test_checkpoint_of_another_input_is_refused(tmp_path):
     assert checkpoint_path(out).exists() and not out.exists()
 
 
-def _start(tmp_path, out, *extra, toml_extra=""):
-    # long enough that the signal arrives mid-run
-    path = _input(tmp_path, "slow.toml", extra=toml_extra)
-    text = path.read_text().replace('after_pulse = "0.5 fs"', 'after_pulse = "80 fs"')
-    path.write_text(text)
-    proc = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(path), "-o", str(out), "--quiet", *extra],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-    part = out.with_name(out.name + ".part")
-    deadline = time.monotonic() + 120
-    while not part.exists():  # the header is written: propagation is under way
+def _wait_for(found, proc, limit=120.0):
+    """Poll (a handshake, no fixed delay) until ``found()`` is truthy; fail if ``proc`` ends."""
+    deadline = time.monotonic() + limit
+    while True:
+        got = found()
+        if got:
+            return got
         assert proc.poll() is None, proc.communicate()
-        assert time.monotonic() < deadline
-        time.sleep(0.05)
-    time.sleep(0.5)
-    return path, proc
+        assert time.monotonic() < deadline, "the run did not reach the expected point"
+        time.sleep(0.01)
+
+
+def _start(tmp_path, out, *extra, toml_extra="", hold_at="propagation"):
+    """Start ``tdse1d run`` and return once it announced it reached ``hold_at`` (and waits)."""
+    path = _input(tmp_path, "slow.toml", extra=toml_extra)
+    # long enough that, once released, the run is still writing checkpoints when polled
+    path.write_text(path.read_text().replace('after_pulse = "0.5 fs"', 'after_pulse = "80 fs"'))
+    hold = tmp_path / f"hold-{hold_at}"
+    hold.mkdir(exist_ok=True)
+    env = {**os.environ, "TDSE1D_TEST_HOLD": str(hold), "TDSE1D_TEST_HOLD_AT": hold_at}
+    proc = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(path), "-o", str(out), "--quiet", *extra],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    announced = _wait_for(lambda: list(hold.glob(f"{hold_at}.*.json")), proc)
+    info = json.loads(announced[0].read_text())
+    assert info["pid"] == proc.pid
+    return path, proc, hold, info
 
 
 def test_sigterm_writes_checkpoint_and_resume_completes(tmp_path):
     out = tmp_path / "t.h5"
-    path, proc = _start(tmp_path, out)
+    path, proc, _, info = _start(tmp_path, out)
+    assert 0 < info["step"] < info["steps"]  # mid-propagation, by construction
     proc.send_signal(signal.SIGTERM)
     _, err = proc.communicate(timeout=120)
     assert proc.returncode == 75, err
     assert "--resume" in err and "Traceback" not in err
     assert checkpoint_path(out).exists() and not out.exists()
     state, _ = read_checkpoint(checkpoint_path(out))
-    assert state.step_index > 0
+    assert info["step"] <= state.step_index < info["steps"]
     done = subprocess.run([sys.executable, "-m", "tdse1d.cli", "run", str(path), "-o", str(out), "--quiet", "--resume"],
                           capture_output=True, text=True, timeout=300)
     assert done.returncode == 0, done.stderr
@@ -142,18 +160,37 @@ def test_sigterm_writes_checkpoint_and_resume_completes(tmp_path):
     assert np.all(np.isfinite(norm)) and abs(norm[0] - 1) < 1e-10
 
 
+def test_sigterm_during_the_analysis_finishes_the_run(tmp_path):
+    """After the last step a stop request lets the run finish its analysis and write its
+    result (docs/checkpoints.md): exit status 0, a complete file, no checkpoint left."""
+    out = tmp_path / "a.h5"
+    _, proc, _, info = _start(tmp_path, out, hold_at="analysis")
+    proc.send_signal(signal.SIGTERM)
+    _, err = proc.communicate(timeout=120)
+    assert proc.returncode == 0, err
+    assert "after the last time step" in err and "Traceback" not in err
+    assert is_complete(out) and not checkpoint_path(out).exists()
+    assert not out.with_name(out.name + ".lock").exists()
+
+
 def test_sigkill_leaves_no_finished_file(tmp_path):
     out = tmp_path / "k.h5"
     # checkpoints back to back, so that the kill is likely to land inside one
-    _, proc = _start(tmp_path, out, toml_extra='checkpoint_interval = "1 ms"\n')
+    _, proc, hold, _ = _start(tmp_path, out, toml_extra='checkpoint_interval = "1 ms"\n')
+    (hold / "go").touch()
     cp = checkpoint_path(out)
-    deadline = time.monotonic() + 60
-    while not cp.exists() and time.monotonic() < deadline:
-        time.sleep(0.01)
-    time.sleep(0.3)
+    _wait_for(cp.exists, proc)
     os.kill(proc.pid, signal.SIGKILL)
     proc.communicate(timeout=60)
     assert not out.exists() and not is_complete(out.with_name(out.name + ".part"))
     assert cp.exists()
     state, _ = read_checkpoint(cp)  # the last good checkpoint, complete
     assert state.step_index > 0 and np.all(np.isfinite(state.psi))
+    # the killed writer's lock is left behind; the next run on this host takes it over
+    lock = out.with_name(out.name + ".lock")
+    assert json.loads(lock.read_text())["host"] == socket.gethostname()
+    done = subprocess.run([sys.executable, "-m", "tdse1d.cli", "run", str(tmp_path / "slow.toml"), "-o", str(out),
+                           "--resume"], capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    assert "took over the lock" in done.stderr and f"pid {proc.pid}" in done.stderr
+    assert is_complete(out) and not lock.exists()

@@ -551,11 +551,13 @@ def test_interrupted_run_leaves_no_finished_file(tmp_path):
     assert not store.is_complete(path)
     with pytest.raises(ValueError, match="not a finished"):
         store.read_result(path)
-    # an earlier result of the same name survives an interrupted rerun untouched
-    path.write_bytes(b"earlier result")
+    # an earlier result of the same name survives an interrupted rerun untouched (it must
+    # be a tdse1d result: any other file is never written over, docs/output.md)
+    api.run(problem_config, path)
+    earlier = path.read_bytes()
     with pytest.raises(KeyboardInterrupt):
         api.run(problem_config, path, progress=stop)
-    assert path.read_bytes() == b"earlier result"
+    assert path.read_bytes() == earlier
     assert not path.with_name(path.name + store.PART_SUFFIX).exists()
 
 

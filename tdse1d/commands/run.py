@@ -86,6 +86,11 @@ def main(args):
         bar.close()
         for sig, handler in previous.items():
             signal.signal(sig, handler)
+    for note in outcome.notes:
+        print(f"tdse1d: note: {note}", file=sys.stderr)
+    if outcome.stopped_late:
+        print("tdse1d: note: the stop request came after the last time step; the run finished its "
+              f"analysis and wrote {outcome.path}", file=sys.stderr)
     for w in outcome.result.warnings[len(problem.warnings):]:
         print(f"tdse1d: warning: {w}", file=sys.stderr)
     if args.quiet:

@@ -1,4 +1,11 @@
-"""``tdse1d scan PLAN``: run a parameter scan on Dask distributed and write its summary."""
+"""``tdse1d scan PLAN``: run a parameter scan on Dask distributed and write its summary.
+
+One scan per directory: a second ``tdse1d scan`` (or ``--gather``) of a directory that
+a scan is running in is refused in one line naming it. Job-array tasks (``--point K``)
+lock their point only: tasks of different points run side by side, a second task of
+the same point is refused. SIGTERM/SIGINT to a ``--point`` task writes the point's
+checkpoint and exits with status 75, like ``tdse1d run``.
+"""
 
 import sys
 from pathlib import Path
@@ -51,6 +58,8 @@ def main(args):
 
                 raise InputError("--fresh with --point would delete the points of the other array tasks; "
                                  "clear the directory once before submitting the array", "--fresh", args.plan)
+            # the run is in this (main) thread: SIGTERM/SIGINT stop it with a checkpoint
+            scan.install_stop_handlers(redeliver=False)
             try:
                 report = scan.run_one(plan, directory.root, args.point, fresh=args.fresh,
                                       retry_failed=True)
@@ -58,8 +67,18 @@ def main(args):
                 from ..config import InputError
 
                 raise InputError(str(exc), "--point", args.plan) from None
+            finally:
+                scan.remove_stop_handlers()
             for k, err in report.failed.items():
                 print(f"tdse1d: point {k} failed: {err}", file=sys.stderr)
+            for k, err in report.busy.items():
+                print(f"tdse1d: point {k} not run: {err}", file=sys.stderr)
+            if report.interrupted:
+                from .run import EXIT_INTERRUPTED
+
+                print(f"tdse1d: point {args.point} {report.records[args.point]['error']}; "
+                      "run the same task again to continue", file=sys.stderr)
+                return EXIT_INTERRUPTED
             if report.skipped:
                 say(f"point {args.point} already finished in {directory.root}")
             elif report.done:
@@ -74,15 +93,23 @@ def main(args):
                 f"{len(report.failed)} failed, of {report.total} (wall {report.wall:.1f} s)")
             for k, err in sorted(report.failed.items()):
                 print(f"tdse1d: point {k} ({plan.points[k].hash}) failed: {err}", file=sys.stderr)
+            for k, err in sorted(report.busy.items()):
+                print(f"tdse1d: point {k} ({plan.points[k].hash}) not run: {err}", file=sys.stderr)
+            for k in sorted(report.interrupted):
+                print(f"tdse1d: point {k} ({plan.points[k].hash}) stopped by a signal; its checkpoint is kept "
+                      "and the next run of the scan continues it", file=sys.stderr)
             if report.failed and not args.retry_failed:
                 print("tdse1d: rerun with --retry-failed to run the failed points again", file=sys.stderr)
+            with directory.lock():
+                summary = write_summary(plan, directory.root)
         else:
-            directory.claim(plan, fresh=False)
+            with directory.lock():  # not while a scan is writing into the directory
+                directory.claim(plan, fresh=False)
+                summary = write_summary(plan, directory.root)
     except scan.PlanMismatch as exc:
         raise CommandError(str(exc)) from None
     except scan.SchedulerUnreachable as exc:
         raise CommandError(f"{exc}; nothing was run") from None
-    summary = write_summary(plan, directory.root)
     missing = [p.index for p in plan.points if directory.state(p) != "done"]
     say(f"wrote {summary.path} ({len(plan.points) - len(missing)} of {len(plan.points)} points)")
     if summary.fit is not None and not args.quiet:
