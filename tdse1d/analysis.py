@@ -759,10 +759,9 @@ def analyse_run(problem, result) -> RunAnalysis:
 
 def _file_pulses(h5file):
     """Per-pulse rows rebuilt from the stored input (cheap: no bound states)."""
-    import tomllib
     from pathlib import Path
 
-    from .config import InputError, parse_input
+    from .config import InputError, parse_input, tomllib
     from .problem import build_field
 
     source = str(h5file.attrs.get("input_source", "<string>"))

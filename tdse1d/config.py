@@ -23,9 +23,11 @@ from typing import Any
 
 from . import units
 
+# The one place that picks the TOML reader: the standard library's from Python 3.11,
+# its backport (a dependency on 3.10) before. Other modules import ``tomllib`` from here.
 if sys.version_info >= (3, 11):
     import tomllib
-else:  # pragma: no cover
+else:  # pragma: no cover - exercised by the CI run on the oldest Python
     import tomli as tomllib
 
 __all__ = [
@@ -44,6 +46,7 @@ __all__ = [
     "apply_override",
     "parse_override",
     "dump_toml",
+    "tomllib",
 ]
 
 AUTO = "auto"
@@ -450,10 +453,29 @@ _SECTIONS = {
 }
 
 
+def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
+    """Refuse a key of the [atom] table that another model reads and ``model`` does not
+    (e.g. ``trap_frequency`` with the soft-core model): it would be silently ignored."""
+    from .potentials import model_keys
+
+    keys = model_keys()
+    own = set(keys.get(model, ()))
+    for name in table:
+        owners = [m for m, ks in keys.items() if name in ks and m != model]
+        if owners and name not in own:
+            mine = ", ".join(sorted(own)) or "none"
+            raise InputError(
+                f"belongs to the {' and '.join(owners)} model, not to atom.model = '{model}' "
+                f"(whose own keys are: {mine})",
+                _join(path, name),
+            )
+
+
 def _read_atom(table, path):
     atom = _read_table(
         AtomConfig, table, path, nested={"centre": ("centres", lambda t, p: _read_array(CentreConfig, t, p))}
     )
+    _refuse_other_models_keys(atom.model, table, path)
     centres = atom.centres
     if atom.model == "soft-core":
         if centres:

@@ -29,7 +29,6 @@ from __future__ import annotations
 
 import math
 import time
-import tomllib
 import traceback
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -37,7 +36,7 @@ from pathlib import Path
 import numpy as np
 
 from . import units
-from .config import InputError, load_input
+from .config import InputError, load_input, tomllib
 from .registry import registrar
 
 __all__ = [

@@ -12,12 +12,13 @@ import json
 import math
 import subprocess
 import sys
-import tomllib
 from pathlib import Path
 
 import numpy as np
 import pytest
 import scipy.constants as sc
+
+from tdse1d.config import tomllib
 
 from tdse1d import cli
 from tdse1d.config import parse_override

@@ -202,7 +202,7 @@ def format_table(a: RunAnalysis, target_ip: float = math.nan) -> str:
 
 def _target_ip(input_toml) -> float:
     """``atom.ionization_potential`` of the stored input (hartree), NaN if absent."""
-    import tomllib
+    from ..config import tomllib
 
     try:
         value = tomllib.loads(input_toml).get("atom", {}).get("ionization_potential")
