@@ -2,6 +2,7 @@
 
 import json
 
+from ..cli import nonnegative_float, nonnegative_int
 from ..config import InputError
 
 HELP = "broaden and weight a computed harmonic spectrum like a measured one, and compare their cutoffs"
@@ -14,9 +15,9 @@ def add_arguments(parser):
                         help="unit of the first column of the CSV files (default: their '# x: ...' header)")
     parser.add_argument("--response", default=None, metavar="CSV",
                         help="filter/detector response curve (x, relative response), applied to the computed spectrum")
-    parser.add_argument("--resolution", type=float, default=0.0, metavar="FWHM_eV",
+    parser.add_argument("--resolution", type=nonnegative_float, default=0.0, metavar="FWHM_eV",
                         help="spectrometer resolution, Gaussian FWHM in eV (default: none)")
-    parser.add_argument("--point", type=int, default=None, metavar="K", help="for a summary: the scan point (default 0)")
+    parser.add_argument("--point", type=nonnegative_int, default=None, metavar="K", help="for a summary: the scan point (default 0)")
     parser.add_argument("--average", default=None, metavar="GEOMETRY/SUM",
                         help="for a summary of an intensity scan: a focal average, e.g. volume/incoherent")
     parser.add_argument("--plot", default=None, metavar="FILE", help="overlay the two spectra in FILE (png, pdf, svg)")
@@ -26,8 +27,9 @@ def add_arguments(parser):
 def main(args):
     from .. import compare
 
-    if args.resolution < 0:
-        raise InputError(f"must be zero or positive, got {args.resolution}", "--resolution")
+    from ._files import check_result
+
+    check_result(args.computed, kinds=("run", "scan-summary"))
     try:
         measured = compare.read_spectrum_csv(args.measured, args.x_unit)
         response = compare.read_spectrum_csv(args.response, args.x_unit) if args.response else None

@@ -16,7 +16,6 @@ import numpy as np
 
 from .. import units
 from ..analysis import RunAnalysis, analyse_file
-from ..cli import CommandError
 from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 HELP = "side-by-side table: semiclassical prediction | quantum result | ratio, for a result file"
@@ -212,16 +211,9 @@ def _target_ip(input_toml) -> float:
 
 
 def main(args):
-    import h5py
+    from ._files import open_result
 
-    from ..store import is_complete
-
-    if not is_complete(args.result):
-        raise CommandError(f"{args.result} is not a finished tdse1d result file")
-    with h5py.File(args.result, "r") as f:
-        kind = f.attrs.get("kind", "run")
-        if kind != "run":
-            raise CommandError(f"{args.result} is a {kind!r} file; report reads run results")
+    with open_result(args.result, kinds=("run",)) as f:
         analysis = analyse_file(f)
         target = _target_ip(f.attrs.get("input", ""))
     if args.json:
