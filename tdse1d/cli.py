@@ -75,6 +75,8 @@ def _number(text: str, kind, what: str):
         raise argparse.ArgumentTypeError(f"must be {what}, got {text!r}") from None
     if isinstance(value, float) and not math.isfinite(value):
         raise argparse.ArgumentTypeError(f"must be {what}, got {text!r}")
+    if isinstance(value, int) and abs(value) >= 2**63:  # beyond what numpy indexes
+        raise argparse.ArgumentTypeError(f"must be {what} below 2^63, got {len(text)} digits")
     return value
 
 

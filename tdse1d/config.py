@@ -415,7 +415,10 @@ class OutputConfig:
     """What is written (``[output]``)."""
 
     file: str | None = key(Spec("str", doc="result file"), None)
-    snapshots: int = key(Spec("int", minimum=0, strict=False, doc="number of wavefunction snapshots"), 100)
+    # a million wavefunctions is far beyond a film or an analysis (every step of most
+    # runs); more is a typo, and the run's disk estimate would refuse it anyway
+    snapshots: int = key(Spec("int", minimum=0, strict=False, maximum=1e6, doc="number of wavefunction snapshots"),
+                         100)
     snapshot_stride: int = key(Spec("int", minimum=1, strict=False, doc="keep every n-th grid point"), 1)
     population_interval: float | None = key(
         Spec("quantity", "time", auto=True, **_POSITIVE, doc="time between bound-state projections"), None

@@ -38,7 +38,7 @@ def _kind(h5file) -> str:
     return kind.decode() if isinstance(kind, bytes) else str(kind)
 
 
-def check_result(path, kinds=None) -> str:
+def check_result(path, kinds=None, needs=None) -> str:
     """Refuse a file that is not a finished result of one of ``kinds``; return its kind.
 
     Parameters
@@ -48,6 +48,8 @@ def check_result(path, kinds=None) -> str:
     kinds : iterable of str, optional
         Accepted values of the ``kind`` root attribute (a run file written before the
         attribute existed is a ``"run"``); None accepts any.
+    needs : dict of str to iterable of str, optional
+        Kind -> datasets or groups the command reads (a missing one is named).
 
     Raises
     ------
@@ -70,6 +72,7 @@ def check_result(path, kinds=None) -> str:
         with h5py.File(p, "r") as f:
             complete = bool(f.attrs.get(COMPLETE_ATTR, False))
             kind = _kind(f)
+            missing = [name for name in (needs or {}).get(kind, ()) if name not in f]
     except OSError as exc:
         raise InputError(f"cannot read the file ({exc})", source=source) from None
     if not complete:
@@ -78,6 +81,9 @@ def check_result(path, kinds=None) -> str:
     if kinds is not None and kind not in tuple(kinds):
         raise InputError(f"is a {kind!r} file; this command reads {' or '.join(repr(k) for k in kinds)} files",
                          source=source)
+    if missing:
+        raise MissingData(f"missing dataset or group '{missing[0]}' (a damaged file, or written by another version)",
+                          source=source)
     return kind
 
 

@@ -8,6 +8,14 @@ from ..config import InputError
 HELP = "broaden and weight a computed harmonic spectrum like a measured one, and compare their cutoffs"
 
 
+#: what compare.computed_spectrum reads, by kind of file
+NEEDS = {
+    "run": ("estimates", "spectra/harmonic/frequency", "spectra/harmonic/power"),
+    "scan-summary": ("spectra/photon_energy", "spectra/power", "estimates/photon_energy",
+                     "estimates/ionization_potential"),
+}
+
+
 def add_arguments(parser):
     parser.add_argument("computed", metavar="RESULT_OR_SUMMARY", help="run result or scan summary.h5")
     parser.add_argument("measured", metavar="MEASURED.csv", help="two columns: photon energy (eV) or wavelength (nm), signal")
@@ -29,14 +37,16 @@ def main(args):
 
     from ._files import check_result
 
-    check_result(args.computed, kinds=("run", "scan-summary"))
+    check_result(args.computed, kinds=("run", "scan-summary"), needs=NEEDS)
     try:
         measured = compare.read_spectrum_csv(args.measured, args.x_unit)
         response = compare.read_spectrum_csv(args.response, args.x_unit) if args.response else None
         energy, power, omega0, ip, label = compare.computed_spectrum(args.computed, args.point, args.average)
         result = compare.compare_spectra(energy, power, measured, omega0, ip,
                                          resolution_fwhm_ev=args.resolution, response=response)
-    except (ValueError, OSError, KeyError) as exc:
+    except KeyError as exc:  # an attribute or dataset the checks above do not list
+        raise InputError(f"missing data ({exc})", source=args.computed) from None
+    except (ValueError, OSError) as exc:
         raise InputError(str(exc)) from None
     if args.plot:
         compare.plot_comparison(result, args.plot, label)
