@@ -151,6 +151,7 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
     """:func:`run` for an already assembled :class:`~tdse1d.problem.Problem`."""
     from .checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
     from .propagate import NumericalError
+    from .problem import check_absorber
     from .resources import check_resources
     from .runner import simulate, snapshot_steps
     from .store import ResultWriter
@@ -158,7 +159,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
     if strict and problem.warnings:
         raise NumericalError(f"before the run: {problem.warnings[0]}", 0, problem.time.start)
     path = output_path(problem.config, output)
-    check_resources(problem, path)  # refuse, before propagating, a run the machine cannot hold
+    check_absorber(problem)  # refuse, before propagating, absorbers that eat the atom
+    check_resources(problem, path)  # and a run the machine cannot hold
     cp_path = checkpoint_path(path)
     digest = input_hash(problem.config)
     state = snapshots = None

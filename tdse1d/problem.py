@@ -28,7 +28,7 @@ from .potentials import POTENTIALS, Potential
 from .pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
 from .states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
 
-__all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
+__all__ = ["Problem", "build_problem", "build_field", "model_estimates", "check_absorber"]
 
 #: provisional grid for a first look at the ground state before the real grid is known
 _PROVISIONAL = Grid(1024, 0.1)
@@ -200,47 +200,6 @@ def model_estimates(potential: Potential, field: Field, ionization_potential: fl
     return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0))
 
 
-def _check_absorber(config, grid, states, advice, dt, steps, pulses, notes):
-    """Refuse absorbing layers that leave no room for the atom; warn when they leave no
-    room for its electrons' excursions.
-
-    The layers of ``absorber.width`` on each side must leave an unabsorbed region, and
-    the initial state must fit in it: with no field at all, the layers remove from a
-    stationary state a share 2 <W> dt per step (the first-order decay rate of a state
-    under a weak absorbing potential; here 1 - sum M^2 |phi|^2 dx for the step factor
-    M), which over the run must stay below :data:`MAX_ABSORBED_AT_REST`. An inner
-    region smaller than the quiver amplitude E0/w^2 is allowed (absorbing electrons
-    before they return is a way to remove recollisions), but said.
-    """
-    from .absorb import ABSORBERS
-
-    cfg = config.absorber
-    if cfg.type == "none":
-        return
-    width = cfg.width if cfg.width is not None else advice.absorber_width
-    given = "" if cfg.width is not None else " (the automatic width)"
-    inner = grid.half_width - width
-    box = f"a box of +-{grid.half_width:.4g} bohr ({grid.points} points of {grid.spacing:.4g} bohr)"
-    if inner <= 0:
-        raise InputError(
-            f"absorbing layers of {width:.4g} bohr{given} on each side leave no unabsorbed region in {box}; "
-            "narrow the absorber or enlarge the grid (grid.points)", "absorber.width", config.source)
-    factor = ABSORBERS[cfg.type](cfg.exponent, cfg.strength).step_factor(grid, width, dt)
-    density = states.wavefunctions[list(config.atom.initial_state)] ** 2 * grid.spacing
-    per_step = float(np.max(np.sum((1.0 - factor**2) * density, axis=1)))
-    at_rest = -math.expm1(steps * math.log1p(-min(per_step, 1.0 - 1e-16)))
-    if at_rest > MAX_ABSORBED_AT_REST:
-        raise InputError(
-            f"the initial state reaches into the absorbing layers ({width:.4g} bohr{given} of {box}, "
-            f"unabsorbed +-{inner:.4g} bohr): with no field they would remove {at_rest:.3g} of it over the run; "
-            "narrow the absorber or enlarge the grid (grid.points)", "absorber.width", config.source)
-    quiver = max((p.quiver_amplitude for p in pulses), default=0.0)
-    if inner < quiver:
-        notes.append(
-            f"the unabsorbed region +-{inner:.1f} bohr is smaller than the quiver amplitude {quiver:.1f} bohr: "
-            "electrons are absorbed before they can return to the core (no recollision)")
-
-
 def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
     """Resolve a configuration into a :class:`Problem`.
 
@@ -376,7 +335,12 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
             f"t = 0: more than the {MAX_TIME_IN_STEPS:.0e} at which double-precision times still give equal "
             "steps; shorten the pulses or their delays, or lengthen propagation.time_step",
             key, config.source)
-    _check_absorber(config, grid, states, advice, dt, steps, pulses, notes)
+    quiver = max((p.quiver_amplitude for p in pulses), default=0.0)
+    inner = grid.half_width - (config.absorber.width if config.absorber.width is not None else advice.absorber_width)
+    if config.absorber.type != "none" and 0 < inner < quiver:
+        notes.append(
+            f"the unabsorbed region +-{inner:.1f} bohr is smaller than the quiver amplitude {quiver:.1f} bohr: "
+            "electrons are absorbed before they can return to the core (no recollision)")
     for p in field.pulses:
         if isinstance(p, TabulatedPulse) and abs(p.area) > 1e-6 * max(p.peak_field, 1e-300) * (p.end - p.start):
             notes.append(
@@ -394,3 +358,46 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         advice=advice,
         warnings=tuple(notes),
     )
+
+
+def check_absorber(problem: Problem) -> None:
+    """Refuse absorbing layers that leave no room for the atom (before a run; the bound
+    states of the same input are found on any box, so :func:`build_problem` does not
+    refuse them, and only warns when the layers leave no room for the quiver motion).
+
+    The layers of ``absorber.width`` on each side must leave an unabsorbed region, and
+    the initial state must fit in it: with no field at all, the layers remove from a
+    stationary state a share 2 <W> dt per step (the first-order decay rate of a state
+    under a weak absorbing potential; here 1 - sum M^2 |phi|^2 dx for the step factor
+    M), which over the run must stay below :data:`MAX_ABSORBED_AT_REST`. An inner
+    region smaller than the quiver amplitude E0/w^2 is allowed (absorbing electrons
+    before they return is a way to remove recollisions), but said.
+
+    Raises
+    ------
+    InputError
+        Naming ``absorber.width``.
+    """
+    from .absorb import ABSORBERS
+
+    config, grid, states = problem.config, problem.grid, problem.states
+    cfg = config.absorber
+    if cfg.type == "none":
+        return
+    width = problem.absorber_width
+    given = "" if cfg.width is not None else " (the automatic width)"
+    inner = grid.half_width - width
+    box = f"a box of +-{grid.half_width:.4g} bohr ({grid.points} points of {grid.spacing:.4g} bohr)"
+    if inner <= 0:
+        raise InputError(
+            f"absorbing layers of {width:.4g} bohr{given} on each side leave no unabsorbed region in {box}; "
+            "narrow the absorber or enlarge the grid (grid.points)", "absorber.width", config.source)
+    factor = ABSORBERS[cfg.type](cfg.exponent, cfg.strength).step_factor(grid, width, problem.time.step)
+    density = states.wavefunctions[list(config.atom.initial_state)] ** 2 * grid.spacing
+    per_step = float(np.max(np.sum((1.0 - factor**2) * density, axis=1)))
+    at_rest = -math.expm1(problem.time.steps * math.log1p(-min(per_step, 1.0 - 1e-16)))
+    if at_rest > MAX_ABSORBED_AT_REST:
+        raise InputError(
+            f"the initial state reaches into the absorbing layers ({width:.4g} bohr{given} of {box}, "
+            f"unabsorbed +-{inner:.4g} bohr): with no field they would remove {at_rest:.3g} of it over the run; "
+            "narrow the absorber or enlarge the grid (grid.points)", "absorber.width", config.source)
