@@ -1093,10 +1093,9 @@ def _floor_of(problem):
 
 def _file_pulses(h5file):
     """Per-pulse rows rebuilt from the stored input (cheap: no bound states)."""
-    import tomllib
     from pathlib import Path
 
-    from .config import InputError, parse_input
+    from .config import InputError, parse_input, tomllib
     from .problem import build_field
 
     source = str(h5file.attrs.get("input_source", "<string>"))

@@ -204,6 +204,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
     """:func:`run` for an already assembled :class:`~tdse1d.problem.Problem`."""
     from .checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
     from .propagate import NumericalError
+    from .problem import check_absorber
+    from .resources import check_resources
     from .runner import simulate, snapshot_steps
     from .store import ResultWriter
 
@@ -217,6 +219,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
     reason = refuse_reason(path)
     if reason is not None:  # checked before anything is computed
         raise InputError(reason, _output_key(problem.config, output), problem.config.source)
+    check_absorber(problem)  # refuse, before propagating, absorbers that eat the atom
+    check_resources(problem, path)  # and a run the machine cannot hold
     cp_path = checkpoint_path(path)
     digest = input_hash(problem.config)
     if control is None:

@@ -23,9 +23,11 @@ from typing import Any
 
 from . import units
 
+# The one place that picks the TOML reader: the standard library's from Python 3.11,
+# its backport (a dependency on 3.10) before. Other modules import ``tomllib`` from here.
 if sys.version_info >= (3, 11):
     import tomllib
-else:  # pragma: no cover
+else:  # pragma: no cover - exercised by the CI run on the oldest Python
     import tomli as tomllib
 
 __all__ = [
@@ -44,6 +46,7 @@ __all__ = [
     "apply_override",
     "parse_override",
     "dump_toml",
+    "tomllib",
 ]
 
 AUTO = "auto"
@@ -71,7 +74,12 @@ class InputError(ValueError):
 
     def __str__(self):
         where = f"{self.source}: " if self.source else ""
-        key = f"key '{self.key}': " if self.key else ""
+        if not self.key:
+            key = ""
+        elif self.key.startswith("-"):  # a command-line option
+            key = f"option '{self.key}': "
+        else:
+            key = f"key '{self.key}': "
         return f"{where}{key}{self.message}"
 
 
@@ -126,6 +134,12 @@ def key(spec: Spec, default=_REQUIRED):
 
 
 def _check_range(value, spec: Spec, path: str):
+    if isinstance(value, int) and not isinstance(value, bool):
+        try:  # TOML integers may have any number of digits
+            float(value)
+        except OverflowError:
+            raise InputError(f"too large: an integer of about {int(value.bit_length() * 0.30103) + 1} digits, "
+                             "beyond the range of floating-point numbers", path) from None
     if not math.isfinite(value):
         raise InputError(f"must be finite, got {value!r}", path)
     if spec.minimum is not None:
@@ -161,6 +175,8 @@ def _read_value(raw, spec: Spec, path: str):
         if isinstance(raw, bool) or not isinstance(raw, (int, float)):
             extra = ' or "auto"' if spec.auto else ""
             raise InputError(f"must be a number{extra}, got {raw!r}", path)
+        if isinstance(raw, int):
+            _check_range(raw, spec, path)  # an integer too large for a float is refused here
         return float(_check_range(float(raw), spec, path))
     if kind == "bool":
         if not isinstance(raw, bool):
@@ -263,6 +279,21 @@ _POSITIVE = dict(minimum=0.0)
 _CHARGE = dict(minimum=0.0, maximum=100.0)
 _SOFTENING = dict(minimum=1e-3, strict=False, maximum=1e3)
 _POSITION = dict(minimum=-1e3, strict=False, maximum=1e3)
+
+
+# Ranges of a pulse's carrier and strength inside which this program's model holds:
+#: shortest wavelength (nm): below about 1 nm the wavelength nears the size of the bound
+#: state (a few bohr, 0.1-0.3 nm) and the dipole approximation the solver makes fails
+MIN_WAVELENGTH_NM = 1.0
+#: longest wavelength (nm): one cycle at 1 m lasts 3.3 ns, 1.4e8 a.u., more time steps
+#: than a run may take (problem.MAX_STEPS) at any step that resolves an atom
+MAX_WAVELENGTH_NM = 1e9
+#: largest normalised vector potential a0 = E0 / (omega c): at a0 = 1 the classical
+#: quiver momentum reaches m c and the non-relativistic Schrodinger equation fails
+MAX_NORMALISED_VECTOR_POTENTIAL = 1.0
+#: largest |delay| of a pulse (fs): 1 ns is 4.1e7 a.u., already more steps between two
+#: pulses than a run may take at a step of 0.04 a.u.
+MAX_DELAY_FS = 1e6
 
 
 @dataclass(frozen=True)
@@ -390,7 +421,10 @@ class OutputConfig:
     """What is written (``[output]``)."""
 
     file: str | None = key(Spec("str", doc="result file"), None)
-    snapshots: int = key(Spec("int", minimum=0, strict=False, doc="number of wavefunction snapshots"), 100)
+    # a million wavefunctions is far beyond a film or an analysis (every step of most
+    # runs); more is a typo, and the run's disk estimate would refuse it anyway
+    snapshots: int = key(Spec("int", minimum=0, strict=False, maximum=1e6, doc="number of wavefunction snapshots"),
+                         100)
     snapshot_stride: int = key(Spec("int", minimum=1, strict=False, doc="keep every n-th grid point"), 1)
     population_interval: float | None = key(
         Spec("quantity", "time", auto=True, **_POSITIVE, doc="time between bound-state projections"), None
@@ -459,10 +493,29 @@ _SECTIONS = {
 }
 
 
+def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
+    """Refuse a key of the [atom] table that another model reads and ``model`` does not
+    (e.g. ``trap_frequency`` with the soft-core model): it would be silently ignored."""
+    from .potentials import model_keys
+
+    keys = model_keys()
+    own = set(keys.get(model, ()))
+    for name in table:
+        owners = [m for m, ks in keys.items() if name in ks and m != model]
+        if owners and name not in own:
+            mine = ", ".join(sorted(own)) or "none"
+            raise InputError(
+                f"belongs to the {' and '.join(owners)} model, not to atom.model = '{model}' "
+                f"(whose own keys are: {mine})",
+                _join(path, name),
+            )
+
+
 def _read_atom(table, path):
     atom = _read_table(
         AtomConfig, table, path, nested={"centre": ("centres", lambda t, p: _read_array(CentreConfig, t, p))}
     )
+    _refuse_other_models_keys(atom.model, table, path)
     centres = atom.centres
     if atom.model == "soft-core":
         if centres:
@@ -511,6 +564,21 @@ def _read_laser(table, path, base_dir: Path):
     tabulated = laser.field_file is not None
     if laser.wavelength is not None and laser.photon_energy is not None:
         raise InputError("give either 'wavelength' or 'photon_energy', not both", _join(path, "photon_energy"))
+    if abs(laser.delay) > units.fs_to_au(MAX_DELAY_FS):
+        raise InputError(f"|delay| = {units.au_to_fs(abs(laser.delay)):.3g} fs is more than the {MAX_DELAY_FS:g} fs "
+                         "a run can span", _join(path, "delay"))
+    if laser.omega is not None:
+        which = "wavelength" if laser.wavelength is not None else "photon_energy"
+        nm = units.omega_to_nm(laser.omega)
+        if not MIN_WAVELENGTH_NM <= nm <= MAX_WAVELENGTH_NM:
+            lo_ev = units.au_to_ev(units.nm_to_omega(MAX_WAVELENGTH_NM))
+            hi_ev = units.au_to_ev(units.nm_to_omega(MIN_WAVELENGTH_NM))
+            raise InputError(
+                f"a carrier of {nm:.3g} nm ({units.au_to_ev(laser.omega):.3g} eV) is outside what the model holds: "
+                f"{MIN_WAVELENGTH_NM:g} nm to {MAX_WAVELENGTH_NM / 1e9:g} m ({lo_ev:.3g} to {hi_ev:.4g} eV; "
+                "shorter breaks the dipole approximation, longer takes more steps than a run may)",
+                _join(path, which),
+            )
     if tabulated:
         for name in ("time_unit", "field_unit"):
             if getattr(laser, name) is None:
@@ -525,6 +593,16 @@ def _read_laser(table, path, base_dir: Path):
         raise InputError("give either 'peak_intensity' or 'peak_field', not both", _join(path, "peak_field"))
     if laser.amplitude is None:
         raise InputError("missing 'peak_intensity' (e.g. \"1e14 W/cm^2\")", _join(path, "peak_intensity"))
+    a0 = laser.amplitude / (laser.omega * units.SPEED_OF_LIGHT_AU)
+    if not a0 < MAX_NORMALISED_VECTOR_POTENTIAL:
+        which = "peak_field" if laser.peak_field is not None else "peak_intensity"
+        limit = units.field_to_intensity(MAX_NORMALISED_VECTOR_POTENTIAL * laser.omega * units.SPEED_OF_LIGHT_AU)
+        raise InputError(
+            f"relativistic: the quiver momentum E0/omega is {a0:.3g} m c (a0 >= {MAX_NORMALISED_VECTOR_POTENTIAL:g}), "
+            f"outside the non-relativistic Schrodinger equation; at {units.omega_to_nm(laser.omega):.4g} nm keep "
+            f"the intensity below {limit:.3g} W/cm^2",
+            _join(path, which),
+        )
     if (laser.cycles is None) == (laser.fwhm is None):
         which = "both" if laser.cycles is not None else "neither"
         raise InputError(f"give exactly one of 'cycles' and 'fwhm' ({which} given)", _join(path, "cycles"))
@@ -596,7 +674,7 @@ def parse_override(assignment: str) -> tuple[str, Any]:
         raise InputError(f"an override must name a key, got {assignment!r}", "--set")
     try:
         value = tomllib.loads(f"v = {text}")["v"]
-    except tomllib.TOMLDecodeError:
+    except ValueError:  # not a TOML value (TOMLDecodeError), or an integer of over 4300 digits
         value = text.strip()
     return path, value
 
@@ -665,12 +743,18 @@ def load_input(path, overrides=(), text: str | None = None) -> RunConfig:
     if text is None:
         try:
             text = path.read_text(encoding="utf-8")
+        except UnicodeDecodeError as exc:
+            # the contents are not echoed: the file may be anything
+            raise InputError(f"not a text file: byte {exc.start} is not UTF-8 (an input is TOML text)",
+                             source=source) from None
         except OSError as exc:
             raise InputError(f"cannot read the input file ({exc.strerror})", source=source) from None
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"TOML syntax error: {exc}", source=source) from None
+    except ValueError as exc:  # e.g. an integer of more digits than Python converts
+        raise InputError(f"cannot read the TOML ({str(exc).split(';')[0]})", source=source) from None
     try:
         for item in overrides:
             k, v = parse_override(item) if isinstance(item, str) else item

@@ -10,11 +10,17 @@ Contract for an implementer of :class:`Potential`:
   Ehrenfest dipole acceleration, so it must not be a finite difference);
 * ``from_config(atom)`` builds the potential from the validated ``[atom]`` table;
 * ``with_softening(a)`` returns a copy with a new softening, for potentials whose
-  softening may be fitted to an ionization potential (others raise ``TypeError``).
+  softening may be fitted to an ionization potential (others raise ``TypeError``);
+* ``input_keys`` names the keys of the ``[atom]`` table the model reads (besides the
+  keys every model has): the input reader refuses the keys of another model;
+* the constructor refuses parameters outside the model's domain (a non-positive
+  softening, width or frequency, a non-finite number) with a ``ValueError`` naming
+  the parameter.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -28,6 +34,7 @@ __all__ = [
     "HarmonicOscillator",
     "POTENTIALS",
     "register_potential",
+    "model_keys",
 ]
 
 POTENTIALS: dict[str, type["Potential"]] = {}
@@ -36,11 +43,31 @@ POTENTIALS: dict[str, type["Potential"]] = {}
 register_potential = registrar(POTENTIALS)
 
 
+def _require(name: str, value, positive: bool = False, model: str = "") -> None:
+    """Refuse a non-finite (or, with ``positive``, non-positive) model parameter."""
+    where = f"{model} " if model else ""
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise ValueError(f"{where}{name} must be a number, got {value!r}") from None
+    if not math.isfinite(number):
+        raise ValueError(f"{where}{name} must be finite, got {value!r}")
+    if positive and not number > 0:
+        raise ValueError(f"{where}{name} must be positive, got {value!r}")
+
+
+def model_keys() -> dict[str, tuple[str, ...]]:
+    """Model name -> the ``[atom]`` keys that only that model reads."""
+    return {name: tuple(cls.input_keys) for name, cls in POTENTIALS.items()}
+
+
 class Potential:
     """Base class of model potentials (see the module docstring for the contract)."""
 
     name = "?"
     fittable = False
+    #: keys of the [atom] table this model reads, beyond those every model has
+    input_keys: tuple[str, ...] = ()
 
     def value(self, x: np.ndarray) -> np.ndarray:  # pragma: no cover - abstract
         raise NotImplementedError
@@ -68,6 +95,11 @@ class Centre:
     charge: float
     softening: float
 
+    def __post_init__(self):
+        _require("position", self.position, model="soft-core centre")
+        _require("charge", self.charge, model="soft-core centre")
+        _require("softening", self.softening, positive=True, model="soft-core centre")
+
 
 @register_potential("soft-core")
 @dataclass(frozen=True)
@@ -80,6 +112,11 @@ class SoftCore(Potential):
 
     centres: tuple[Centre, ...]
     fittable = True
+    input_keys = ("charge", "softening", "ionization_potential", "centre")
+
+    def __post_init__(self):
+        if not self.centres or not all(isinstance(c, Centre) for c in self.centres):
+            raise ValueError(f"soft-core centres must be a non-empty tuple of Centre, got {self.centres!r}")
 
     def value(self, x):
         x = np.asarray(x, dtype=float)
@@ -122,6 +159,10 @@ class PoschlTeller(Potential):
     """
 
     depth_parameter: float
+    input_keys = ("depth_parameter",)
+
+    def __post_init__(self):
+        _require("depth_parameter", self.depth_parameter, positive=True, model="Poschl-Teller")
 
     def value(self, x):
         lam = self.depth_parameter
@@ -150,6 +191,10 @@ class HarmonicOscillator(Potential):
     """Harmonic oscillator V(x) = w^2 x^2 / 2, levels (n + 1/2) w. For validation."""
 
     frequency: float
+    input_keys = ("trap_frequency",)
+
+    def __post_init__(self):
+        _require("frequency", self.frequency, positive=True, model="harmonic oscillator")
 
     def value(self, x):
         return 0.5 * self.frequency**2 * np.asarray(x, dtype=float) ** 2

@@ -14,25 +14,34 @@ estimates; they give the grid; the softening is then fitted on that grid.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, replace
 from functools import cached_property
 
 import numpy as np
 
 from . import units
-from .config import InputError, RunConfig
+from .config import MAX_NORMALISED_VECTOR_POTENTIAL, InputError, RunConfig
 from .estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
 from .grid import MAX_POINTS, Grid, fast_fft_size
 from .potentials import POTENTIALS, Potential
 from .pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
 from .states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
 
-__all__ = ["Problem", "build_problem", "build_field", "model_estimates"]
+__all__ = ["Problem", "build_problem", "build_field", "model_estimates", "check_absorber"]
 
 #: provisional grid for a first look at the ground state before the real grid is known
 _PROVISIONAL = Grid(1024, 0.1)
 #: most time steps a run may take
 MAX_STEPS = 1e9
+#: largest |t| of a run, in time steps: the propagator requires the steps t_n+1 - t_n to
+#: be equal to 1e-9, and float64 times carry an error of 2.2e-16 |t| each, so |t| must
+#: stay below about 2e-9 / 2.2e-16 / 2 = 4.5e6 steps; half of it leaves a margin
+MAX_TIME_IN_STEPS = 2e6
+#: largest share of the initial state the absorbing layers may remove with no field
+#: over the run: beyond it the state reaches into the layers and the "ionization" of
+#: the run is the absorber's, at the percent level
+MAX_ABSORBED_AT_REST = 1e-2
 #: highest initial-state index accepted
 MAX_INITIAL_STATE = 30
 #: default field-free time after the pulses, in optical cycles of the first pulse
@@ -105,8 +114,17 @@ def _read_field_table(config: RunConfig, index: int, laser):
         data = np.loadtxt(path, comments="#", delimiter=None, ndmin=2)
     except OSError:
         raise InputError(f"cannot read the field file {str(path)!r}", key, config.source) from None
+    except UnicodeDecodeError as exc:
+        raise InputError(f"the field file {str(path)!r} is not text: byte {exc.start} is not UTF-8", key,
+                         config.source) from None
     except ValueError as exc:
-        raise InputError(f"the field file {str(path)!r} is malformed ({exc})", key, config.source) from None
+        # numpy's message quotes the offending text; say where it is, never what (the
+        # file may be anything, and its contents do not belong in logs)
+        where = re.search(r"at row \d+(, column \d+)?", str(exc))
+        raise InputError(
+            f"the field file {str(path)!r} is malformed: not a table of numbers in two columns (time, field)"
+            + (f"; unreadable {where.group(0)}" if where else ""),
+            key, config.source) from None
     if data.shape[1] != 2 or data.shape[0] < 4:
         raise InputError(
             f"the field file {str(path)!r} must have two columns (time, field) and at least 4 rows, "
@@ -127,6 +145,14 @@ def _read_field_table(config: RunConfig, index: int, laser):
             e = data[:, 1] * scale
     if np.any(np.diff(t) <= 0):
         raise InputError(f"the times in {str(path)!r} must increase strictly", key, config.source)
+    # the relativistic bound of analytic pulses (config.MAX_NORMALISED_VECTOR_POTENTIAL),
+    # on the largest |A| = |int E dt| of the table (trapezoid rule)
+    a_max = float(np.max(np.abs(np.concatenate([[0.0], np.cumsum(0.5 * (e[1:] + e[:-1]) * np.diff(t))]))))
+    if not a_max < MAX_NORMALISED_VECTOR_POTENTIAL * units.SPEED_OF_LIGHT_AU:
+        raise InputError(
+            f"relativistic: the vector potential of the field in {str(path)!r} reaches {a_max:.3g} a.u., "
+            f"{a_max / units.SPEED_OF_LIGHT_AU:.3g} m c / e, outside the non-relativistic Schrodinger equation",
+            key, config.source)
     return t, e
 
 
@@ -290,6 +316,31 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
             config.source,
         )
     steps = max(1, int(math.ceil(n_steps - 1e-9)))
+    reach = max(abs(start), abs(end)) / dt
+    if reach > MAX_TIME_IN_STEPS:
+        i = max(range(len(field.pulses)), key=lambda k: max(abs(field.pulses[k].start), abs(field.pulses[k].end)),
+                default=None)
+        key = "propagation.after_pulse"
+        if i is not None:
+            laser = config.lasers[i]
+            half = 0.5 * (field.pulses[i].end - field.pulses[i].start)
+            if laser.field_file is not None:
+                key = f"laser.{i}.field_file"
+            elif abs(laser.delay) > half:
+                key = f"laser.{i}.delay"
+            else:
+                key = f"laser.{i}.{'cycles' if laser.cycles is not None else 'fwhm'}"
+        raise InputError(
+            f"the run reaches |t| = {max(abs(start), abs(end)):.4g} a.u., {reach:.3g} steps of {dt:.3g} a.u. from "
+            f"t = 0: more than the {MAX_TIME_IN_STEPS:.0e} at which double-precision times still give equal "
+            "steps; shorten the pulses or their delays, or lengthen propagation.time_step",
+            key, config.source)
+    quiver = max((p.quiver_amplitude for p in pulses), default=0.0)
+    inner = grid.half_width - (config.absorber.width if config.absorber.width is not None else advice.absorber_width)
+    if config.absorber.type != "none" and 0 < inner < quiver:
+        notes.append(
+            f"the unabsorbed region +-{inner:.1f} bohr is smaller than the quiver amplitude {quiver:.1f} bohr: "
+            "electrons are absorbed before they can return to the core (no recollision)")
     for p in field.pulses:
         if isinstance(p, TabulatedPulse) and abs(p.area) > 1e-6 * max(p.peak_field, 1e-300) * (p.end - p.start):
             notes.append(
@@ -307,3 +358,46 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         advice=advice,
         warnings=tuple(notes),
     )
+
+
+def check_absorber(problem: Problem) -> None:
+    """Refuse absorbing layers that leave no room for the atom (before a run; the bound
+    states of the same input are found on any box, so :func:`build_problem` does not
+    refuse them, and only warns when the layers leave no room for the quiver motion).
+
+    The layers of ``absorber.width`` on each side must leave an unabsorbed region, and
+    the initial state must fit in it: with no field at all, the layers remove from a
+    stationary state a share 2 <W> dt per step (the first-order decay rate of a state
+    under a weak absorbing potential; here 1 - sum M^2 |phi|^2 dx for the step factor
+    M), which over the run must stay below :data:`MAX_ABSORBED_AT_REST`. An inner
+    region smaller than the quiver amplitude E0/w^2 is allowed (absorbing electrons
+    before they return is a way to remove recollisions), but said.
+
+    Raises
+    ------
+    InputError
+        Naming ``absorber.width``.
+    """
+    from .absorb import ABSORBERS
+
+    config, grid, states = problem.config, problem.grid, problem.states
+    cfg = config.absorber
+    if cfg.type == "none":
+        return
+    width = problem.absorber_width
+    given = "" if cfg.width is not None else " (the automatic width)"
+    inner = grid.half_width - width
+    box = f"a box of +-{grid.half_width:.4g} bohr ({grid.points} points of {grid.spacing:.4g} bohr)"
+    if inner <= 0:
+        raise InputError(
+            f"absorbing layers of {width:.4g} bohr{given} on each side leave no unabsorbed region in {box}; "
+            "narrow the absorber or enlarge the grid (grid.points)", "absorber.width", config.source)
+    factor = ABSORBERS[cfg.type](cfg.exponent, cfg.strength).step_factor(grid, width, problem.time.step)
+    density = states.wavefunctions[list(config.atom.initial_state)] ** 2 * grid.spacing
+    per_step = float(np.max(np.sum((1.0 - factor**2) * density, axis=1)))
+    at_rest = -math.expm1(problem.time.steps * math.log1p(-min(per_step, 1.0 - 1e-16)))
+    if at_rest > MAX_ABSORBED_AT_REST:
+        raise InputError(
+            f"the initial state reaches into the absorbing layers ({width:.4g} bohr{given} of {box}, "
+            f"unabsorbed +-{inner:.4g} bohr): with no field they would remove {at_rest:.3g} of it over the run; "
+            "narrow the absorber or enlarge the grid (grid.points)", "absorber.width", config.source)

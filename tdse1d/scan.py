@@ -481,6 +481,8 @@ def parse_plan(plan: dict, source: str = "<plan>", base_dir: Path | str = ".", t
             problems.append(f"base: cannot read the base input {str(path)!r} ({exc.strerror})")
         except tomllib.TOMLDecodeError as exc:
             problems.append(f"base: TOML syntax error in {str(path)!r}: {exc}")
+        except ValueError:  # not UTF-8 text, or an integer of too many digits
+            problems.append(f"base: {str(path)!r} is not readable TOML text")
     elif isinstance(base, dict):
         raw_base = copy.deepcopy(base)
     else:
@@ -556,10 +558,15 @@ def load_plan(path) -> ScanPlan:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:
         raise InputError(f"cannot read the scan plan ({exc.strerror})", source=str(path)) from None
+    except UnicodeDecodeError as exc:
+        raise InputError(f"not a text file: byte {exc.start} is not UTF-8 (a plan is TOML text)",
+                         source=str(path)) from None
     try:
         plan = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"TOML syntax error: {exc}", source=str(path)) from None
+    except ValueError as exc:  # an integer of more digits than Python converts
+        raise InputError(f"cannot read the TOML ({str(exc).split(';')[0]})", source=str(path)) from None
     return parse_plan(plan, source=str(path), base_dir=path.parent, text=text)
 
 

@@ -611,11 +611,16 @@ def read_cutoff(
     reason = "" if resolved else "at or beyond the end of the data"
     floor_at = headroom = math.nan
     if noise is not False:
-        floor = noise_floor(w, pw, companion=noise, half_width=smooth_orders * omega0)
-        floor_at = float(floor[region[last]])
-        headroom = level - drop - floor_at
-        if not headroom >= noise_margin:
-            resolved, reason, cutoff = False, unresolved_reason(headroom), math.nan
+        try:
+            floor = noise_floor(w, pw, companion=noise, half_width=smooth_orders * omega0)
+        except ValueError as exc:
+            # e.g. a short measured spectrum: with no floor, no reading can be certified
+            resolved, reason, cutoff = False, f"unresolved: {exc}", math.nan
+        else:
+            floor_at = float(floor[region[last]])
+            headroom = level - drop - floor_at
+            if not headroom >= noise_margin:
+                resolved, reason, cutoff = False, unresolved_reason(headroom), math.nan
     return CutoffEstimate(
         frequency=cutoff,
         order=cutoff / omega0,

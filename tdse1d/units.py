@@ -108,6 +108,10 @@ DIMENSIONS: dict[str, Dimension] = {
     )
 }
 
+#: longest quantity string read: "1.6e14 W/cm^2" needs 13 characters; the unit parser
+#: takes time growing with the length, so a runaway value is refused before parsing
+MAX_QUANTITY_LENGTH = 200
+
 _ATOMIC = re.compile(r"^\s*(?P<num>[-+0-9.eE]+)\s*(a\.u\.|au)\s*$")
 
 
@@ -153,9 +157,12 @@ def to_atomic(value, dimension: str, *, bare_allowed: bool = True) -> float:
                 f"a bare number is ambiguous for {dim.a_name}; write it with a unit, "
                 f"e.g. {dim.example}"
             )
-        return float(value)
+        return _as_float(value)
     if not isinstance(value, str):
-        raise UnitError(f"expected {dim.a_name} such as {dim.example}, got {value!r}")
+        raise UnitError(f"expected {dim.a_name} such as {dim.example}, got {_shown(value)}")
+    if len(value) > MAX_QUANTITY_LENGTH:
+        raise UnitError(f"a quantity of {len(value)} characters is too long to be one (at most "
+                        f"{MAX_QUANTITY_LENGTH}); expected {dim.a_name} such as {dim.example}")
     match = _ATOMIC.match(value)
     if match:
         try:
@@ -188,6 +195,22 @@ def to_atomic(value, dimension: str, *, bare_allowed: bool = True) -> float:
             f"{value!r} is not {dim.a_name} (expected something like {dim.example})"
         ) from None
     return float(si) / dim.au_in_si
+
+
+def _as_float(value) -> float:
+    """A Python number as a float, refusing integers beyond the float range."""
+    try:
+        return float(value)
+    except OverflowError:
+        raise UnitError(f"too large: {_shown(value)}, beyond the range of floating-point numbers") from None
+
+
+def _shown(value, limit: int = 40) -> str:
+    """``repr(value)`` cut to ``limit`` characters, for messages."""
+    if isinstance(value, int) and value.bit_length() > 128:  # repr of a huge int is slow, or refused
+        return f"an integer of about {int(value.bit_length() * 0.30103) + 1} digits"
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 def from_atomic(value: float, dimension: str, unit: str) -> float:

@@ -29,7 +29,6 @@ from __future__ import annotations
 
 import math
 import time
-import tomllib
 import traceback
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -37,7 +36,7 @@ from pathlib import Path
 import numpy as np
 
 from . import units
-from .config import InputError, load_input
+from .config import InputError, load_input, tomllib
 from .registry import registrar
 
 __all__ = [
@@ -60,9 +59,25 @@ CASE_KINDS: dict[str, type["CaseKind"]] = {}
 register_case_kind = registrar(CASE_KINDS, attribute="kind")
 
 
-def default_cases_dir() -> Path:
-    """``validation/`` of the source tree this package was imported from."""
-    return Path(__file__).resolve().parent.parent / "validation"
+#: where an installed package keeps the cases (``validation/`` shipped as package data,
+#: see pyproject.toml), relative to the package
+PACKAGED_CASES = "validation_cases"
+
+
+def case_dirs_searched() -> list[Path]:
+    """The folders :func:`default_cases_dir` looks in, in order: the cases shipped inside
+    an installed package, then ``validation/`` of the source tree the package was
+    imported from (a checkout, or an editable install)."""
+    package = Path(__file__).resolve().parent
+    return [package / PACKAGED_CASES, package.parent / "validation"]
+
+
+def default_cases_dir() -> Path | None:
+    """The first folder of :func:`case_dirs_searched` that holds a case, None if none does."""
+    for folder in case_dirs_searched():
+        if any(folder.glob("*/case.toml")):
+            return folder
+    return None
 
 
 # ----------------------------------------------------------------------------- data
@@ -146,23 +161,60 @@ class CaseReport:
 
 
 def discover(root=None, quick=False, names=None) -> list[Case]:
-    """The cases under ``root`` (sorted by name), only the quick ones if asked."""
-    root = Path(root) if root is not None else default_cases_dir()
+    """The cases under ``root`` (sorted by name), only the quick ones if asked.
+
+    Parameters
+    ----------
+    root : path, optional
+        Folder of case folders; default :func:`default_cases_dir`.
+    quick : bool
+        Only the cases marked ``quick = true``.
+    names : set of str, optional
+        Only these cases.
+
+    Raises
+    ------
+    InputError
+        If no case is found (naming where it looked) or a case file is unreadable.
+    """
+    if root is None:
+        root = default_cases_dir()
+        if root is None:
+            looked = " or ".join(str(p) for p in case_dirs_searched())
+            raise InputError(f"no validation cases found (looked in {looked}); give --cases DIR", "--cases")
+    root = Path(root)
+    if not root.is_dir():
+        raise InputError(f"no such folder of validation cases: {root}", "--cases")
     cases = []
+    found = []
     for path in sorted(root.glob("*/case.toml")):
         try:
             spec = tomllib.loads(path.read_text(encoding="utf-8"))
         except tomllib.TOMLDecodeError as exc:
             raise InputError(f"TOML syntax error: {exc}", source=str(path)) from None
+        except UnicodeDecodeError:
+            raise InputError("not a text file (UTF-8 TOML expected)", source=str(path)) from None
+        except OSError as exc:
+            raise InputError(f"cannot read the case file ({exc.strerror})", source=str(path)) from None
         kind = spec.get("kind")
         if kind not in CASE_KINDS:
             raise InputError(f"unknown case kind {kind!r}; choose one of {', '.join(CASE_KINDS)}", "kind", str(path))
         case = Case(path.parent.name, path.parent, spec)
+        found.append(case)
         if quick and not case.quick:
             continue
         if names and case.name not in names:
             continue
         cases.append(case)
+    if not found:
+        raise InputError(f"no validation cases (folders with a case.toml) in {root}", "--cases")
+    unknown = sorted(set(names or ()) - {c.name for c in found})
+    if unknown:
+        raise InputError(f"no case named {', '.join(unknown)} in {root}; the cases are "
+                         f"{', '.join(c.name for c in found)}", "--only")
+    if not cases:
+        raise InputError(f"none of the {len(found)} cases in {root} is marked quick"
+                         + (" among those given by --only" if names else ""), "--quick")
     return cases
 
 

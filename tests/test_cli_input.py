@@ -12,7 +12,6 @@ import json
 import math
 import subprocess
 import sys
-import tomllib
 from pathlib import Path
 
 import numpy as np
@@ -20,7 +19,7 @@ import pytest
 import scipy.constants as sc
 
 from tdse1d import cli
-from tdse1d.config import parse_override
+from tdse1d.config import parse_override, tomllib
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
 HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]
@@ -359,3 +358,86 @@ def test_every_input_key_is_documented():
         documented = set(re.findall(r"^\| `(\w+)` \|", match.group(1), flags=re.M))
         keys = {f.name for f in dataclasses.fields(cls) if "spec" in f.metadata}
         assert documented >= keys, (heading, keys - documented)
+
+
+# ------------------------------------------------------------------ options and Ctrl-C
+
+#: (arguments, words of the one-line message): every numeric option and the scheduler
+#: address are checked when parsed; `--workers -3` used to hang forever
+BAD_OPTIONS = [
+    (["scan", "plan.toml", "--workers", "-3"], ["--workers", "positive integer"]),
+    (["scan", "plan.toml", "--workers", "0"], ["--workers", "positive integer"]),
+    (["scan", "plan.toml", "--workers", "100000"], ["--workers", "per core"]),
+    (["scan", "plan.toml", "--timeout", "-1"], ["--timeout", "positive"]),
+    (["scan", "plan.toml", "--timeout", "nan"], ["--timeout", "finite"]),
+    (["scan", "plan.toml", "--point", "-1"], ["--point", ">= 0"]),
+    (["scan", "plan.toml", "--scheduler", "notaurl"], ["--scheduler", "tcp://HOST:PORT"]),
+    (["scan", "plan.toml", "--scheduler", "http://10.0.0.5:8786"], ["--scheduler", "unknown scheme"]),
+    (["scan", "plan.toml", "--scheduler", "tcp://10.0.0.5:99999"], ["--scheduler", "tcp://HOST:PORT"]),
+    (["states", "in.toml", "--count", "0"], ["--count", "positive integer"]),
+    (["states", "in.toml", "--count", "1" + "0" * 400], ["--count"]),
+    (["compare", "r.h5", "m.csv", "--resolution", "-0.5"], ["--resolution", ">= 0"]),
+    (["compare", "r.h5", "m.csv", "--resolution", "inf"], ["--resolution", "finite"]),
+    (["compare", "r.h5", "m.csv", "--point", "-2"], ["--point", ">= 0"]),
+    (["run"], ["INPUT"]),
+    (["nosuchcommand"], ["invalid choice"]),
+]
+
+
+@pytest.mark.parametrize("argv, words", BAD_OPTIONS, ids=[" ".join(a[:1] + a[2:3]) for a, _ in BAD_OPTIONS])
+def test_bad_option_is_one_line_and_exit_2(argv, words, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    assert cli.main(argv) == 2
+    captured = capsys.readouterr()
+    assert captured.err.startswith("tdse1d: error: ") and captured.err.count("\n") == 1, captured.err
+    for word in words:
+        assert word in captured.err
+    assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize("address", ["tcp://10.0.0.5:8786", "10.0.0.5:8786", "tls://node-3:8786", "[::1]:8786",
+                                     "inproc://host/123/1"])
+def test_scheduler_addresses_accepted(address):
+    assert cli.scheduler_address(address) == address
+
+
+def _interrupting(*_, **__):
+    raise KeyboardInterrupt
+
+
+@pytest.mark.parametrize("where", ["import", "parse", "command"])
+def test_ctrl_c_at_any_moment_is_one_line_and_exit_130(where, workdir, capsys, monkeypatch):
+    """SIGINT raises KeyboardInterrupt wherever Python is: while the command's modules
+    load (the first second), while the arguments are read, or while the command works."""
+    if where == "import":
+        monkeypatch.setattr(cli.importlib, "import_module", _interrupting)
+    elif where == "parse":
+        monkeypatch.setattr(cli._Parser, "parse_args", _interrupting)
+    else:
+        from tdse1d.commands import states
+
+        monkeypatch.setattr(states, "main", _interrupting)
+    assert cli.main(["states", "case.toml"]) == 130
+    err = capsys.readouterr().err
+    assert err == "tdse1d: interrupted\n"
+
+
+def test_ctrl_c_in_a_real_process_while_it_starts(tmp_path):
+    """The package and the command line import only the standard library before main()
+    is running, so an interrupt during the heavy imports lands in main()'s handler. The
+    handshake: the child raises the interrupt itself from inside the import of the
+    command module (the slow step that follows the first second), no timing involved."""
+    code = ("import signal, os, sys, importlib\n"
+            "import tdse1d.cli as cli\n"
+            "real = importlib.import_module\n"
+            "def slow_import(name, *a):\n"
+            "    os.kill(os.getpid(), signal.SIGINT)\n"
+            "    return real(name, *a)\n"
+            "cli.importlib.import_module = slow_import\n"
+            "sys.exit(cli.main(['states', 'in.toml']))\n")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=tmp_path)
+    assert proc.returncode == 130 and proc.stderr == "tdse1d: interrupted\n", proc.stderr
+    light = subprocess.run([sys.executable, "-c", "import sys, tdse1d.cli; print(sorted(m for m in sys.modules "
+                            "if m.split('.')[0] in ('numpy', 'scipy', 'numba', 'h5py', 'matplotlib', 'dask')))"],
+                           capture_output=True, text=True, cwd=tmp_path)
+    assert light.stdout.strip() == "[]", light.stdout

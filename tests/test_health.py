@@ -1,6 +1,8 @@
 """Numerical-health checks during a run: each symptom is provoked on a small grid and
 reported with step and time, a sound run reports none, and --strict makes them errors."""
 
+import os
+
 import h5py
 import pytest
 
@@ -73,3 +75,36 @@ def test_warnings_go_to_stderr_and_file_and_strict_fails(tmp_path, capsys):
     assert cli.main(["run", str(path), "-o", str(out2), "--quiet", "--strict"]) == 1
     assert "largest momentum" in capsys.readouterr().err  # the warning made before the run
     assert not out2.exists() and not out2.with_name("s.h5.part").exists()
+
+
+def _file_state(path):
+    """What would change if anything wrote ``path``: existence, inode, size, mtime."""
+    try:
+        st = os.stat(path)
+    except FileNotFoundError:
+        return None
+    return (st.st_ino, st.st_size, st.st_mtime_ns)
+
+
+def test_runs_keep_wisdom_out_of_the_user_cache(tmp_path, monkeypatch, user_cache_home, private_cache_home):
+    """The suite's autouse fixture (conftest.py) sends FFTW wisdom to a private cache: a
+    run through the command line writes it there and leaves the user's cache as it was.
+    Without the fixture the run below writes (or replaces) the user's file and this fails."""
+    from tdse1d import wisdom
+
+    monkeypatch.delenv("TDSE1D_NO_WISDOM", raising=False)
+    with monkeypatch.context() as m:
+        if user_cache_home is None:
+            m.delenv("XDG_CACHE_HOME", raising=False)
+        else:
+            m.setenv("XDG_CACHE_HOME", user_cache_home)
+        user_file = wisdom.wisdom_path()
+    private_file = wisdom.wisdom_path()
+    assert private_file.is_relative_to(private_cache_home)
+    assert not private_file.is_relative_to(user_file.parent)
+    before = _file_state(user_file)
+    path = tmp_path / "in.toml"
+    path.write_text(BASE.replace('after_pulse = "1.5 fs"', 'after_pulse = "0.2 fs"'))
+    assert cli.main(["run", str(path), "-o", str(tmp_path / "r.h5"), "--quiet"]) == 0
+    assert _file_state(user_file) == before
+    assert private_file.exists()  # the run did save its wisdom, in the private cache

@@ -32,7 +32,6 @@ from __future__ import annotations
 
 import math
 import re
-import tomllib
 from pathlib import Path
 
 import h5py
@@ -43,7 +42,7 @@ from scipy.optimize import curve_fit
 from scipy.sparse.linalg import expm_multiply
 
 from tdse1d import api, cli, spectra, store
-from tdse1d.config import load_input, parse_input
+from tdse1d.config import load_input, parse_input, tomllib
 from tdse1d.grid import Grid
 from tdse1d.potentials import Centre, HarmonicOscillator, Potential, SoftCore
 from tdse1d.propagate import SCHEMES, Propagator

@@ -320,11 +320,11 @@ def _mount(*args) -> bool:
 
 
 @pytest.fixture
-def tiny_tmpfs(tmp_path):
-    """A real 256 kB file system (needs root with mount rights; skipped elsewhere)."""
-    where = tmp_path / "tiny"
+def small_tmpfs(tmp_path):
+    """A real 8 MB file system (needs root with mount rights; skipped elsewhere)."""
+    where = tmp_path / "small"
     where.mkdir()
-    if os.geteuid() != 0 or not _mount("-t", "tmpfs", "-o", "size=256k", "tmpfs", where):
+    if os.geteuid() != 0 or not _mount("-t", "tmpfs", "-o", "size=8m", "tmpfs", where):
         pytest.skip("cannot mount a tmpfs here")
     try:
         yield where
@@ -332,16 +332,39 @@ def tiny_tmpfs(tmp_path):
         subprocess.run(["umount", str(where)])
 
 
-def test_really_full_disk_is_one_line_and_no_crash(tiny_tmpfs, tmp_path):
-    """The HDF5 library crashed at exit after a failed write (exit status 139)."""
+def test_really_full_disk_is_one_line_and_no_crash(small_tmpfs, tmp_path):
+    """The HDF5 library crashed at exit after a failed write (exit status 139).
+
+    The disk estimate made before a run (tdse1d.resources) passes: the disk is filled
+    while the run is held at its first chunk (the test handshake, docs/checkpoints.md),
+    so that the failure comes in the middle of writing, as on a shared disk."""
     inp = _input(tmp_path / "i", extra="")
     text = inp.read_text().replace("points = 256", "points = 4096").replace("snapshots = 5", "snapshots = 40")
-    inp.write_text(text)  # 40 snapshots x 4096 points x 16 bytes = 2.6 MB > 256 kB
-    proc = _cli("run", inp, "-o", tiny_tmpfs / "r.h5", "--quiet")
-    assert proc.returncode == 1, (proc.returncode, proc.stderr[-2000:])
-    lines = _errors(proc.stderr)
-    assert len(lines) == 1 and "no space left" in lines[0], proc.stderr[-2000:]
-    assert list(tiny_tmpfs.iterdir()) == []
+    inp.write_text(text)  # 40 snapshots x 4096 points x 16 bytes = 2.6 MB < 8 MB free at the start
+    hold = tmp_path / "hold"
+    hold.mkdir()
+    env = {**os.environ, "TDSE1D_TEST_HOLD": str(hold), "TDSE1D_TEST_HOLD_AT": "propagation"}
+    proc = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(inp), "-o", str(small_tmpfs / "r.h5"),
+                             "--quiet"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    deadline = time.monotonic() + 120
+    while not list(hold.glob("propagation.*.json")):  # handshake: the run waits there
+        assert proc.poll() is None, proc.communicate()
+        assert time.monotonic() < deadline, "the run did not reach its first chunk"
+        time.sleep(0.01)
+    filler = small_tmpfs / "filler"
+    with open(filler, "wb") as f:  # fill what is left of the disk
+        try:
+            while True:
+                f.write(b"\0" * 65536)
+                f.flush()
+        except OSError:
+            pass
+    (hold / "go").touch()
+    _, err = proc.communicate(timeout=300)
+    assert proc.returncode == 1, (proc.returncode, err[-2000:])
+    lines = _errors(err)
+    assert len(lines) == 1 and "no space left" in lines[0], err[-2000:]
+    assert sorted(p.name for p in small_tmpfs.iterdir()) == ["filler"]
 
 
 @pytest.fixture

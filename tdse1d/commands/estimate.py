@@ -6,7 +6,7 @@ from .. import api, units
 from ..cli import add_input_arguments
 from ..config import load_input
 
-HELP = "semiclassical estimates (Up, Keldysh parameter, cutoffs) and the advised grid"
+HELP = "semiclassical estimates (Up, Keldysh parameter, cutoffs), the advised grid, and the memory and disk of the run"
 
 
 def add_arguments(parser):
@@ -33,11 +33,28 @@ def _rows(p):
     ]
 
 
+def _resource_rows(est):
+    """Rows of the memory and disk estimate (:mod:`tdse1d.resources`) of the run as given."""
+    from ..resources import MEMORY_SHARE, available_memory, format_bytes
+
+    memory = available_memory()
+    rows = [("time steps", f"{est.steps}", f"{est.points} grid points, {est.snapshots} snapshots")]
+    have = f"{format_bytes(memory)} available, {MEMORY_SHARE:.0%} may be planned" if memory else "available: unknown"
+    rows.append(("memory (peak)", format_bytes(est.memory), have))
+    rows += [(f"  {name}", format_bytes(n), "") for name, n in est.memory_parts.items()]
+    rows.append(("disk (result and checkpoint)", format_bytes(est.disk), ""))
+    rows += [(f"  {name}", format_bytes(n), "") for name, n in est.disk_parts.items()]
+    return rows
+
+
 def main(args):
+    from ..resources import estimate_resources
+
     config = load_input(args.input, args.overrides)
     result = api.estimate(config)
+    resources = estimate_resources(result.problem)
     if args.json:
-        print(json.dumps(result.to_json(), indent=1))
+        print(json.dumps({**result.to_json(), "resources": resources.to_json()}, indent=1))
         return 0
     for i, p in enumerate(result.pulses):
         print(f"pulse {i}")
@@ -51,4 +68,7 @@ def main(args):
     print(f"  {'absorber width':<30} {a.absorber_width:>15.1f} bohr")
     for reason in a.reasons:
         print(f"    - {reason}")
+    print("resources of the run as given (checked before `tdse1d run` propagates)")
+    for name, value, note in _resource_rows(resources):
+        print(f"  {name:<30} {value:>20}   {note}")
     return 0

@@ -15,7 +15,7 @@ import sys
 import numpy as np
 
 from .. import units
-from ..cli import CommandError
+from ..config import InputError
 
 HELP = "write a spectrum (harmonic, photoelectron, time-frequency) to CSV"
 
@@ -39,12 +39,12 @@ def _photoelectron(f):
                 ("dP/dp_left", g["density_left"][()], "a.u."),
                 ("dP/dp_right", g["density_right"][()], "a.u."),
             ]
-    raise CommandError("the file holds no photoelectron spectrum")
+    raise InputError("the file holds no photoelectron spectrum", "--what")
 
 
 def _time_frequency(f):
     if "spectra/time_frequency" not in f:
-        raise CommandError("the file holds no time-frequency map (written by runs of this version on)")
+        raise InputError("the file holds no time-frequency map (written by runs of this version on)", "--what")
     g = f["spectra/time_frequency"]
     t, w, p = g["time"][()], g["frequency"][()], g["power"][()]
     tt, ww = np.meshgrid(t, w, indexing="ij")
@@ -65,14 +65,14 @@ def _energy_unit(choice, kind):
         return "eV", (lambda e: e * ev), (lambda d: d / ev)
     if choice == "nm":
         if kind != "photon":
-            raise CommandError("--units nm (photon wavelength) applies to photon spectra only")
+            raise InputError("nm (photon wavelength) applies to photon spectra only", "--units")
 
         def wavelength(e):
             with np.errstate(divide="ignore"):
                 return np.where(e > 0, units.omega_to_nm(np.where(e > 0, e, 1.0)), math.inf)
 
         return "nm", wavelength, None
-    raise CommandError(f"unknown units {choice!r}")
+    raise InputError(f"unknown units {choice!r}", "--units")
 
 
 def columns(f, what, unit_choice):
@@ -88,7 +88,7 @@ def columns(f, what, unit_choice):
                 name = name.replace("photon_energy", "wavelength")
         elif dim == "1/energy":
             if per_energy is None:
-                raise CommandError("densities per energy cannot be given per nm")
+                raise InputError("densities per energy cannot be given per nm", "--units")
             values, unit = per_energy(values), f"1/{label}"
         elif dim == "time":
             values, unit = units.au_to_fs(values), "fs"
@@ -108,13 +108,9 @@ def add_arguments(parser):
 
 
 def main(args):
-    import h5py
+    from ._files import open_result
 
-    from ..store import is_complete
-
-    if not is_complete(args.result):
-        raise CommandError(f"{args.result} is not a finished tdse1d result file")
-    with h5py.File(args.result, "r") as f:
+    with open_result(args.result, kinds=("run",)) as f:
         names, data = columns(f, args.what, args.units)
     header = ",".join(names)
     if args.output is None:

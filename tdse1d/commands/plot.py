@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import plots, scan_plots
-from ..cli import CommandError
+from ..config import InputError
 from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 HELP = "draw the figures of a result file (field, density, spectra, time-frequency map, populations)"
@@ -41,7 +41,7 @@ def _field(f, cache):
 
 def _density(f, cache):
     if "snapshots/psi" not in f or f["snapshots/psi"].shape[0] == 0:
-        raise CommandError("the file holds no wavefunction snapshots ([output] snapshots = 0)")
+        raise InputError("the file holds no wavefunction snapshots ([output] snapshots = 0)", "--what")
     psi = f["snapshots/psi"][()]
     return plots.density_figure(f["snapshots/time"][()], f["snapshots/x"][()], np.abs(psi) ** 2,
                                 f["field/time"][()], f["field/electric"][()])
@@ -62,7 +62,7 @@ def _time_frequency(f, cache):
     a = _analysis(f, cache)
     tf = a.time_frequency
     if tf is None:
-        raise CommandError("no time-frequency map: the run has no field")
+        raise InputError("no time-frequency map: the run has no field", "--what")
     s = a.three_step
     branches = [("short", s.short_branch), ("long", s.long_branch)] if s is not None else []
     return plots.time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
@@ -74,7 +74,7 @@ def _photoelectron(f, cache):
     a = _analysis(f, cache)
     method = a.photoelectron_method
     if method is None:
-        raise CommandError("the file holds no photoelectron spectrum")
+        raise InputError("the file holds no photoelectron spectrum", "--what")
     g = f[f"spectra/photoelectron/{method}"]
     up = a.ponderomotive_energy
     if a.streaking is not None:
@@ -132,7 +132,7 @@ def output_files(result, what, names, output=None) -> dict:
     if output is not None:
         out = Path(output)
         if out.suffix.lower() not in FORMATS:
-            raise CommandError(f"unknown figure format {out.suffix!r}; use one of {', '.join(FORMATS)}")
+            raise InputError(f"unknown figure format {out.suffix!r}; use one of {', '.join(FORMATS)}", "--output")
     else:
         out = Path(result).with_suffix(".png")
     if what != "all" and output is not None:
@@ -142,21 +142,16 @@ def output_files(result, what, names, output=None) -> dict:
 
 
 def main(args):
-    import h5py
     import matplotlib
 
     matplotlib.use("Agg")
-    from ..store import is_complete
+    from ._files import open_result
 
-    if not is_complete(args.result):
-        raise CommandError(f"{args.result} is not a finished tdse1d result file")
-    with h5py.File(args.result, "r") as f:
-        kind = file_kind(f)
-        if kind not in KINDS:
-            raise CommandError(f"{args.result}: no figures for files of kind {kind!r}")
+    with open_result(args.result, kinds=KINDS) as f:
+        kind = f.kind
         figures = KINDS[kind]
         if args.what != "all" and args.what not in figures:
-            raise CommandError(f"{args.what!r} is not a figure of a {kind} file; choose from {', '.join(figures)}")
+            raise InputError(f"{args.what!r} is not a figure of a {kind} file; choose from {', '.join(figures)}", "--what")
         cache = {}
         for name, path in output_files(args.result, args.what, list(figures), args.output).items():
             fig = figures[name](f, cache)

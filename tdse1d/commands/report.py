@@ -16,7 +16,6 @@ import numpy as np
 
 from .. import units
 from ..analysis import RunAnalysis, analyse_file
-from ..cli import CommandError
 from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
 from ..spectra import NOISE_MARGIN
 
@@ -257,7 +256,7 @@ def format_table(a: RunAnalysis, target_ip: float = math.nan, ionization_note: s
 
 def _target_ip(input_toml) -> float:
     """``atom.ionization_potential`` of the stored input (hartree), NaN if absent."""
-    import tomllib
+    from ..config import tomllib
 
     try:
         value = tomllib.loads(input_toml).get("atom", {}).get("ionization_potential")
@@ -267,16 +266,9 @@ def _target_ip(input_toml) -> float:
 
 
 def main(args):
-    import h5py
+    from ._files import open_result
 
-    from ..store import is_complete
-
-    if not is_complete(args.result):
-        raise CommandError(f"{args.result} is not a finished tdse1d result file")
-    with h5py.File(args.result, "r") as f:
-        kind = f.attrs.get("kind", "run")
-        if kind != "run":
-            raise CommandError(f"{args.result} is a {kind!r} file; report reads run results")
+    with open_result(args.result, kinds=("run",)) as f:
         analysis = analyse_file(f)
         target = _target_ip(f.attrs.get("input", ""))
         note = ionization_note(f["ionization"]) if "ionization" in f else ""

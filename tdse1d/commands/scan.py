@@ -10,7 +10,7 @@ checkpoint and exits with status 75, like ``tdse1d run``.
 import sys
 from pathlib import Path
 
-from ..cli import CommandError
+from ..cli import CommandError, nonnegative_int, positive_float, scheduler_address, worker_count
 
 HELP = "run every point of a scan plan (Dask distributed, or one point of a job array) and summarise"
 
@@ -20,16 +20,16 @@ def add_arguments(parser):
     parser.add_argument("-o", "--output", default=None, metavar="SCAN_DIR",
                         help="scan directory (default: PLAN-STEM in the current directory)")
     parser.add_argument("--quiet", action="store_true", help="no progress and no summary lines")
-    parser.add_argument("--scheduler", default=None, metavar="ADDRESS",
+    parser.add_argument("--scheduler", type=scheduler_address, default=None, metavar="ADDRESS",
                         help="address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a local cluster)")
-    parser.add_argument("--timeout", type=float, default=10.0, metavar="SECONDS",
+    parser.add_argument("--timeout", type=positive_float, default=10.0, metavar="SECONDS",
                         help="how long to wait for the scheduler given by --scheduler (default 10 s)")
-    parser.add_argument("--workers", type=int, default=None, help="worker processes of the local cluster (default: cores)")
+    parser.add_argument("--workers", type=worker_count, default=None, help="worker processes of the local cluster (default: cores)")
     parser.add_argument("--dashboard", action="store_true", help="serve the Dask dashboard of the local cluster on 127.0.0.1:8787")
     parser.add_argument("--fresh", action="store_true", help="delete the points already in SCAN_DIR and start again")
     parser.add_argument("--retry-failed", action="store_true", help="run again the points that failed before")
     mode = parser.add_mutually_exclusive_group()
-    mode.add_argument("--point", type=int, default=None, metavar="K",
+    mode.add_argument("--point", type=nonnegative_int, default=None, metavar="K",
                       help="run point K alone in this process, no Dask (one task of a job array)")
     mode.add_argument("--gather", action="store_true", help="only assemble summary.h5 from the finished points")
     mode.add_argument("--list", action="store_true", help="list the points, their hashes and costs, and run nothing")

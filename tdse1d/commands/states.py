@@ -3,7 +3,7 @@
 import json
 
 from .. import api, units
-from ..cli import add_input_arguments
+from ..cli import add_input_arguments, positive_int
 from ..config import load_input
 
 HELP = "bound states of the input's model atom on the run's own grid"
@@ -11,7 +11,7 @@ HELP = "bound states of the input's model atom on the run's own grid"
 
 def add_arguments(parser):
     add_input_arguments(parser)
-    parser.add_argument("--count", type=int, default=None, help="number of states (default: every state with E < 0 on the grid)")
+    parser.add_argument("--count", type=positive_int, default=None, help="number of states (default: every state with E < 0 on the grid)")
     parser.add_argument("--json", action="store_true", help='print {"softening": a, "energies": [...]} in a.u.')
 
 

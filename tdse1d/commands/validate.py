@@ -16,7 +16,7 @@ def add_arguments(parser):
     parser.add_argument("--quick", action="store_true", help="only the quick cases (a few minutes on two cores)")
     parser.add_argument("-o", "--output", default="validation-report", metavar="REPORT_DIR",
                         help="directory for report.md and its figures (default: validation-report)")
-    parser.add_argument("--cases", default=None, metavar="DIR", help="folder of cases (default: the source tree's validation/)")
+    parser.add_argument("--cases", default=None, metavar="DIR", help="folder of cases (default: the cases shipped with the package, else the source tree's validation/)")
     parser.add_argument("--only", action="append", default=[], metavar="CASE", help="run only this case (repeatable)")
 
 
