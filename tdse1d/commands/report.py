@@ -187,7 +187,7 @@ def ionization_note(group) -> str:
     lower, upper = (float(v) for v in group["probability_band"][()])
     attrs = group.attrs
     found, held = int(attrs.get("states_found", 0)), int(attrs.get("states_held", 0))
-    text = (f"quantum: 1 - population of all bound states (docs/analysis.md), band {lower:.4f} to {upper:.4f}; "
+    text = (f"quantum: 1 - population of all bound states (docs/analysis.md), band {lower:.4g} to {upper:.4g}; "
             f"a population of {float(group['bound_unheld'][()]):.2e} sits in bound states the box cannot hold "
             f"({float(group['bound_edge'][()]):.2e} measured in the {found - held} grid states reaching the absorber, "
             f"{float(group['bound_beyond'][()]):.2e} estimated above the grid's highest level); "
