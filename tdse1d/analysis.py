@@ -1,7 +1,7 @@
 """The semiclassical picture beside the quantum result of one run.
 
 For the run's own field this module evaluates the classical three-step model
-(:mod:`tdse1d.classical`), the quasi-static tunnelling yield for the model's own
+(:mod:`tdse1d.semiclassical.classical`), the quasi-static tunnelling yield for the model's own
 potential, a Gabor time-frequency map of the dipole acceleration with the quantum
 emission times read off it, the photoelectron edges read off the spectrum, the
 ponderomotive shift of the ATI comb where it can be measured, and, for a run with an
@@ -47,7 +47,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import classical
+from .semiclassical import classical
 from .spectra import (
     NOISE_MARGIN,
     CutoffEstimate,
@@ -382,7 +382,7 @@ def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
     Parameters
     ----------
     tf_map : TimeFrequencyMap
-    three_step : tdse1d.classical.ThreeStepSummary
+    three_step : tdse1d.semiclassical.classical.ThreeStepSummary
     period : float
         Optical period (a.u.).
     plateau : (float, float)
@@ -728,11 +728,11 @@ def field_free_floor(problem, *, duration=None):
     -------
     tdse1d.spectra.PhotoelectronSpectrum
     """
-    from .absorb import ABSORBERS
-    from .propagate import Propagator, scheme_for_order
-    from .pulses import Field
+    from .physics.absorbers import ABSORBERS
+    from .physics.propagation import Propagator, scheme_for_order
+    from .physics.pulses import Field
     from .spectra import plane_wave_spectrum, project_out_bound
-    from .states import initial_wavefunction
+    from .physics.states import initial_wavefunction
 
     cfg, grid = problem.config, problem.grid
     times = problem.time.times
@@ -1062,7 +1062,7 @@ def analyse_run(problem, result) -> RunAnalysis:
     -------
     RunAnalysis
     """
-    from .estimates import as_attributes
+    from .semiclassical.estimates import as_attributes
 
     obs = result.observables
     photo = {

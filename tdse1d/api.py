@@ -17,9 +17,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .config import RunConfig, load_input
-from .estimates import GridAdvice, PulseEstimate, estimates_json
+from .semiclassical.estimates import GridAdvice, PulseEstimate, estimates_json
 from .problem import Problem, build_problem
-from .states import BoundStates
+from .physics.states import BoundStates
 
 __all__ = ["load_input", "find_states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
 
@@ -81,7 +81,7 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
 
 
 def estimate(config: RunConfig | str) -> EstimateResult:
-    """Semiclassical estimates for the input's pulses (see :mod:`tdse1d.estimates`)."""
+    """Semiclassical estimates for the input's pulses (see :mod:`tdse1d.semiclassical.estimates`)."""
     if not isinstance(config, RunConfig):
         config = load_input(config)
     return EstimateResult(build_problem(config, with_states=False))
@@ -203,7 +203,7 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
                 strict=False) -> RunOutcome:
     """:func:`run` for an already assembled :class:`~tdse1d.problem.Problem`."""
     from .checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
-    from .propagate import NumericalError
+    from .physics.propagation import NumericalError
     from .problem import check_absorber
     from .resources import check_resources
     from .runner import simulate, snapshot_steps

@@ -250,19 +250,19 @@ def _read_array(cls, items, path):
 
 
 def _potential_names():
-    from .potentials import POTENTIALS
+    from .physics.potentials import POTENTIALS
 
     return tuple(POTENTIALS)
 
 
 def _envelope_names():
-    from .pulses import ENVELOPES
+    from .physics.pulses import ENVELOPES
 
     return tuple(ENVELOPES)
 
 
 def _absorber_names():
-    from .absorb import ABSORBERS
+    from .physics.absorbers import ABSORBERS
 
     return tuple(ABSORBERS)
 
@@ -496,7 +496,7 @@ _SECTIONS = {
 def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
     """Refuse a key of the [atom] table that another model reads and ``model`` does not
     (e.g. ``trap_frequency`` with the soft-core model): it would be silently ignored."""
-    from .potentials import model_keys
+    from .physics.potentials import model_keys
 
     keys = model_keys()
     own = set(keys.get(model, ()))

@@ -1,7 +1,7 @@
 """Numerical health of a run: signs that the grid or the absorber does not fit the physics.
 
 Non-finite values and a growing norm stop the run at once (the propagator raises
-:class:`~tdse1d.propagate.NumericalError`); a grid smaller than the quiver excursion or
+:class:`~tdse1d.physics.propagation.NumericalError`); a grid smaller than the quiver excursion or
 coarser than the highest momentum of the pulse is flagged before the run by
 :func:`tdse1d.problem.build_problem` (``Problem.warnings``). During the run,
 :class:`HealthMonitor` looks at the length-gauge wavefunction at the population cadence
@@ -145,7 +145,7 @@ class HealthMonitor:
     ----------
     problem : Problem
     strict : bool
-        Raise :class:`~tdse1d.propagate.NumericalError` at the first warning.
+        Raise :class:`~tdse1d.physics.propagation.NumericalError` at the first warning.
 
     Attributes
     ----------

@@ -22,11 +22,11 @@ import numpy as np
 
 from . import units
 from .config import MAX_NORMALISED_VECTOR_POTENTIAL, InputError, RunConfig
-from .estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
-from .grid import MAX_POINTS, Grid, fast_fft_size
-from .potentials import POTENTIALS, Potential
-from .pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
-from .states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
+from .semiclassical.estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
+from .physics.grid import MAX_POINTS, Grid, fast_fft_size
+from .physics.potentials import POTENTIALS, Potential
+from .physics.pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
+from .physics.states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
 
 __all__ = ["Problem", "build_problem", "build_field", "model_estimates", "check_absorber"]
 
@@ -189,7 +189,7 @@ def _potential(config: RunConfig) -> Potential:
 
 def model_estimates(potential: Potential, field: Field, ionization_potential: float):
     """Semiclassical estimates for each pulse of ``field`` and the grid they call for."""
-    from .classical import barrier_suppression_field
+    from .semiclassical.classical import barrier_suppression_field
 
     try:
         bsi = barrier_suppression_field(potential, -ionization_potential)
@@ -378,7 +378,7 @@ def check_absorber(problem: Problem) -> None:
     InputError
         Naming ``absorber.width``.
     """
-    from .absorb import ABSORBERS
+    from .physics.absorbers import ABSORBERS
 
     config, grid, states = problem.config, problem.grid, problem.states
     cfg = config.absorber

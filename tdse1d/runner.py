@@ -1,10 +1,10 @@
 """One full quantum run: propagate a :class:`~tdse1d.problem.Problem` and analyse it.
 
-:func:`simulate` drives the :class:`~tdse1d.propagate.Propagator` through the run in
+:func:`simulate` drives the :class:`~tdse1d.physics.propagation.Propagator` through the run in
 chunks, between which it records bound-state populations, hands snapshots to a sink
 (the HDF5 writer streams them to disk, so memory does not grow with their number),
 has the propagator count the electrons crossing the surfaces at the inner edges of the
-absorbing layers (surface flux method, :mod:`tdse1d.surface_flux`) and reports progress.
+absorbing layers (surface flux method, :mod:`tdse1d.physics.surface_flux`) and reports progress.
 No file is read or written here; the sink does that.
 
 Stopping and continuing: between chunks the runner asks a :class:`RunControl` whether
@@ -28,12 +28,12 @@ import numpy as np
 
 from . import health as _health
 from . import spectra
-from . import surface_flux as _flux
-from .absorb import ABSORBERS
-from .propagate import Observables, Propagator, scheme_for_order
+from .physics import surface_flux as _flux
+from .physics.absorbers import ABSORBERS
+from .physics.propagation import Observables, Propagator, scheme_for_order
 from .problem import Problem
-from .ionization import ionization as _ionization
-from .states import initial_wavefunction
+from .physics.ionization import ionization as _ionization
+from .physics.states import initial_wavefunction
 
 __all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps"]
 
@@ -55,8 +55,8 @@ class RunResult:
     final_state : ndarray of complex
         Length-gauge wavefunction at the end.
     ionization_probability : float
-        1 - population of all bound states (:mod:`tdse1d.ionization`).
-    ionization : tdse1d.ionization.IonizationEstimate
+        1 - population of all bound states (:mod:`tdse1d.physics.ionization`).
+    ionization : tdse1d.physics.ionization.IonizationEstimate
         Its pieces and uncertainty band.
     absorbed : float
         Norm removed by the absorber, 1 - final norm.
@@ -100,7 +100,7 @@ class RunState:
     bound_population : ndarray, shape (m, n_states)
         Populations projected so far (zero rows for later events).
     surface_flux : dict or None
-        :meth:`tdse1d.surface_flux.SurfaceFlux.state`, if the surface flux method is on.
+        :meth:`tdse1d.physics.surface_flux.SurfaceFlux.state`, if the surface flux method is on.
     """
 
     step_index: int
@@ -186,7 +186,7 @@ def _populations(states, psi_length, dx):
 
 
 def ionization_estimate(problem: Problem, population_time, bound_population):
-    """:func:`tdse1d.ionization.ionization` for a run of ``problem`` (see there)."""
+    """:func:`tdse1d.physics.ionization.ionization` for a run of ``problem`` (see there)."""
     states = problem.states
     if problem.field.pulses:
         field_start, field_end = problem.field.start, problem.field.end
@@ -226,7 +226,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
 
     Raises
     ------
-    tdse1d.propagate.NumericalError
+    tdse1d.physics.propagation.NumericalError
         If the wavefunction blows up or the norm grows (or, with ``strict``, on a
         health warning).
     RunInterrupted
@@ -362,8 +362,8 @@ def _surface_flux(problem: Problem, prop: Propagator, mask):
     """The surface-flux accumulator of a run, or (None, reason) if it cannot be set up.
 
     Surfaces at the last grid points inside the absorbing layers; momenta from
-    :func:`tdse1d.surface_flux.momentum_grid` over the range of
-    :func:`tdse1d.surface_flux.spectrum_top_energy`, capped at the grid's pi / dx, with
+    :func:`tdse1d.physics.surface_flux.momentum_grid` over the range of
+    :func:`tdse1d.physics.surface_flux.spectrum_top_energy`, capped at the grid's pi / dx, with
     4 samples per photon energy of the softest pulse, and per bandwidth of any pulse
     that ionizes with one photon, at the top energy.
     """

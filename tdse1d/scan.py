@@ -580,7 +580,7 @@ def estimate_cost(config: RunConfig) -> float:
     (:func:`tdse1d.problem.model_estimates`) with the input's ionization potential, or
     0.5 Hartree when the softening is given instead: good enough to order points.
     """
-    from .grid import fast_fft_size
+    from .physics.grid import fast_fft_size
     from .problem import AFTER_PULSE_CYCLES, FIELD_FREE_DURATION, _potential, build_field, model_estimates
 
     try:
@@ -919,7 +919,7 @@ def _worker_setup(stop_http: bool):
 
         def setup(self, worker):
             # plugins are set up in the worker's event loop, the process's main thread
-            from tdse1d.scan import install_stop_handlers
+            from .scan import install_stop_handlers
 
             install_stop_handlers(redeliver=True)
             if self.stop_http and getattr(worker, "http_server", None) is not None:
@@ -938,7 +938,7 @@ def _tunnelling_yield(outcome) -> float:
     read from the file when the run's own analysis stored it."""
     import h5py
 
-    from .classical import tunnelling_yield
+    from .semiclassical.classical import tunnelling_yield
 
     with h5py.File(outcome.path, "r") as f:
         key = "classical/tunnelling/probability"

@@ -20,7 +20,7 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.colors import LogNorm
 
-from .estimates import CUTOFF_UP, LEWENSTEIN_IP
+from .semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from .plots import DENSITY_CMAP, LOG_RANGE_SPECTROGRAM, _figure
 
 __all__ = ["FIGURES", "map_figure", "cutoff_fit_figure"]

@@ -15,7 +15,7 @@ Time-frequency analysis
 Photoelectron spectra
     :func:`project_out_bound` removes bound-state components; :func:`plane_wave_spectrum`
     projects a continuum wavefunction on plane waves; the surface flux method
-    (:mod:`tdse1d.surface_flux`) counts the electrons crossing surfaces at the absorbers.
+    (:mod:`tdse1d.physics.surface_flux`) counts the electrons crossing surfaces at the absorbers.
     Both give a :class:`PhotoelectronSpectrum` with left- and right-going electrons
     apart, under one of the rules registered in :data:`SPLITS`.
 

@@ -41,7 +41,7 @@ import numpy as np
 
 from . import __version__
 from .errors import OutputBusy, OutputError
-from .estimates import as_attributes
+from .semiclassical.estimates import as_attributes
 
 try:  # advisory locks; absent on Windows, where the lock file alone decides
     import fcntl

@@ -24,7 +24,7 @@ import h5py
 import numpy as np
 
 from . import __version__, units
-from .estimates import CUTOFF_UP, LEWENSTEIN_IP
+from .semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from .store import new_hdf5, write_dataset
 
 __all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
@@ -264,7 +264,7 @@ def write_summary(plan, directory) -> Summary:
             description="1 - final bound population")
         write_dataset(ion, "tunnelling_estimate", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
             d.attrs["tunnelling"]) else r.get("tunnelling_yield", math.nan)), "1",
-            description="quasi-static tunnelling yield over the run's field (tdse1d.classical.tunnelling_yield)")
+            description="quasi-static tunnelling yield over the run's field (tdse1d.semiclassical.classical.tunnelling_yield)")
         pe = f.create_group("photoelectron")
         write_dataset(pe, "cutoff", column(lambda d, r: d.attrs["photoelectron"] * ev), "eV",
             description="rough end of the last plateau (tdse1d.summary.photoelectron_cutoff)")

@@ -4,7 +4,7 @@ Measuring the fastest FFT plan for a size takes a moment; the wisdom FFTW gather
 saved under ``$XDG_CACHE_HOME/tdse1d`` (default ``~/.cache/tdse1d``) and loaded by the
 next run. Set ``TDSE1D_NO_WISDOM=1`` to neither read nor write it.
 
-The file (``fftw_wisdom.json``) holds data only (:func:`tdse1d.fft.export_wisdom`); a
+The file (``fftw_wisdom.json``) holds data only (:func:`tdse1d.physics.fft.export_wisdom`); a
 file that is not valid wisdom is ignored with a warning and replaced on exit. Files of
 older versions (``fftw_wisdom.pickle``) are never read: unpickling runs code.
 """
@@ -16,7 +16,7 @@ import os
 import warnings
 from pathlib import Path
 
-from .fft import WisdomError, export_wisdom, import_wisdom
+from .physics.fft import WisdomError, export_wisdom, import_wisdom
 
 __all__ = ["wisdom_path", "fftw_wisdom", "WisdomWarning"]
 

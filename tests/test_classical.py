@@ -5,7 +5,7 @@ import pytest
 from scipy.integrate import quad, solve_ivp, trapezoid
 from scipy.optimize import brentq
 
-from tdse1d import classical
+from tdse1d.semiclassical import classical
 
 # ---------------------------------------------------------------------------
 # Fields and potentials built analytically here, independent of the package.

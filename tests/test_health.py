@@ -9,7 +9,7 @@ import pytest
 from tdse1d import cli
 from tdse1d.config import load_input
 from tdse1d.problem import build_problem
-from tdse1d.propagate import NumericalError
+from tdse1d.physics.propagation import NumericalError
 from tdse1d.runner import simulate
 
 BASE = """

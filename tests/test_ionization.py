@@ -6,12 +6,12 @@ import pytest
 from scipy.special import zeta
 
 from tdse1d.config import parse_input
-from tdse1d.grid import Grid
-from tdse1d.ionization import _parity, ionization
-from tdse1d.potentials import Centre, SoftCore
+from tdse1d.physics.grid import Grid
+from tdse1d.physics.ionization import _parity, ionization
+from tdse1d.physics.potentials import Centre, SoftCore
 from tdse1d.problem import build_problem
 from tdse1d.runner import simulate
-from tdse1d.states import bound_states
+from tdse1d.physics.states import bound_states
 
 SQRT2 = 2**0.5
 

@@ -43,11 +43,11 @@ from scipy.sparse.linalg import expm_multiply
 
 from tdse1d import api, cli, spectra, store
 from tdse1d.config import load_input, parse_input, tomllib
-from tdse1d.grid import Grid
-from tdse1d.potentials import Centre, HarmonicOscillator, Potential, SoftCore
-from tdse1d.propagate import SCHEMES, Propagator
-from tdse1d.pulses import AnalyticPulse, Field, Pulse, Sin2
-from tdse1d.states import bound_states, hamiltonian_matrix
+from tdse1d.physics.grid import Grid
+from tdse1d.physics.potentials import Centre, HarmonicOscillator, Potential, SoftCore
+from tdse1d.physics.propagation import SCHEMES, Propagator
+from tdse1d.physics.pulses import AnalyticPulse, Field, Pulse, Sin2
+from tdse1d.physics.states import bound_states, hamiltonian_matrix
 from tdse1d.units import HARTREE_EV
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"

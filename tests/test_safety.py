@@ -83,7 +83,7 @@ class _Planted:
 
 def test_planted_pickle_wisdom_is_never_executed(tmp_path, monkeypatch):
     from tdse1d import wisdom
-    from tdse1d.fft import InPlaceFFT
+    from tdse1d.physics.fft import InPlaceFFT
 
     monkeypatch.delenv("TDSE1D_NO_WISDOM", raising=False)
     monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
@@ -120,7 +120,7 @@ def test_planted_pickle_wisdom_is_never_executed(tmp_path, monkeypatch):
     b'{"format": "something else", "version": 1, "wisdom": ["AA=="]}',
 ])
 def test_malformed_wisdom_is_refused(blob):
-    from tdse1d.fft import WisdomError, export_wisdom, import_wisdom
+    from tdse1d.physics.fft import WisdomError, export_wisdom, import_wisdom
 
     with pytest.raises(WisdomError):
         import_wisdom(blob)

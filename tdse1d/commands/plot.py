@@ -19,7 +19,7 @@ import numpy as np
 
 from .. import plots, scan_plots
 from ..config import InputError
-from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
+from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 HELP = "draw the figures of a result file (field, density, spectra, time-frequency map, populations)"
 

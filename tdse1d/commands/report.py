@@ -16,7 +16,7 @@ import numpy as np
 
 from .. import units
 from ..analysis import RunAnalysis, analyse_file
-from ..estimates import CUTOFF_UP, LEWENSTEIN_IP
+from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from ..spectra import NOISE_MARGIN
 
 HELP = "side-by-side table: semiclassical prediction | quantum result | ratio, for a result file"

@@ -28,7 +28,7 @@ trapezoidal rule on the propagator's step times. The Volkov phase is advanced by
 same midpoint quadrature of A and A^2 that the velocity-gauge propagator uses, so a
 free wave propagated by the solver and the Volkov wave keep their phases in step. The
 momentum grid is independent of the box (:func:`momentum_grid`); the per-step work is
-O(P) for P momenta (:func:`tdse1d.kernels.flux_accumulate`), without FFTs or
+O(P) for P momenta (:func:`tdse1d.physics.kernels.flux_accumulate`), without FFTs or
 allocation.
 """
 
@@ -39,7 +39,7 @@ import math
 import numpy as np
 
 from . import kernels
-from .spectra import SPLITS, PhotoelectronSpectrum
+from ..spectra import SPLITS, PhotoelectronSpectrum
 
 __all__ = [
     "STENCIL_RADIUS",
@@ -229,7 +229,7 @@ class SurfaceFlux:
     Usage: :meth:`add` with the state at the first step (weight h/2, no advance),
     then after every step (weight h, advance), and once more with the last state
     (weight -h/2, no advance) to complete the trapezoidal rule; then :meth:`result`.
-    :class:`tdse1d.propagate.Propagator` makes these calls when given an instance.
+    :class:`tdse1d.physics.propagation.Propagator` makes these calls when given an instance.
 
     Parameters
     ----------

@@ -25,8 +25,8 @@ from __future__ import annotations
 import math
 from dataclasses import asdict, dataclass
 
-from . import units
-from .grid import fast_fft_size
+from .. import units
+from ..physics.grid import fast_fft_size
 
 __all__ = ["PulseEstimate", "GridAdvice", "pulse_estimate", "recommend_grid", "estimates_json", "CUTOFF_UP"]
 

@@ -35,7 +35,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.interpolate import CubicSpline
 
-from .registry import registrar
+from ..registry import registrar
 
 __all__ = [
     "Envelope",

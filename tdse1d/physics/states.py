@@ -8,7 +8,7 @@ the accuracy of the time step.
 Two ways of asking:
 
 * **All bound states** (``count=None``, what a run uses): every eigenpair with E < 0 on
-  the whole grid, none dropped, so the ionization probability (:mod:`tdse1d.ionization`)
+  the whole grid, none dropped, so the ionization probability (:mod:`tdse1d.physics.ionization`)
   can count every bound state the box holds. Up to :data:`DENSE_POINTS` points this is a
   dense solve of the whole grid restricted to E < 0 (LAPACK MRRR via
   :func:`scipy.linalg.eigh`, only the eigenpairs used). On larger grids the E < 0

@@ -25,7 +25,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from .registry import registrar
+from ..registry import registrar
 
 __all__ = [
     "Potential",
