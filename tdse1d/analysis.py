@@ -48,17 +48,9 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from .semiclassical import classical
-from .spectra import (
-    NOISE_MARGIN,
-    CutoffEstimate,
-    default_gabor_width,
-    gabor_transform,
-    harmonic_spectrum,
-    noise_floor,
-    read_cutoff,
-    running_mean,
-    unresolved_reason,
-)
+from .spectra.cutoff import NOISE_MARGIN, CutoffEstimate, noise_floor, read_cutoff, running_mean, unresolved_reason
+from .spectra.time_frequency import default_gabor_width, gabor_transform
+from .spectra.harmonic import harmonic_spectrum
 from .store import write_dataset
 
 __all__ = [
@@ -731,7 +723,7 @@ def field_free_floor(problem, *, duration=None):
     from .physics.absorbers import ABSORBERS
     from .physics.propagation import Propagator, scheme_for_order
     from .physics.pulses import Field
-    from .spectra import plane_wave_spectrum, project_out_bound
+    from .spectra.photoelectron import plane_wave_spectrum, project_out_bound
     from .physics.states import initial_wavefunction
 
     cfg, grid = problem.config, problem.grid

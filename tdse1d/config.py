@@ -268,7 +268,7 @@ def _absorber_names():
 
 
 def _window_names():
-    from .spectra import WINDOWS
+    from .spectra.windows import WINDOWS
 
     return tuple(WINDOWS)
 

@@ -4,7 +4,7 @@
 chunks, between which it records bound-state populations, hands snapshots to a sink
 (the HDF5 writer streams them to disk, so memory does not grow with their number),
 has the propagator count the electrons crossing the surfaces at the inner edges of the
-absorbing layers (surface flux method, :mod:`tdse1d.physics.surface_flux`) and reports progress.
+absorbing layers (surface flux method, :mod:`tdse1d.spectra.surface_flux`) and reports progress.
 No file is read or written here; the sink does that.
 
 Stopping and continuing: between chunks the runner asks a :class:`RunControl` whether
@@ -28,7 +28,7 @@ import numpy as np
 
 from . import health as _health
 from . import spectra
-from .physics import surface_flux as _flux
+from .spectra import surface_flux as _flux
 from .physics.absorbers import ABSORBERS
 from .physics.propagation import Observables, Propagator, scheme_for_order
 from .problem import Problem
@@ -100,7 +100,7 @@ class RunState:
     bound_population : ndarray, shape (m, n_states)
         Populations projected so far (zero rows for later events).
     surface_flux : dict or None
-        :meth:`tdse1d.physics.surface_flux.SurfaceFlux.state`, if the surface flux method is on.
+        :meth:`tdse1d.spectra.surface_flux.SurfaceFlux.state`, if the surface flux method is on.
     """
 
     step_index: int
@@ -362,8 +362,8 @@ def _surface_flux(problem: Problem, prop: Propagator, mask):
     """The surface-flux accumulator of a run, or (None, reason) if it cannot be set up.
 
     Surfaces at the last grid points inside the absorbing layers; momenta from
-    :func:`tdse1d.physics.surface_flux.momentum_grid` over the range of
-    :func:`tdse1d.physics.surface_flux.spectrum_top_energy`, capped at the grid's pi / dx, with
+    :func:`tdse1d.spectra.surface_flux.momentum_grid` over the range of
+    :func:`tdse1d.spectra.surface_flux.spectrum_top_energy`, capped at the grid's pi / dx, with
     4 samples per photon energy of the softest pulse, and per bandwidth of any pulse
     that ionizes with one photon, at the top energy.
     """

@@ -53,7 +53,7 @@ class _PointData:
 
 
 def _read_point(path) -> _PointData:
-    from .spectra import harmonic_spectrum
+    from .spectra.harmonic import harmonic_spectrum
 
     with h5py.File(path, "r") as f:
         h = f["spectra/harmonic"]
@@ -97,7 +97,7 @@ def photoelectron_cutoff(f: h5py.File, omega0: float) -> float:
     both directions, from the surface flux (or, in older files, mask) method if there, else from the plane-wave projection,
     with the plateau region starting at half a photon energy and a drop of 2 decades.
     """
-    from .spectra import read_cutoff
+    from .spectra.cutoff import read_cutoff
 
     for method in ("surface_flux", "mask", "plane_wave"):
         key = f"spectra/photoelectron/{method}"

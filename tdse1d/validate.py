@@ -263,7 +263,7 @@ def _plt():
 
 
 def _smoothed_log(spec, half_width):
-    from .spectra import running_mean
+    from .spectra.cutoff import running_mean
 
     return running_mean(spec.frequency, np.log10(np.maximum(spec.power, 1e-300)), half_width)
 
@@ -738,7 +738,7 @@ class DipoleForms(CaseKind):
     """Dipole, velocity and acceleration forms of one run's harmonic spectrum in the plateau."""
 
     def run(self):
-        from .spectra import dipole_forms
+        from .spectra.harmonic import dipole_forms
 
         out = self.runner.run(self.case.input())
         obs = out.result.observables

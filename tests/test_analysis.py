@@ -224,7 +224,7 @@ def test_the_vanishing_intensity_spectrum_is_the_field_companion(infrared_vanish
         floor = f["spectra/harmonic/noise_floor_log10"][()]
         assert f["spectra/harmonic/noise_floor_log10"].attrs["units"] == "log10(atomic_units)"
         assert f["spectra/photoelectron/edges/noise_floor_log10"].attrs["units"] == "log10(1/hartree)"
-    from tdse1d.spectra import running_mean
+    from tdse1d.spectra.cutoff import running_mean
 
     smoothed = running_mean(w, np.log10(p), weak.omega0)
     far = w >= 2.0  # hartree: four times Ip

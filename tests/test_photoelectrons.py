@@ -29,8 +29,8 @@ from tdse1d.physics.absorbers import ComplexPotential, CosineMask
 from tdse1d.config import InputError, load_input, parse_input
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.propagation import Propagator
-from tdse1d.spectra import harmonic_spectrum
-from tdse1d.physics.surface_flux import (
+from tdse1d.spectra.harmonic import harmonic_spectrum
+from tdse1d.spectra.surface_flux import (
     DERIVATIVE_ERROR,
     SAMPLES_PER_PHOTON,
     SurfaceFlux,

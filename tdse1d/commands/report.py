@@ -17,7 +17,7 @@ import numpy as np
 from .. import units
 from ..analysis import RunAnalysis, analyse_file
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
-from ..spectra import NOISE_MARGIN
+from ..spectra.cutoff import NOISE_MARGIN
 
 HELP = "side-by-side table: semiclassical prediction | quantum result | ratio, for a result file"
 

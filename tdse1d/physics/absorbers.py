@@ -9,7 +9,7 @@ kick frequency). Applying it after the last sub-step rather than inside matters 
 composition scheme with negative sub-steps (4th order), which would otherwise
 *amplify* the wave in those sub-steps, which a non-Hermitian term must never do.
 The photoelectron spectrum is read at surfaces at the inner edges of the layers
-(:mod:`tdse1d.physics.surface_flux`), before any absorption.
+(:mod:`tdse1d.spectra.surface_flux`), before any absorption.
 
 Absorbers are small classes registered in :data:`ABSORBERS` under the name used by
 ``absorber.type``. Contract for an implementer of :class:`Absorber`:

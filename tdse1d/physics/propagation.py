@@ -18,7 +18,7 @@ Gauges (electron charge -1, E = -dA/dt):
 * velocity gauge: T(t) = (p + A(t))^2 / 2, the A^2/2 term included (a phase common to
   all of space, folded into the linear-phase table at no cost), so that
   psi_L = exp(i A x) psi_V holds exactly, global phase included, and a wave propagated
-  here keeps the phase of the Volkov waves of :mod:`tdse1d.physics.surface_flux`; the kinetic
+  here keeps the phase of the Volkov waves of :mod:`tdse1d.spectra.surface_flux`; the kinetic
   momentum is p + A(t).
 
 Absorption (:mod:`tdse1d.physics.absorbers`) is applied at every step, after its last sub-step.
@@ -26,7 +26,7 @@ Observables are recorded at every step t_n: norm, dipole <x>, kinetic momentum <
 the Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t) (a more accurate source of
 harmonic spectra than differentiating the dipole; Burnett et al., Phys. Rev. A 45, 3347
 (1992), from memory), and the population of the initial state; the bound-state
-populations at a coarser cadence. Given a :class:`tdse1d.physics.surface_flux.SurfaceFlux`,
+populations at a coarser cadence. Given a :class:`tdse1d.spectra.surface_flux.SurfaceFlux`,
 the propagator adds the flux through its surfaces at every step.
 
 The time loop allocates no arrays: every work array is made in the constructor, and the
@@ -167,7 +167,7 @@ class Propagator:
         State whose population is recorded every step (the initial state).
     fft_effort : str
         FFTW planner flag.
-    surface_flux : tdse1d.physics.surface_flux.SurfaceFlux, optional
+    surface_flux : tdse1d.spectra.surface_flux.SurfaceFlux, optional
         Accumulates the flux through its surfaces: the propagator adds the state of
         every step to it (the first with :meth:`start`, the last half-weight
         correction with :meth:`finish`).

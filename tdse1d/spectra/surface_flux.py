@@ -38,8 +38,8 @@ import math
 
 import numpy as np
 
-from . import kernels
-from ..spectra import SPLITS, PhotoelectronSpectrum
+from ..physics import kernels
+from .photoelectron import SPLITS, PhotoelectronSpectrum
 
 __all__ = [
     "STENCIL_RADIUS",
