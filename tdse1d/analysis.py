@@ -11,7 +11,7 @@ prints; everything is in atomic units.
 Entry points
 ------------
 :func:`analyse_run`
-    From a :class:`~tdse1d.problem.Problem` and a :class:`~tdse1d.runner.RunResult`
+    From a :class:`~tdse1d.input.problem.Problem` and a :class:`~tdse1d.run.runner.RunResult`
     (used at the end of a run); gives a :class:`RunAnalysis`.
 :func:`analyse_file`
     From an open result file (h5py.File). The tunnelling estimate needs the
@@ -51,7 +51,7 @@ from .semiclassical import classical
 from .spectra.cutoff import NOISE_MARGIN, CutoffEstimate, noise_floor, read_cutoff, running_mean, unresolved_reason
 from .spectra.time_frequency import default_gabor_width, gabor_transform
 from .spectra.harmonic import harmonic_spectrum
-from .store import write_dataset
+from .io.store import write_dataset
 
 __all__ = [
     "TimeFrequencyMap",
@@ -712,7 +712,7 @@ def field_free_floor(problem, *, duration=None):
 
     Parameters
     ----------
-    problem : tdse1d.problem.Problem
+    problem : tdse1d.input.problem.Problem
     duration : float, optional
         Propagation time (a.u.); default one period of the first pulse, at most the run.
 
@@ -1047,8 +1047,8 @@ def analyse_run(problem, result) -> RunAnalysis:
 
     Parameters
     ----------
-    problem : tdse1d.problem.Problem
-    result : tdse1d.runner.RunResult
+    problem : tdse1d.input.problem.Problem
+    result : tdse1d.run.runner.RunResult
 
     Returns
     -------
@@ -1087,8 +1087,8 @@ def _file_pulses(h5file):
     """Per-pulse rows rebuilt from the stored input (cheap: no bound states)."""
     from pathlib import Path
 
-    from .config import InputError, parse_input, tomllib
-    from .problem import build_field
+    from .input.schema import InputError, parse_input, tomllib
+    from .input.problem import build_field
 
     source = str(h5file.attrs.get("input_source", "<string>"))
     try:

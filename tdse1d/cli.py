@@ -200,7 +200,7 @@ def main(argv=None) -> int:
 
 
 def _main(argv, debug) -> int:
-    from .config import InputError
+    from .input.schema import InputError
     from .errors import NumericalError, OutputError
 
     try:
@@ -252,7 +252,7 @@ def _main(argv, debug) -> int:
     except OSError as exc:  # a file that cannot be written or read (read-only, full disk...)
         if debug:
             raise
-        from .store import describe_os_error
+        from .io.store import describe_os_error
 
         print(f"tdse1d: error: {describe_os_error(exc, action=None)}", file=sys.stderr)
         return EXIT_FAILURE

@@ -36,7 +36,7 @@ from pathlib import Path
 import numpy as np
 
 from . import units
-from .config import InputError, load_input, tomllib
+from .input.schema import InputError, load_input, tomllib
 from .registry import registrar
 
 __all__ = [
@@ -228,10 +228,10 @@ class Runner:
         self.runs = 0
 
     def run(self, config):
-        """:class:`~tdse1d.api.RunOutcome` of a :class:`~tdse1d.config.RunConfig`."""
+        """:class:`~tdse1d.api.RunOutcome` of a :class:`~tdse1d.input.schema.RunConfig`."""
         from .api import run_problem
-        from .checkpoint import input_hash
-        from .problem import build_problem
+        from .run.checkpoint import input_hash
+        from .input.problem import build_problem
 
         digest = input_hash(config)
         if digest not in self._cache:

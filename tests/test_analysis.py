@@ -28,7 +28,7 @@ import scipy.constants as sc
 
 from tdse1d import analysis, api
 from tdse1d.commands import export, plot, report
-from tdse1d.config import load_input
+from tdse1d.input.schema import load_input
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
 
@@ -394,7 +394,7 @@ def test_plot_writes_pdf_and_svg_and_rejects_other_formats(example_runs, tmp_pat
         out = tmp_path / f"fig{suffix}"
         assert plot.main(_args(plot, [str(path), "--what", "photoelectron", "-o", str(out)])) == 0
         assert out.stat().st_size > 5_000
-    from tdse1d.config import InputError
+    from tdse1d.input.schema import InputError
 
     with pytest.raises(InputError, match="format"):
         plot.main(_args(plot, [str(path), "--what", "field", "-o", str(tmp_path / "fig.jpg")]))

@@ -30,7 +30,7 @@ def _expected(path):
 
 
 def test_corpus_is_large_and_covers_every_key():
-    from tdse1d.config import _SECTIONS, AtomConfig, CentreConfig, LaserConfig
+    from tdse1d.input.schema import _SECTIONS, AtomConfig, CentreConfig, LaserConfig
     import dataclasses
 
     assert len(CASES) >= 40 and len(SCANS) >= 10

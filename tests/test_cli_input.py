@@ -19,7 +19,7 @@ import pytest
 import scipy.constants as sc
 
 from tdse1d import cli
-from tdse1d.config import parse_override, tomllib
+from tdse1d.input.schema import parse_override, tomllib
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
 HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]
@@ -339,7 +339,7 @@ def test_every_input_key_is_documented():
     import dataclasses
     import re
 
-    from tdse1d import config
+    from tdse1d.input import schema as config
 
     text = (INPUTS.parent / "docs" / "input.md").read_text()
     tables = {

@@ -5,12 +5,12 @@ import numpy as np
 import pytest
 from scipy.special import zeta
 
-from tdse1d.config import parse_input
+from tdse1d.input.schema import parse_input
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.ionization import _parity, ionization
 from tdse1d.physics.potentials import Centre, SoftCore
-from tdse1d.problem import build_problem
-from tdse1d.runner import simulate
+from tdse1d.input.problem import build_problem
+from tdse1d.run.runner import simulate
 from tdse1d.physics.states import bound_states
 
 SQRT2 = 2**0.5

@@ -5,7 +5,7 @@ import math
 
 import pytest
 
-from tdse1d.config import InputError, parse_input
+from tdse1d.input.schema import InputError, parse_input
 from tdse1d.physics.potentials import POTENTIALS, Centre, HarmonicOscillator, PoschlTeller, SoftCore, model_keys
 
 

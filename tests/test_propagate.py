@@ -41,8 +41,9 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import curve_fit
 from scipy.sparse.linalg import expm_multiply
 
-from tdse1d import api, cli, spectra, store
-from tdse1d.config import load_input, parse_input, tomllib
+from tdse1d import api, cli, spectra
+from tdse1d.io import store
+from tdse1d.input.schema import load_input, parse_input, tomllib
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.potentials import Centre, HarmonicOscillator, Potential, SoftCore
 from tdse1d.physics.propagation import SCHEMES, Propagator

@@ -20,9 +20,10 @@ from pathlib import Path
 import h5py
 import pytest
 
-from tdse1d import cli, scan
-from tdse1d.checkpoint import checkpoint_path, read_checkpoint
-from tdse1d.store import is_complete, lock_path
+from tdse1d import cli
+from tdse1d.scan import execute as scan
+from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
+from tdse1d.io.store import is_complete, lock_path
 
 BASE = """
 [atom]
@@ -82,7 +83,7 @@ class _Planted:
 
 
 def test_planted_pickle_wisdom_is_never_executed(tmp_path, monkeypatch):
-    from tdse1d import wisdom
+    from tdse1d.io import wisdom
     from tdse1d.physics.fft import InPlaceFFT
 
     monkeypatch.delenv("TDSE1D_NO_WISDOM", raising=False)
@@ -273,7 +274,7 @@ def _holder_process(code: str):
 def test_second_scan_of_a_directory_is_refused_naming_the_first(tmp_path, capsys):
     plan_path = _plan(tmp_path)
     out = tmp_path / "out"
-    holder = _holder_process(f"import sys\nfrom tdse1d.scan import ScanDirectory\nlock = ScanDirectory({str(out)!r}).lock()")
+    holder = _holder_process(f"import sys\nfrom tdse1d.scan.execute import ScanDirectory\nlock = ScanDirectory({str(out)!r}).lock()")
     try:
         assert cli.main(["scan", str(plan_path), "-o", str(out), "--quiet", "--workers", "1"]) == 1
         err = capsys.readouterr().err
@@ -292,7 +293,7 @@ def test_job_array_task_of_a_point_being_written_is_refused(tmp_path, capsys):
     point = scan.load_plan(plan_path).points[0]
     result = out / "points" / f"{point.hash}.h5"
     result.parent.mkdir(parents=True)
-    holder = _holder_process(f"import sys\nfrom tdse1d.store import WriterLock\n"
+    holder = _holder_process(f"import sys\nfrom tdse1d.io.store import WriterLock\n"
                              f"lock = WriterLock({str(lock_path(result))!r}).acquire()")
     try:
         assert cli.main(["scan", str(plan_path), "-o", str(out), "--point", "0", "--quiet"]) == 1
@@ -326,8 +327,8 @@ def test_a_point_file_missing_data_is_not_skipped(tmp_path):
 def test_full_disk_while_writing_the_summary_keeps_the_earlier_one(tmp_path, monkeypatch):
     import errno
 
-    from tdse1d import store
-    from tdse1d.summary import write_summary
+    from tdse1d.io import store
+    from tdse1d.scan.summary import write_summary
 
     plan = scan.load_plan(_plan(tmp_path))
     out = tmp_path / "out"

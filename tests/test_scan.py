@@ -21,8 +21,9 @@ from scipy import constants
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from tdse1d import cli, focal, scan
-from tdse1d.compare import MeasuredSpectrum, compare_spectra, read_spectrum_csv
+from tdse1d import cli
+from tdse1d.scan import execute as scan, focal
+from tdse1d.scan.compare import MeasuredSpectrum, compare_spectra, read_spectrum_csv
 
 BASE = """
 [atom]
@@ -67,7 +68,7 @@ def local_scan(tmp_path_factory):
     plan = scan.load_plan(plan_path)
     report = scan.run_scan(plan, root / "out", workers=2, progress=False)
     assert report.ok, report.failed
-    from tdse1d.summary import write_summary
+    from tdse1d.scan.summary import write_summary
 
     write_summary(plan, root / "out")
     return plan, root / "out", report

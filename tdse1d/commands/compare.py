@@ -4,7 +4,7 @@ import json
 import math
 
 from ..cli import nonnegative_float, nonnegative_int
-from ..config import InputError
+from ..input.schema import InputError
 
 HELP = "broaden and weight a computed harmonic spectrum like a measured one, and compare their cutoffs"
 
@@ -34,9 +34,9 @@ def add_arguments(parser):
 
 
 def main(args):
-    from .. import compare
+    from ..scan import compare
 
-    from ._files import check_result
+    from ..io.checked_open import check_result
 
     check_result(args.computed, kinds=("run", "scan-summary"), needs=NEEDS)
     try:

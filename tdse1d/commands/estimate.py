@@ -4,7 +4,7 @@ import json
 
 from .. import api, units
 from ..cli import add_input_arguments
-from ..config import load_input
+from ..input.schema import load_input
 
 HELP = "semiclassical estimates (Up, Keldysh parameter, cutoffs), the advised grid, and the memory and disk of the run"
 
@@ -34,8 +34,8 @@ def _rows(p):
 
 
 def _resource_rows(est):
-    """Rows of the memory and disk estimate (:mod:`tdse1d.resources`) of the run as given."""
-    from ..resources import MEMORY_SHARE, available_memory, format_bytes
+    """Rows of the memory and disk estimate (:mod:`tdse1d.run.resources`) of the run as given."""
+    from ..run.resources import MEMORY_SHARE, available_memory, format_bytes
 
     memory = available_memory()
     rows = [("time steps", f"{est.steps}", f"{est.points} grid points, {est.snapshots} snapshots")]
@@ -48,7 +48,7 @@ def _resource_rows(est):
 
 
 def main(args):
-    from ..resources import estimate_resources
+    from ..run.resources import estimate_resources
 
     config = load_input(args.input, args.overrides)
     result = api.estimate(config)

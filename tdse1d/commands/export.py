@@ -15,7 +15,7 @@ import sys
 import numpy as np
 
 from .. import units
-from ..config import InputError
+from ..input.schema import InputError
 
 HELP = "write a spectrum (harmonic, photoelectron, time-frequency) to CSV"
 
@@ -108,7 +108,7 @@ def add_arguments(parser):
 
 
 def main(args):
-    from ._files import open_result
+    from ..io.checked_open import open_result
 
     with open_result(args.result, kinds=("run",)) as f:
         names, data = columns(f, args.what, args.units)

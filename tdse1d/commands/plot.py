@@ -3,7 +3,7 @@
 The file's kind is read from the root attribute ``kind`` (a run file written before
 the attribute existed has none and is a run) and looked up in :data:`KINDS`, which
 maps it to the figures that kind offers. Each figure is a function of the open file
-returning a matplotlib Figure; the drawing itself is in :mod:`tdse1d.plots`. Adding a
+returning a matplotlib Figure; the drawing itself is in :mod:`tdse1d.plots.run_figures`. Adding a
 kind of file is adding one entry to :data:`KINDS`.
 
 With ``--what all`` (or without ``-o``) every figure goes to its own file,
@@ -17,8 +17,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .. import plots, scan_plots
-from ..config import InputError
+from ..plots import run_figures as plots, scan_figures as scan_plots
+from ..input.schema import InputError
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 HELP = "draw the figures of a result file (field, density, spectra, time-frequency map, populations)"
@@ -145,7 +145,7 @@ def main(args):
     import matplotlib
 
     matplotlib.use("Agg")
-    from ._files import open_result
+    from ..io.checked_open import open_result
 
     with open_result(args.result, kinds=KINDS) as f:
         kind = f.kind

@@ -256,7 +256,7 @@ def format_table(a: RunAnalysis, target_ip: float = math.nan, ionization_note: s
 
 def _target_ip(input_toml) -> float:
     """``atom.ionization_potential`` of the stored input (hartree), NaN if absent."""
-    from ..config import tomllib
+    from ..input.schema import tomllib
 
     try:
         value = tomllib.loads(input_toml).get("atom", {}).get("ionization_potential")
@@ -266,7 +266,7 @@ def _target_ip(input_toml) -> float:
 
 
 def main(args):
-    from ._files import open_result
+    from ..io.checked_open import open_result
 
     with open_result(args.result, kinds=("run",)) as f:
         analysis = analyse_file(f)

@@ -1,7 +1,7 @@
 """``tdse1d run INPUT``: the full quantum run, written to HDF5.
 
 Checkpoints: with ``output.checkpoint_interval`` the run writes ``RESULT.h5.checkpoint``
-beside its result at that wall-clock cadence (see :mod:`tdse1d.checkpoint`). SIGTERM
+beside its result at that wall-clock cadence (see :mod:`tdse1d.run.checkpoint`). SIGTERM
 and SIGINT write a checkpoint at once and exit with status 75 (:data:`EXIT_INTERRUPTED`,
 as EX_TEMPFAIL: try again); ``tdse1d run INPUT --resume`` continues from it.
 """
@@ -12,8 +12,8 @@ import time
 
 from .. import api, units
 from ..cli import add_input_arguments
-from ..config import load_input
-from ..wisdom import fftw_wisdom
+from ..input.schema import load_input
+from ..io.wisdom import fftw_wisdom
 
 HELP = "propagate the input's model atom through its pulses and write the HDF5 result"
 
@@ -61,9 +61,9 @@ def main(args):
     config = load_input(args.input, args.overrides)
     show = not args.quiet and sys.stderr.isatty()
     started = time.time()
-    from ..problem import build_problem
+    from ..input.problem import build_problem
 
-    from ..runner import RunInterrupted
+    from ..run.runner import RunInterrupted
 
     problem = build_problem(config)
     for w in problem.warnings:
@@ -77,7 +77,7 @@ def main(args):
                                       control=control, strict=args.strict)
     except RunInterrupted as exc:
         bar.close()
-        from ..checkpoint import checkpoint_path
+        from ..run.checkpoint import checkpoint_path
 
         print(f"tdse1d: {exc}: {checkpoint_path(api.output_path(config, args.output))}; "
               "continue with --resume", file=sys.stderr)

@@ -40,8 +40,8 @@ def _scan_dir(args):
 
 
 def main(args):
-    from .. import scan
-    from ..summary import write_summary
+    from ..scan import execute as scan
+    from ..scan.summary import write_summary
 
     plan = scan.load_plan(args.plan)  # PlanError (exit 2) lists every bad point
     directory = scan.ScanDirectory(_scan_dir(args))
@@ -54,7 +54,7 @@ def main(args):
     try:
         if args.point is not None:
             if args.fresh:
-                from ..config import InputError
+                from ..input.schema import InputError
 
                 raise InputError("--fresh with --point would delete the points of the other array tasks; "
                                  "clear the directory once before submitting the array", "--fresh", args.plan)
@@ -64,7 +64,7 @@ def main(args):
                 report = scan.run_one(plan, directory.root, args.point, fresh=args.fresh,
                                       retry_failed=True)
             except IndexError as exc:
-                from ..config import InputError
+                from ..input.schema import InputError
 
                 raise InputError(str(exc), "--point", args.plan) from None
             finally:

@@ -142,8 +142,8 @@ values = ["1.0e14 W/cm^2", "1.6e14 W/cm^2"]
 
 def run_scan_summary(workdir) -> Path:
     """Run the two points of :data:`SCAN_PLAN` one by one and write the summary."""
-    from tdse1d import scan
-    from tdse1d.summary import write_summary
+    from tdse1d.scan import execute as scan
+    from tdse1d.scan.summary import write_summary
 
     workdir = Path(workdir)
     plan_path = workdir / "plan.toml"

@@ -1,6 +1,6 @@
 """``summary.h5`` of a scan: per-point spectra on one photon-energy grid, cutoffs, yields, fit.
 
-:func:`write_summary` reads the finished point files of a :class:`~tdse1d.scan.ScanPlan`
+:func:`write_summary` reads the finished point files of a :class:`~tdse1d.scan.execute.ScanPlan`
 and writes ``SCAN_DIR/summary.h5`` (root attribute ``kind = "scan-summary"``); the
 layout is listed in ``docs/scans.md``. Points without a finished file are kept as rows
 of NaN with ``/points/complete`` False, so a partial scan can be looked at.
@@ -23,9 +23,9 @@ from pathlib import Path
 import h5py
 import numpy as np
 
-from . import __version__, units
-from .semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
-from .store import new_hdf5, write_dataset
+from .. import __version__, units
+from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
+from ..io.store import new_hdf5, write_dataset
 
 __all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
 
@@ -53,7 +53,7 @@ class _PointData:
 
 
 def _read_point(path) -> _PointData:
-    from .spectra.harmonic import harmonic_spectrum
+    from ..spectra.harmonic import harmonic_spectrum
 
     with h5py.File(path, "r") as f:
         h = f["spectra/harmonic"]
@@ -97,7 +97,7 @@ def photoelectron_cutoff(f: h5py.File, omega0: float) -> float:
     both directions, from the surface flux (or, in older files, mask) method if there, else from the plane-wave projection,
     with the plateau region starting at half a photon energy and a drop of 2 decades.
     """
-    from .spectra.cutoff import read_cutoff
+    from ..spectra.cutoff import read_cutoff
 
     for method in ("surface_flux", "mask", "plane_wave"):
         key = f"spectra/photoelectron/{method}"
@@ -162,7 +162,7 @@ def write_summary(plan, directory) -> Summary:
 
     Parameters
     ----------
-    plan : tdse1d.scan.ScanPlan
+    plan : tdse1d.scan.execute.ScanPlan
     directory : path
         The scan directory.
 
@@ -170,7 +170,7 @@ def write_summary(plan, directory) -> Summary:
     -------
     Summary
     """
-    from .scan import ScanDirectory
+    from .execute import ScanDirectory
 
     sd = ScanDirectory(directory)
     n = len(plan.points)
@@ -267,7 +267,7 @@ def write_summary(plan, directory) -> Summary:
             description="quasi-static tunnelling yield over the run's field (tdse1d.semiclassical.classical.tunnelling_yield)")
         pe = f.create_group("photoelectron")
         write_dataset(pe, "cutoff", column(lambda d, r: d.attrs["photoelectron"] * ev), "eV",
-            description="rough end of the last plateau (tdse1d.summary.photoelectron_cutoff)")
+            description="rough end of the last plateau (tdse1d.scan.summary.photoelectron_cutoff)")
         write_dataset(pe, "direct_edge", column(lambda d, r: d.attrs["direct_edge"] * ev), "eV",
             description="direct-electron edge read off by the run (/spectra/photoelectron/edges), NaN if absent")
         write_dataset(pe, "backscattered_edge", column(lambda d, r: d.attrs["backscattered_edge"] * ev), "eV",
@@ -285,7 +285,7 @@ def write_summary(plan, directory) -> Summary:
 
 
 def _write_focal(f, plan, energy, power, amplitude):
-    """Focal-volume averages when the plan scans one intensity axis (see :mod:`tdse1d.focal`)."""
+    """Focal-volume averages when the plan scans one intensity axis (see :mod:`tdse1d.scan.focal`)."""
     from .focal import GEOMETRIES, focal_average
 
     if len(plan.axes) != 1 or not plan.axes[0].key.endswith("peak_intensity"):

@@ -19,7 +19,7 @@ A *scan plan* (TOML) names a base input and one or more axes::
     count = 3
 
 :func:`load_plan` validates every point as a complete input before anything runs and
-reports all bad points at once (:class:`PlanError`, an :class:`~tdse1d.config.InputError`).
+reports all bad points at once (:class:`PlanError`, an :class:`~tdse1d.input.schema.InputError`).
 
 Each point's resolved input has a stable name, :func:`input_hash` (the first 16 hex
 digits of the SHA-256 of its canonical TOML), and its result goes to
@@ -32,7 +32,7 @@ is refused unless the user starts afresh.
 
 One writer at a time: :func:`run_scan` holds ``SCAN_DIR/scan.lock`` for the whole scan
 (a second scan of the same directory is refused at once, naming the holder), and every
-point file is written under its own lock (:class:`tdse1d.store.WriterLock`), so a
+point file is written under its own lock (:class:`tdse1d.io.store.WriterLock`), so a
 job-array task (:func:`run_one`) never writes a point that another process is writing.
 A SIGTERM or SIGINT reaching a process that runs points (a Dask worker, a job-array
 task) makes each of its runs write its checkpoint and stop (:func:`install_stop_handlers`).
@@ -42,7 +42,7 @@ Execution (:func:`run_scan`) submits the points, longest first (cost
 without computing bound states), to a Dask ``distributed`` cluster: by default a
 ``LocalCluster`` of single-threaded worker processes on the loopback interface, or an
 existing scheduler given by address. :func:`run_one` runs one point in this process
-(job arrays), and :func:`tdse1d.summary.write_summary` assembles ``summary.h5``.
+(job arrays), and :func:`tdse1d.scan.summary.write_summary` assembles ``summary.h5``.
 """
 
 from __future__ import annotations
@@ -64,8 +64,8 @@ from typing import Callable
 
 import numpy as np
 
-from . import units
-from .config import (
+from .. import units
+from ..input.schema import (
     AtomConfig,
     CentreConfig,
     GridConfig,
@@ -170,7 +170,7 @@ _SECTION_CLASSES = {
 
 
 def key_spec(key: str):
-    """The :class:`~tdse1d.config.Spec` of a dotted input key, or None if it names no value."""
+    """The :class:`~tdse1d.input.schema.Spec` of a dotted input key, or None if it names no value."""
     import dataclasses
 
     parts = [p for p in key.split(".") if not p.isdigit()]
@@ -577,11 +577,11 @@ def estimate_cost(config: RunConfig) -> float:
     """Relative cost of a run, grid points x time steps, without computing bound states.
 
     Uses the grid and time step the input gives, else the semiclassical advice
-    (:func:`tdse1d.problem.model_estimates`) with the input's ionization potential, or
+    (:func:`tdse1d.input.problem.model_estimates`) with the input's ionization potential, or
     0.5 Hartree when the softening is given instead: good enough to order points.
     """
-    from .physics.grid import fast_fft_size
-    from .problem import AFTER_PULSE_CYCLES, FIELD_FREE_DURATION, _potential, build_field, model_estimates
+    from ..physics.grid import fast_fft_size
+    from ..input.problem import AFTER_PULSE_CYCLES, FIELD_FREE_DURATION, _potential, build_field, model_estimates
 
     try:
         fld = build_field(config)
@@ -666,14 +666,14 @@ class ScanDirectory:
 
     def lock(self) -> "WriterLock":
         """The directory's lock, taken: :class:`~tdse1d.errors.OutputBusy` if another scan holds it."""
-        from .store import WriterLock
+        from ..io.store import WriterLock
 
         self.root.mkdir(parents=True, exist_ok=True)
         return WriterLock(self.lock_file, what=f"the scan directory {str(self.root)!r}", purpose="tdse1d scan").acquire()
 
     def writer_of(self, point: ScanPoint):
-        """The live process writing ``point`` (a :class:`~tdse1d.store.LockHolder`), or None."""
-        from .store import WriterLock, lock_path
+        """The live process writing ``point`` (a :class:`~tdse1d.io.store.LockHolder`), or None."""
+        from ..io.store import WriterLock, lock_path
 
         return WriterLock.holder(lock_path(self.result(point)))
 
@@ -685,8 +685,8 @@ class ScanDirectory:
         tdse1d.errors.OutputBusy
             If a point is being written by a live process (nothing is deleted).
         """
-        from .errors import OutputBusy
-        from .store import WriterLock
+        from ..errors import OutputBusy
+        from ..io.store import WriterLock
 
         if self.points.exists():
             for lock in self.points.glob("*.h5.lock"):
@@ -724,11 +724,11 @@ def _write_atomic(path: Path, text: str) -> None:
 
 def result_matches(path, expected_hash: str) -> bool:
     """True if ``path`` is a complete result file of the input named ``expected_hash``
-    holding every dataset of the contract with its shape (:func:`tdse1d.store.content_problems`),
+    holding every dataset of the contract with its shape (:func:`tdse1d.io.store.content_problems`),
     and its data are readable, not only its header."""
     import h5py
 
-    from .store import content_problems, is_complete
+    from ..io.store import content_problems, is_complete
 
     if not is_complete(path):
         return False
@@ -778,10 +778,10 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     """
     import socket
 
-    from . import api
-    from .errors import OutputBusy
-    from .runner import RunInterrupted
-    from .wisdom import fftw_wisdom
+    from .. import api
+    from ..errors import OutputBusy
+    from ..run.runner import RunInterrupted
+    from ..io.wisdom import fftw_wisdom
 
     output = Path(output)
     error_file = output.with_suffix(".error")
@@ -919,7 +919,7 @@ def _worker_setup(stop_http: bool):
 
         def setup(self, worker):
             # plugins are set up in the worker's event loop, the process's main thread
-            from .scan import install_stop_handlers
+            from .execute import install_stop_handlers
 
             install_stop_handlers(redeliver=True)
             if self.stop_http and getattr(worker, "http_server", None) is not None:
@@ -938,7 +938,7 @@ def _tunnelling_yield(outcome) -> float:
     read from the file when the run's own analysis stored it."""
     import h5py
 
-    from .semiclassical.classical import tunnelling_yield
+    from ..semiclassical.classical import tunnelling_yield
 
     with h5py.File(outcome.path, "r") as f:
         key = "classical/tunnelling/probability"

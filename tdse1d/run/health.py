@@ -3,7 +3,7 @@
 Non-finite values and a growing norm stop the run at once (the propagator raises
 :class:`~tdse1d.physics.propagation.NumericalError`); a grid smaller than the quiver excursion or
 coarser than the highest momentum of the pulse is flagged before the run by
-:func:`tdse1d.problem.build_problem` (``Problem.warnings``). During the run,
+:func:`tdse1d.input.problem.build_problem` (``Problem.warnings``). During the run,
 :class:`HealthMonitor` looks at the length-gauge wavefunction at the population cadence
 for three symptoms, each a small check registered in :data:`CHECKS`:
 
@@ -31,8 +31,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .errors import NumericalError
-from .registry import registrar
+from ..errors import NumericalError
+from ..registry import registrar
 
 __all__ = ["HealthMonitor", "CHECKS", "EDGE_FRACTION", "MOMENTUM_FRACTION", "REFLECTION_RATIO"]
 

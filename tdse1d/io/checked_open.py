@@ -20,7 +20,7 @@ from __future__ import annotations
 import contextlib
 from pathlib import Path
 
-from ..config import InputError
+from ..input.schema import InputError
 
 __all__ = ["MissingData", "open_result", "check_result"]
 
@@ -58,7 +58,7 @@ def check_result(path, kinds=None, needs=None) -> str:
     """
     import h5py
 
-    from ..store import COMPLETE_ATTR
+    from .store import COMPLETE_ATTR
 
     source = str(path)
     p = Path(path)

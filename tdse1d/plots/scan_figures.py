@@ -2,7 +2,7 @@
 
 :data:`FIGURES` maps a figure name to a function of the open summary file (and the
 plot command's cache) returning a matplotlib Figure; ``tdse1d plot summary.h5`` finds
-it through the command's table of file kinds. Styling follows :mod:`tdse1d.plots`.
+it through the command's table of file kinds. Styling follows :mod:`tdse1d.plots.run_figures`.
 
 ``map``
     Harmonic spectrum (log colour, each row normalised to its maximum) against photon
@@ -20,8 +20,8 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.colors import LogNorm
 
-from .semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
-from .plots import DENSITY_CMAP, LOG_RANGE_SPECTROGRAM, _figure
+from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
+from .run_figures import DENSITY_CMAP, LOG_RANGE_SPECTROGRAM, _figure
 
 __all__ = ["FIGURES", "map_figure", "cutoff_fit_figure"]
 

@@ -1,6 +1,6 @@
 """How much memory and disk a run will take, and whether the machine has them.
 
-:func:`estimate_resources` counts, from a resolved :class:`~tdse1d.problem.Problem`
+:func:`estimate_resources` counts, from a resolved :class:`~tdse1d.input.problem.Problem`
 and without running it, the largest amount of memory the run holds at once and the
 bytes it writes. :func:`check_resources` compares them with what the machine offers
 (available memory, free space at the output folder) and refuses a run that cannot
@@ -114,14 +114,14 @@ def estimate_resources(problem) -> ResourceEstimate:
 
     Parameters
     ----------
-    problem : tdse1d.problem.Problem
+    problem : tdse1d.input.problem.Problem
 
     Returns
     -------
     ResourceEstimate
     """
-    from .semiclassical.classical import _BLOCK_ELEMENTS, BIRTHS_PER_CYCLE
-    from .physics.propagation import scheme_for_order
+    from ..semiclassical.classical import _BLOCK_ELEMENTS, BIRTHS_PER_CYCLE
+    from ..physics.propagation import scheme_for_order
 
     cfg = problem.config
     steps = int(problem.time.steps)
@@ -232,7 +232,7 @@ def check_resources(problem, output, memory: int | None = None, disk: int | None
 
     Parameters
     ----------
-    problem : tdse1d.problem.Problem
+    problem : tdse1d.input.problem.Problem
     output : path
         The result file the run will write.
     memory, disk : int, optional
@@ -245,10 +245,10 @@ def check_resources(problem, output, memory: int | None = None, disk: int | None
 
     Raises
     ------
-    tdse1d.config.InputError
+    tdse1d.input.schema.InputError
         One line with the estimate, what is available, and the key to change.
     """
-    from .config import InputError
+    from ..input.schema import InputError
 
     est = estimate_resources(problem)
     memory = available_memory() if memory is None else memory

@@ -15,7 +15,7 @@ import numpy as np
 from matplotlib.colors import LogNorm
 from matplotlib.figure import Figure
 
-from . import units
+from .. import units
 
 __all__ = [
     "FIGURE_SIZE",

@@ -39,9 +39,9 @@ from pathlib import Path
 import h5py
 import numpy as np
 
-from . import __version__
-from .errors import OutputBusy, OutputError
-from .semiclassical.estimates import as_attributes
+from .. import __version__
+from ..errors import OutputBusy, OutputError
+from ..semiclassical.estimates import as_attributes
 
 try:  # advisory locks; absent on Windows, where the lock file alone decides
     import fcntl

@@ -1,4 +1,4 @@
-"""One full quantum run: propagate a :class:`~tdse1d.problem.Problem` and analyse it.
+"""One full quantum run: propagate a :class:`~tdse1d.input.problem.Problem` and analyse it.
 
 :func:`simulate` drives the :class:`~tdse1d.physics.propagation.Propagator` through the run in
 chunks, between which it records bound-state populations, hands snapshots to a sink
@@ -15,7 +15,7 @@ stop, raises :class:`RunInterrupted`. ``simulate(..., resume=state)`` continues 
 such a state; the steps and analysis events are the same as in an uninterrupted run,
 so the results agree to round-off.
 
-Numerical health (:mod:`tdse1d.health`) is checked at the population cadence.
+Numerical health (:mod:`tdse1d.run.health`) is checked at the population cadence.
 """
 
 from __future__ import annotations
@@ -27,13 +27,13 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import health as _health
-from . import spectra
-from .spectra import surface_flux as _flux
-from .physics.absorbers import ABSORBERS
-from .physics.propagation import Observables, Propagator, scheme_for_order
-from .problem import Problem
-from .physics.ionization import ionization as _ionization
-from .physics.states import initial_wavefunction
+from .. import spectra
+from ..spectra import surface_flux as _flux
+from ..physics.absorbers import ABSORBERS
+from ..physics.propagation import Observables, Propagator, scheme_for_order
+from ..input.problem import Problem
+from ..physics.ionization import ionization as _ionization
+from ..physics.states import initial_wavefunction
 
 __all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps"]
 
@@ -82,7 +82,7 @@ class RunResult:
 
 @dataclass
 class RunState:
-    """Everything needed to continue a run (see :mod:`tdse1d.checkpoint`).
+    """Everything needed to continue a run (see :mod:`tdse1d.run.checkpoint`).
 
     Attributes
     ----------

@@ -35,8 +35,8 @@ from pathlib import Path
 import numpy as np
 from scipy import constants
 
-from .spectra.cutoff import noise_floor, read_cutoff
-from .units import HARTREE_EV
+from ..spectra.cutoff import noise_floor, read_cutoff
+from ..units import HARTREE_EV
 
 __all__ = ["MeasuredSpectrum", "read_spectrum_csv", "X_UNITS", "Comparison", "compare_spectra",
            "gaussian_broaden", "computed_spectrum", "computed_floor"]
@@ -294,7 +294,7 @@ def computed_floor(path, point: int | None = None, average: str | None = None):
     """
     import h5py
 
-    from .spectra.harmonic import harmonic_spectrum
+    from ..spectra.harmonic import harmonic_spectrum
 
     with h5py.File(path, "r") as f:
         if f.attrs.get("kind", "") == "scan-summary" or "field/electric" not in f:

@@ -16,7 +16,7 @@ import os
 import warnings
 from pathlib import Path
 
-from .physics.fft import WisdomError, export_wisdom, import_wisdom
+from ..physics.fft import WisdomError, export_wisdom, import_wisdom
 
 __all__ = ["wisdom_path", "fftw_wisdom", "WisdomWarning"]
 

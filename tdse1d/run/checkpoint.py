@@ -35,8 +35,8 @@ from pathlib import Path
 import h5py
 import numpy as np
 
-from . import __version__
-from .config import InputError
+from .. import __version__
+from ..input.schema import InputError
 
 __all__ = [
     "CHECKPOINT_SUFFIX",
@@ -60,7 +60,7 @@ def checkpoint_path(output) -> Path:
 
 
 def input_hash(config) -> str:
-    """SHA-256 (hex) of the resolved input TOML of a :class:`~tdse1d.config.RunConfig`."""
+    """SHA-256 (hex) of the resolved input TOML of a :class:`~tdse1d.input.schema.RunConfig`."""
     return hashlib.sha256(config.resolved_toml.encode("utf-8")).hexdigest()
 
 
@@ -82,7 +82,7 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
     ----------
     path : path
         The checkpoint file.
-    state : tdse1d.runner.RunState
+    state : tdse1d.run.runner.RunState
     digest : str
         :func:`input_hash` of the run's input.
     snapshots : tuple of (ndarray, ndarray), optional
@@ -92,7 +92,7 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
     tmp = path.with_name(path.name + ".tmp")
     # through a GuardedFile: a full disk raises OSError here (tmp removed, the previous
     # checkpoint intact) instead of leaving the HDF5 library in a state that crashes at exit
-    from .store import new_hdf5
+    from ..io.store import new_hdf5
 
     with new_hdf5(tmp) as f:
         f.attrs["format"] = _FORMAT
@@ -133,7 +133,7 @@ def read_checkpoint(path, digest: str | None = None):
 
     Returns
     -------
-    state : tdse1d.runner.RunState
+    state : tdse1d.run.runner.RunState
     snapshots : tuple of (ndarray, ndarray)
         Times and stored wavefunctions of the snapshots taken before the stop.
 
@@ -184,7 +184,7 @@ def read_checkpoint(path, digest: str | None = None):
 
 
 class CheckpointSink:
-    """A run's sink that also writes checkpoints: wraps a :class:`~tdse1d.store.ResultWriter`.
+    """A run's sink that also writes checkpoints: wraps a :class:`~tdse1d.io.store.ResultWriter`.
 
     Snapshots go to the writer; :meth:`checkpoint` copies the snapshots stored so far
     from the writer's open file into the checkpoint with the run state.

@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from . import units
+from .. import units
 
 # The one place that picks the TOML reader: the standard library's from Python 3.11,
 # its backport (a dependency on 3.10) before. Other modules import ``tomllib`` from here.
@@ -250,25 +250,25 @@ def _read_array(cls, items, path):
 
 
 def _potential_names():
-    from .physics.potentials import POTENTIALS
+    from ..physics.potentials import POTENTIALS
 
     return tuple(POTENTIALS)
 
 
 def _envelope_names():
-    from .physics.pulses import ENVELOPES
+    from ..physics.pulses import ENVELOPES
 
     return tuple(ENVELOPES)
 
 
 def _absorber_names():
-    from .physics.absorbers import ABSORBERS
+    from ..physics.absorbers import ABSORBERS
 
     return tuple(ABSORBERS)
 
 
 def _window_names():
-    from .spectra.windows import WINDOWS
+    from ..spectra.windows import WINDOWS
 
     return tuple(WINDOWS)
 
@@ -496,7 +496,7 @@ _SECTIONS = {
 def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
     """Refuse a key of the [atom] table that another model reads and ``model`` does not
     (e.g. ``trap_frequency`` with the soft-core model): it would be silently ignored."""
-    from .physics.potentials import model_keys
+    from ..physics.potentials import model_keys
 
     keys = model_keys()
     own = set(keys.get(model, ()))

@@ -1,4 +1,4 @@
-"""Assemble the physics objects of a run from a validated :class:`~tdse1d.config.RunConfig`.
+"""Assemble the physics objects of a run from a validated :class:`~tdse1d.input.schema.RunConfig`.
 
 This is the one layer between the input and the physics core: it reads a tabulated
 field file if the input names one, resolves every ``"auto"`` (grid, time step,
@@ -20,13 +20,13 @@ from functools import cached_property
 
 import numpy as np
 
-from . import units
-from .config import MAX_NORMALISED_VECTOR_POTENTIAL, InputError, RunConfig
-from .semiclassical.estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
-from .physics.grid import MAX_POINTS, Grid, fast_fft_size
-from .physics.potentials import POTENTIALS, Potential
-from .physics.pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
-from .physics.states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
+from .. import units
+from .schema import MAX_NORMALISED_VECTOR_POTENTIAL, InputError, RunConfig
+from ..semiclassical.estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
+from ..physics.grid import MAX_POINTS, Grid, fast_fft_size
+from ..physics.potentials import POTENTIALS, Potential
+from ..physics.pulses import ENVELOPES, AnalyticPulse, Field, TabulatedPulse
+from ..physics.states import BoundStates, SofteningFitError, bound_states, fit_softening, ground_state_energy
 
 __all__ = ["Problem", "build_problem", "build_field", "model_estimates", "check_absorber"]
 
@@ -189,7 +189,7 @@ def _potential(config: RunConfig) -> Potential:
 
 def model_estimates(potential: Potential, field: Field, ionization_potential: float):
     """Semiclassical estimates for each pulse of ``field`` and the grid they call for."""
-    from .semiclassical.classical import barrier_suppression_field
+    from ..semiclassical.classical import barrier_suppression_field
 
     try:
         bsi = barrier_suppression_field(potential, -ionization_potential)
@@ -378,7 +378,7 @@ def check_absorber(problem: Problem) -> None:
     InputError
         Naming ``absorber.width``.
     """
-    from .physics.absorbers import ABSORBERS
+    from ..physics.absorbers import ABSORBERS
 
     config, grid, states = problem.config, problem.grid, problem.states
     cfg = config.absorber
