@@ -27,7 +27,7 @@ import pytest
 import scipy.constants as sc
 
 from tdse1d import analysis, api
-from tdse1d.commands import export, plot, report
+from tdse1d.cli import export, plot, report
 from tdse1d.input.schema import load_input
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"

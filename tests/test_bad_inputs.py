@@ -17,7 +17,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from tdse1d import cli
+from tdse1d.cli import program as cli
 
 HERE = Path(__file__).parent / "bad_inputs"
 CASES = sorted(HERE.glob("*.toml"))

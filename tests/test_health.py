@@ -6,7 +6,7 @@ import os
 import h5py
 import pytest
 
-from tdse1d import cli
+from tdse1d.cli import program as cli
 from tdse1d.input.schema import load_input
 from tdse1d.input.problem import build_problem
 from tdse1d.physics.propagation import NumericalError

@@ -10,7 +10,8 @@ from pathlib import Path
 
 import pytest
 
-from tdse1d import cli, validate
+from tdse1d.cli import program as cli
+from tdse1d import validate
 from tdse1d.input.schema import tomllib
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -41,7 +41,8 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import curve_fit
 from scipy.sparse.linalg import expm_multiply
 
-from tdse1d import api, cli, spectra
+from tdse1d import api, spectra
+from tdse1d.cli import program as cli
 from tdse1d.io import store
 from tdse1d.input.schema import load_input, parse_input, tomllib
 from tdse1d.physics.grid import Grid

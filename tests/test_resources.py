@@ -6,7 +6,8 @@ import tracemalloc
 
 import pytest
 
-from tdse1d import api, cli
+from tdse1d import api
+from tdse1d.cli import program as cli
 from tdse1d.run import resources
 from tdse1d.input.schema import InputError, load_input
 from tdse1d.input.problem import build_problem

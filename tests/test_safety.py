@@ -20,7 +20,7 @@ from pathlib import Path
 import h5py
 import pytest
 
-from tdse1d import cli
+from tdse1d.cli import program as cli
 from tdse1d.scan import execute as scan
 from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
 from tdse1d.io.store import is_complete, lock_path

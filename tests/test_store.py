@@ -15,7 +15,8 @@ import h5py
 import numpy as np
 import pytest
 
-from tdse1d import api, cli
+from tdse1d import api
+from tdse1d.cli import program as cli
 from tdse1d.io import store
 from tdse1d.input.schema import InputError, load_input
 from tdse1d.errors import OutputBusy, OutputError

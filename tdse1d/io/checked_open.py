@@ -1,7 +1,7 @@
 """Opening a result file given to a reading command (plot, export, report, compare).
 
 Every reader refuses a bad file the same way: one line naming the file and what is
-wrong, exit status 2 (bad input, as for an input file; see :mod:`tdse1d.cli`):
+wrong, exit status 2 (bad input, as for an input file; see :mod:`tdse1d.cli.program`):
 
 * no such file, or a folder;
 * not an HDF5 file;

@@ -3,7 +3,7 @@
 import json
 
 from .. import api, units
-from ..cli import add_input_arguments
+from .program import add_input_arguments
 from ..input.schema import load_input
 
 HELP = "semiclassical estimates (Up, Keldysh parameter, cutoffs), the advised grid, and the memory and disk of the run"

@@ -1,6 +1,6 @@
 """The ``tdse1d`` command line: a thin layer over :mod:`tdse1d.api`.
 
-Each command lives in its own module under :mod:`tdse1d.commands` and is listed in
+Each command lives in its own module of :mod:`tdse1d.cli` and is listed in
 :data:`COMMANDS`. A command module provides ``HELP`` (one line), ``add_arguments(parser)``
 and ``main(args) -> int``. Adding a command is adding one module and one line here.
 
@@ -23,19 +23,19 @@ import importlib
 import math
 import sys
 
-from . import __version__
+from .. import __version__
 
 #: command name -> module implementing it
 COMMANDS = {
-    "states": "tdse1d.commands.states",
-    "estimate": "tdse1d.commands.estimate",
-    "run": "tdse1d.commands.run",
-    "scan": "tdse1d.commands.scan",
-    "compare": "tdse1d.commands.compare",
-    "report": "tdse1d.commands.report",
-    "plot": "tdse1d.commands.plot",
-    "export": "tdse1d.commands.export",
-    "validate": "tdse1d.commands.validate",
+    "states": "tdse1d.cli.states",
+    "estimate": "tdse1d.cli.estimate",
+    "run": "tdse1d.cli.run",
+    "scan": "tdse1d.cli.scan",
+    "compare": "tdse1d.cli.compare",
+    "report": "tdse1d.cli.report",
+    "plot": "tdse1d.cli.plot",
+    "export": "tdse1d.cli.export",
+    "validate": "tdse1d.cli.validate",
 }
 
 EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
@@ -200,8 +200,8 @@ def main(argv=None) -> int:
 
 
 def _main(argv, debug) -> int:
-    from .input.schema import InputError
-    from .errors import NumericalError, OutputError
+    from ..input.schema import InputError
+    from ..errors import NumericalError, OutputError
 
     try:
         parser = build_parser(argv)
@@ -252,7 +252,7 @@ def _main(argv, debug) -> int:
     except OSError as exc:  # a file that cannot be written or read (read-only, full disk...)
         if debug:
             raise
-        from .io.store import describe_os_error
+        from ..io.store import describe_os_error
 
         print(f"tdse1d: error: {describe_os_error(exc, action=None)}", file=sys.stderr)
         return EXIT_FAILURE

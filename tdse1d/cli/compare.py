@@ -3,7 +3,7 @@
 import json
 import math
 
-from ..cli import nonnegative_float, nonnegative_int
+from .program import nonnegative_float, nonnegative_int
 from ..input.schema import InputError
 
 HELP = "broaden and weight a computed harmonic spectrum like a measured one, and compare their cutoffs"

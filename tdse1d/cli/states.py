@@ -3,7 +3,7 @@
 import json
 
 from .. import api, units
-from ..cli import add_input_arguments, positive_int
+from .program import add_input_arguments, positive_int
 from ..input.schema import load_input
 
 HELP = "bound states of the input's model atom on the run's own grid"

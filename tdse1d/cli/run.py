@@ -11,7 +11,7 @@ import sys
 import time
 
 from .. import api, units
-from ..cli import add_input_arguments
+from .program import add_input_arguments
 from ..input.schema import load_input
 from ..io.wisdom import fftw_wisdom
 

@@ -10,7 +10,7 @@ checkpoint and exits with status 75, like ``tdse1d run``.
 import sys
 from pathlib import Path
 
-from ..cli import CommandError, nonnegative_int, positive_float, scheduler_address, worker_count
+from .program import CommandError, nonnegative_int, positive_float, scheduler_address, worker_count
 
 HELP = "run every point of a scan plan (Dask distributed, or one point of a job array) and summarise"
 
