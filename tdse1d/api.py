@@ -241,7 +241,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
             # a stop request from here on comes after the last step: the analysis and the
             # writing take a small fraction of the run, so the run finishes (docs/checkpoints.md)
             _hold("analysis", control)
-            from .analysis import analyse_run, write_analysis
+            from .analysis.run_analysis import analyse_run
+            from .io.analysis_file import write_analysis
 
             try:  # the comparison must never cost the run itself
                 analysis = analyse_run(problem, result)

@@ -420,7 +420,7 @@ class CutoffLaw(_ScanKind):
     """
 
     def run(self):
-        from .analysis import analyse_run
+        from .analysis.run_analysis import analyse_run
 
         ups, cuts, ips, omegas, ratios, labels = [], [], [], [], [], []
         for value, out in self.points():
@@ -516,7 +516,7 @@ class PhotoelectronEdges(_ScanKind):
     """
 
     def run(self):
-        from .analysis import analyse_run
+        from .analysis.run_analysis import analyse_run
 
         values, readings = [], []
         for value, out in self.points():
@@ -621,7 +621,7 @@ class EmissionTimesCase(CaseKind):
     """
 
     def run(self):
-        from .analysis import analyse_run
+        from .analysis.run_analysis import analyse_run
 
         out = self.runner.run(self.case.input())
         em = analyse_run(out.problem, out.result).emission
@@ -650,7 +650,7 @@ class EmissionTimesCase(CaseKind):
         ax.set_ylabel("photon energy (eV)")
         ax.legend(fontsize=8)
         self.figure(fig, "emission_times")
-        from .analysis import branch_agreement, branch_correlation
+        from .analysis.emission import branch_agreement, branch_correlation
 
         # set before the run: one-sided p < tolerance (0.01) for the correlation with the
         # long branch; white-noise and time-shuffled maps score p > 0.06

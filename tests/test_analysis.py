@@ -27,6 +27,7 @@ import pytest
 import scipy.constants as sc
 
 from tdse1d import analysis, api
+from tdse1d.io import analysis_file
 from tdse1d.cli import export, plot, report
 from tdse1d.input.schema import load_input
 
@@ -82,7 +83,7 @@ def infrared(tmp_path_factory):
     text = HYDROGEN + IR.format(intensity="1.4e14 W/cm^2", cycles=4) + _grid(1536, 0.25, 30.0, "0.5 fs", 0.05)
     outcome = _run(tmp_path_factory, "infrared", text)
     with h5py.File(outcome.path) as f:
-        return outcome, analysis.analyse_file(f)
+        return outcome, analysis_file.analyse_file(f)
 
 
 def _spectrum(path, method):
@@ -161,7 +162,7 @@ def infrared_weaker(tmp_path_factory):
     text = HYDROGEN + IR.format(intensity="1.0e14 W/cm^2", cycles=4) + _grid(768, 0.25, 30.0, "0.5 fs", 0.05)
     outcome = _run(tmp_path_factory, "infrared_weaker", text)
     with h5py.File(outcome.path) as f:
-        return outcome, analysis.analyse_file(f)
+        return outcome, analysis_file.analyse_file(f)
 
 
 @pytest.fixture(scope="module")
@@ -170,7 +171,7 @@ def infrared_vanishing(tmp_path_factory):
     text = HYDROGEN + IR.format(intensity="1e6 W/cm^2", cycles=4) + _grid(768, 0.25, 30.0, "0.5 fs", 0.05)
     outcome = _run(tmp_path_factory, "infrared_vanishing", text)
     with h5py.File(outcome.path) as f:
-        return outcome, analysis.analyse_file(f)
+        return outcome, analysis_file.analyse_file(f)
 
 
 @pytest.mark.xfail(strict=True, reason="measured: the backscattered edge reads 1.195 of its classical value at "

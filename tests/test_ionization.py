@@ -128,7 +128,7 @@ def test_report_footnote_says_what_the_box_cannot_hold(tmp_path):
     # converged; a file without the pieces gets a plain note instead of a KeyError
     import h5py
 
-    from tdse1d.cli.report import ionization_note
+    from tdse1d.io.analysis_file import ionization_note
 
     with h5py.File(tmp_path / "r.h5", "w") as f:
         g = f.create_group("ionization")

@@ -29,7 +29,7 @@ DPI = 200
 
 def _analysis(f, cache):
     if "analysis" not in cache:
-        from ..analysis import analyse_file
+        from ..io.analysis_file import analyse_file
 
         cache["analysis"] = analyse_file(f)
     return cache["analysis"]
