@@ -805,7 +805,7 @@ class TunnellingYield(_ScanKind):
     """
 
     def run(self):
-        from .semiclassical.classical import tunnelling_yield
+        from .semiclassical.tunnelling import tunnelling_yield
 
         factor = float(self.case.get("params.factor"))
         max_bsi = float(self.case.get("params.max_bsi_fraction"))

@@ -52,7 +52,6 @@ LONG_MODULES = {
     "tdse1d.input.schema": "several subjects (key machinery, TOML reader, sections); to be split",
     "tdse1d.io.store": "several subjects (guarded file, writer lock, result writer, readers); to be split",
     "tdse1d.scan.execute": "several subjects (plan, directory, execution); to be split",
-    "tdse1d.semiclassical.classical": "two models (three-step, tunnelling); to be split",
     "tdse1d.validate": "case kinds, runner and report in one module; to be split into a package",
 }
 

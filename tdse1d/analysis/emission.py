@@ -161,7 +161,7 @@ def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
     Parameters
     ----------
     tf_map : TimeFrequencyMap
-    three_step : tdse1d.semiclassical.classical.ThreeStepSummary
+    three_step : tdse1d.semiclassical.three_step.ThreeStepSummary
     period : float
         Optical period (a.u.).
     plateau : (float, float)

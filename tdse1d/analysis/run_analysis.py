@@ -1,7 +1,7 @@
 """The semiclassical picture beside the quantum result of one run, assembled.
 
 For the run's own field :func:`analyse_run` evaluates the classical three-step model
-(:mod:`tdse1d.semiclassical.classical`), the quasi-static tunnelling yield for the
+(:mod:`tdse1d.semiclassical.three_step`), the quasi-static tunnelling yield for the
 model's own potential, the Gabor map and emission times (:mod:`.emission`), the
 photoelectron edges, the ponderomotive shift and the streaking shift
 (:mod:`.photoelectrons`), and gives a :class:`RunAnalysis`. Nothing here reads a file
@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..semiclassical import classical
+from ..semiclassical import three_step, tunnelling
 from ..spectra.cutoff import CutoffEstimate, noise_floor, read_cutoff
 from ..spectra.harmonic import harmonic_spectrum
 from .emission import EmissionTimes, TF_TOP, TimeFrequencyMap, emission_times, time_frequency_map
@@ -43,8 +43,8 @@ class RunAnalysis:
     keldysh_parameter: float
     barrier_suppression_field: float
     peak_field: float
-    three_step: classical.ThreeStepSummary | None
-    trajectories: classical.ClassicalTrajectories | None
+    three_step: three_step.ThreeStepSummary | None
+    trajectories: three_step.ClassicalTrajectories | None
     tunnelling_time: np.ndarray
     tunnelling_probability: np.ndarray
     ionization_probability: float
@@ -113,8 +113,8 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
     three = traj = None
     if have_field:
         try:
-            traj = classical.trajectories(inputs.time, inputs.electric, inputs.vector_potential)
-            three = classical.summary(traj, ip)
+            traj = three_step.trajectories(inputs.time, inputs.electric, inputs.vector_potential)
+            three = three_step.summary(traj, ip)
         except ValueError as exc:
             notes.append(f"three-step model not evaluated: {exc}")
 
@@ -127,7 +127,7 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
     t_tun = p_tun = np.zeros(0)
     if quasi_static and inputs.potential is not None:
         try:
-            p_full = classical.tunnelling_yield(inputs.time, inputs.electric, inputs.potential, e0)
+            p_full = tunnelling.tunnelling_yield(inputs.time, inputs.electric, inputs.potential, e0)
             stride = max(1, inputs.time.size // 2000)
             t_tun, p_tun = inputs.time[::stride], p_full[::stride]
             if t_tun[-1] != inputs.time[-1]:

@@ -189,7 +189,7 @@ def _potential(config: RunConfig) -> Potential:
 
 def model_estimates(potential: Potential, field: Field, ionization_potential: float):
     """Semiclassical estimates for each pulse of ``field`` and the grid they call for."""
-    from ..semiclassical.classical import barrier_suppression_field
+    from ..semiclassical.tunnelling import barrier_suppression_field
 
     try:
         bsi = barrier_suppression_field(potential, -ionization_potential)

@@ -19,9 +19,7 @@ from dataclasses import replace
 import numpy as np
 
 from .. import units
-from ..analysis.photoelectrons import ponderomotive_shift
 from ..analysis.run_analysis import PHOTOELECTRON_METHOD_ORDER, RunAnalysis, _Inputs, _analyse, _pulse_rows
-from ..semiclassical import classical
 from .store import write_dataset
 
 

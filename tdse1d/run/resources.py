@@ -15,7 +15,7 @@ Where the memory goes (``docs/performance.md`` has the measurements):
   per step at second order, 270 at fourth;
 * the semiclassical analysis after the run: splines of A(t) over every step, and
   work blocks of the three-step model (64 births per cycle times the steps of a cycle,
-  at most :data:`tdse1d.semiclassical.classical._BLOCK_ELEMENTS` elements) and of the Gabor map
+  at most :data:`tdse1d.semiclassical.three_step._BLOCK_ELEMENTS` elements) and of the Gabor map
   (at most 64 MiB);
 * grid arrays: wavefunction, FFT buffers, potential, masks, about 100 bytes per point,
   and the bound states, 8 bytes per point each;
@@ -120,7 +120,7 @@ def estimate_resources(problem) -> ResourceEstimate:
     -------
     ResourceEstimate
     """
-    from ..semiclassical.classical import _BLOCK_ELEMENTS, BIRTHS_PER_CYCLE
+    from ..semiclassical.three_step import _BLOCK_ELEMENTS, BIRTHS_PER_CYCLE
     from ..physics.propagation import scheme_for_order
 
     cfg = problem.config

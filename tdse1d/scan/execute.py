@@ -938,7 +938,7 @@ def _tunnelling_yield(outcome) -> float:
     read from the file when the run's own analysis stored it."""
     import h5py
 
-    from ..semiclassical.classical import tunnelling_yield
+    from ..semiclassical.tunnelling import tunnelling_yield
 
     with h5py.File(outcome.path, "r") as f:
         key = "classical/tunnelling/probability"

@@ -264,7 +264,7 @@ def write_summary(plan, directory) -> Summary:
             description="1 - final bound population")
         write_dataset(ion, "tunnelling_estimate", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
             d.attrs["tunnelling"]) else r.get("tunnelling_yield", math.nan)), "1",
-            description="quasi-static tunnelling yield over the run's field (tdse1d.semiclassical.classical.tunnelling_yield)")
+            description="quasi-static tunnelling yield over the run's field (tdse1d.semiclassical.tunnelling.tunnelling_yield)")
         pe = f.create_group("photoelectron")
         write_dataset(pe, "cutoff", column(lambda d, r: d.attrs["photoelectron"] * ev), "eV",
             description="rough end of the last plateau (tdse1d.scan.summary.photoelectron_cutoff)")
