@@ -211,7 +211,7 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
 
     if strict and problem.warnings:
         raise NumericalError(f"before the run: {problem.warnings[0]}", 0, problem.time.start)
-    from .input.schema import InputError
+    from .input.spec import InputError
     from .errors import OutputError
     from .io.store import describe_os_error, refuse_reason
 

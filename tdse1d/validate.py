@@ -36,7 +36,9 @@ from pathlib import Path
 import numpy as np
 
 from . import units
-from .input.schema import InputError, load_input, tomllib
+from .input.spec import InputError
+from .input.schema import load_input
+from .input.spec import tomllib
 from .registry import registrar
 
 __all__ = [

@@ -395,7 +395,7 @@ def test_plot_writes_pdf_and_svg_and_rejects_other_formats(example_runs, tmp_pat
         out = tmp_path / f"fig{suffix}"
         assert plot.main(_args(plot, [str(path), "--what", "photoelectron", "-o", str(out)])) == 0
         assert out.stat().st_size > 5_000
-    from tdse1d.input.schema import InputError
+    from tdse1d.input.spec import InputError
 
     with pytest.raises(InputError, match="format"):
         plot.main(_args(plot, [str(path), "--what", "field", "-o", str(tmp_path / "fig.jpg")]))

@@ -19,7 +19,8 @@ import pytest
 import scipy.constants as sc
 
 from tdse1d.cli import program as cli
-from tdse1d.input.schema import parse_override, tomllib
+from tdse1d.input.spec import parse_override
+from tdse1d.input.spec import tomllib
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
 HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]

@@ -12,18 +12,18 @@ import pytest
 
 from tdse1d.cli import program as cli
 from tdse1d import validate
-from tdse1d.input.schema import tomllib
+from tdse1d.input.spec import tomllib
 
 ROOT = Path(__file__).resolve().parent.parent
 PYPROJECT = tomllib.loads((ROOT / "pyproject.toml").read_text())
 
 
 def test_tomllib_is_imported_in_one_place():
-    # Python 3.10 has no tomllib: every module takes the reader from tdse1d.input.schema
+    # Python 3.10 has no tomllib: every module takes the reader from tdse1d.input.spec
     offenders = []
     for path in [*(ROOT / "tdse1d").rglob("*.py"), *(ROOT / "tests").rglob("*.py")]:
         for line in path.read_text().splitlines():
-            if re.match(r"\s*(import tomllib|from tomllib import)", line) and path.name != "schema.py":
+            if re.match(r"\s*(import tomllib|from tomllib import)", line) and path.name != "spec.py":
                 offenders.append(f"{path.relative_to(ROOT)}: {line.strip()}")
     assert not offenders
 

@@ -26,7 +26,8 @@ import pytest
 
 from tdse1d import api
 from tdse1d.physics.absorbers import ComplexPotential, CosineMask
-from tdse1d.input.schema import InputError, load_input, parse_input
+from tdse1d.input.spec import InputError
+from tdse1d.input.schema import load_input, parse_input
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.propagation import Propagator
 from tdse1d.spectra.harmonic import harmonic_spectrum

@@ -5,7 +5,8 @@ import math
 
 import pytest
 
-from tdse1d.input.schema import InputError, parse_input
+from tdse1d.input.spec import InputError
+from tdse1d.input.schema import parse_input
 from tdse1d.physics.potentials import POTENTIALS, Centre, HarmonicOscillator, PoschlTeller, SoftCore, model_keys
 
 

@@ -44,7 +44,8 @@ from scipy.sparse.linalg import expm_multiply
 from tdse1d import api, spectra
 from tdse1d.cli import program as cli
 from tdse1d.io import store
-from tdse1d.input.schema import load_input, parse_input, tomllib
+from tdse1d.input.schema import load_input, parse_input
+from tdse1d.input.spec import tomllib
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.potentials import Centre, HarmonicOscillator, Potential, SoftCore
 from tdse1d.physics.propagation import SCHEMES, Propagator

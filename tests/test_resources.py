@@ -9,7 +9,8 @@ import pytest
 from tdse1d import api
 from tdse1d.cli import program as cli
 from tdse1d.run import resources
-from tdse1d.input.schema import InputError, load_input
+from tdse1d.input.spec import InputError
+from tdse1d.input.schema import load_input
 from tdse1d.input.problem import build_problem
 
 BASE = """

@@ -18,7 +18,8 @@ import pytest
 from tdse1d import api
 from tdse1d.cli import program as cli
 from tdse1d.io import store
-from tdse1d.input.schema import InputError, load_input
+from tdse1d.input.spec import InputError
+from tdse1d.input.schema import load_input
 from tdse1d.errors import OutputBusy, OutputError
 from tdse1d.input.problem import build_problem
 from tdse1d.io.store import ResultWriter, WriterLock, is_complete, lock_path

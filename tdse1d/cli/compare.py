@@ -4,7 +4,7 @@ import json
 import math
 
 from .program import nonnegative_float, nonnegative_int
-from ..input.schema import InputError
+from ..input.spec import InputError
 
 HELP = "broaden and weight a computed harmonic spectrum like a measured one, and compare their cutoffs"
 

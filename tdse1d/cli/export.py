@@ -15,7 +15,7 @@ import sys
 import numpy as np
 
 from .. import units
-from ..input.schema import InputError
+from ..input.spec import InputError
 
 HELP = "write a spectrum (harmonic, photoelectron, time-frequency) to CSV"
 

@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from ..plots import run_figures as plots, scan_figures as scan_plots
-from ..input.schema import InputError
+from ..input.spec import InputError
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 HELP = "draw the figures of a result file (field, density, spectra, time-frequency map, populations)"

@@ -200,7 +200,7 @@ def main(argv=None) -> int:
 
 
 def _main(argv, debug) -> int:
-    from ..input.schema import InputError
+    from ..input.spec import InputError
     from ..errors import NumericalError, OutputError
 
     try:

@@ -54,7 +54,7 @@ def main(args):
     try:
         if args.point is not None:
             if args.fresh:
-                from ..input.schema import InputError
+                from ..input.spec import InputError
 
                 raise InputError("--fresh with --point would delete the points of the other array tasks; "
                                  "clear the directory once before submitting the array", "--fresh", args.plan)
@@ -64,7 +64,7 @@ def main(args):
                 report = scan.run_one(plan, directory.root, args.point, fresh=args.fresh,
                                       retry_failed=True)
             except IndexError as exc:
-                from ..input.schema import InputError
+                from ..input.spec import InputError
 
                 raise InputError(str(exc), "--point", args.plan) from None
             finally:

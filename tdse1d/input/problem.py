@@ -21,7 +21,8 @@ from functools import cached_property
 import numpy as np
 
 from .. import units
-from .schema import MAX_NORMALISED_VECTOR_POTENTIAL, InputError, RunConfig
+from .schema import MAX_NORMALISED_VECTOR_POTENTIAL, RunConfig
+from .spec import InputError
 from ..semiclassical.estimates import GridAdvice, PulseEstimate, pulse_estimate, recommend_grid
 from ..physics.grid import MAX_POINTS, Grid, fast_fft_size
 from ..physics.potentials import POTENTIALS, Potential

@@ -27,7 +27,9 @@ def _file_pulses(h5file):
     """Per-pulse rows rebuilt from the stored input (cheap: no bound states)."""
     from pathlib import Path
 
-    from ..input.schema import InputError, parse_input, tomllib
+    from ..input.spec import InputError
+    from ..input.schema import parse_input
+    from ..input.spec import tomllib
     from ..input.problem import build_field
 
     source = str(h5file.attrs.get("input_source", "<string>"))
@@ -238,7 +240,7 @@ def ionization_note(group) -> str:
 
 def target_ionization_potential(input_toml) -> float:
     """``atom.ionization_potential`` of the stored input (hartree), NaN if absent."""
-    from ..input.schema import tomllib
+    from ..input.spec import tomllib
 
     try:
         value = tomllib.loads(input_toml).get("atom", {}).get("ionization_potential")

@@ -20,7 +20,7 @@ from __future__ import annotations
 import contextlib
 from pathlib import Path
 
-from ..input.schema import InputError
+from ..input.spec import InputError
 
 __all__ = ["MissingData", "open_result", "check_result"]
 

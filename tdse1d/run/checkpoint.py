@@ -36,7 +36,7 @@ import h5py
 import numpy as np
 
 from .. import __version__
-from ..input.schema import InputError
+from ..input.spec import InputError
 
 __all__ = [
     "CHECKPOINT_SUFFIX",

@@ -248,7 +248,7 @@ def check_resources(problem, output, memory: int | None = None, disk: int | None
     tdse1d.input.schema.InputError
         One line with the estimate, what is available, and the key to change.
     """
-    from ..input.schema import InputError
+    from ..input.spec import InputError
 
     est = estimate_resources(problem)
     memory = available_memory() if memory is None else memory

@@ -65,22 +65,9 @@ from typing import Callable
 import numpy as np
 
 from .. import units
-from ..input.schema import (
-    AtomConfig,
-    CentreConfig,
-    GridConfig,
-    InputError,
-    LaserConfig,
-    OutputConfig,
-    PropagationConfig,
-    RunConfig,
-    AbsorberConfig,
-    SpectraConfig,
-    apply_override,
-    dump_toml,
-    parse_input,
-    tomllib,
-)
+from ..input.schema import (AbsorberConfig, AtomConfig, CentreConfig, GridConfig, LaserConfig, OutputConfig,
+                            PropagationConfig, RunConfig, SpectraConfig, parse_input)
+from ..input.spec import InputError, apply_override, dump_toml, tomllib
 
 __all__ = [
     "PlanError",
