@@ -207,13 +207,14 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
     from .input.problem import check_absorber
     from .run.resources import check_resources
     from .run.runner import simulate, snapshot_steps
-    from .io.store import ResultWriter
+    from .io.result_file import ResultWriter
 
     if strict and problem.warnings:
         raise NumericalError(f"before the run: {problem.warnings[0]}", 0, problem.time.start)
     from .input.spec import InputError
     from .errors import OutputError
-    from .io.store import describe_os_error, refuse_reason
+    from .io.guarded_file import describe_os_error
+    from .io.result_file import refuse_reason
 
     path = output_path(problem.config, output)
     reason = refuse_reason(path)

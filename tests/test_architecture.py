@@ -49,7 +49,6 @@ CORE_FORBIDDEN = ("h5py", "matplotlib", "dask", "distributed", "tomllib", "tomli
 MAX_LINES = 500
 #: modules allowed to be longer, with the reason
 LONG_MODULES = {
-    "tdse1d.io.store": "several subjects (guarded file, writer lock, result writer, readers); to be split",
     "tdse1d.scan.execute": "several subjects (plan, directory, execution); to be split",
     "tdse1d.validate": "case kinds, runner and report in one module; to be split into a package",
 }
@@ -168,11 +167,11 @@ def test_every_package_is_shipped():
 @pytest.mark.parametrize("module, source", [
     # physics reaching up into the run layer, at module level and inside a function
     ("tdse1d.physics.grid", "from ..run.runner import simulate\n"),
-    ("tdse1d.physics.grid", "def f():\n    from tdse1d.io import store\n"),
+    ("tdse1d.physics.grid", "def f():\n    from tdse1d.io import result_file\n"),
     # spectra importing the package api (the facade above everything)
     ("tdse1d.spectra.harmonic", "from .. import api\n"),
     # analysis importing a writer of files
-    ("tdse1d.analysis.report", "import tdse1d.io.store\n"),
+    ("tdse1d.analysis.report", "import tdse1d.io.result_file\n"),
     # the core importing a file library, lazily
     ("tdse1d.semiclassical.estimates", "def f():\n    import h5py\n"),
     ("tdse1d.spectra.cutoff", "from matplotlib import pyplot\n"),
@@ -184,8 +183,8 @@ def test_the_checker_flags_a_planted_bad_import(module, source):
 
 @pytest.mark.parametrize("module, source", [
     ("tdse1d.physics.grid", "from .. import units\nfrom ..registry import registrar\nimport numpy\n"),
-    ("tdse1d.cli.run", "def f():\n    from .. import api\n    from ..io import store\n    import h5py\n"),
-    ("tdse1d.io.store", "import h5py\nfrom ..physics import grid\nfrom .. import __version__\n"),
+    ("tdse1d.cli.run", "def f():\n    from .. import api\n    from ..io import result_file\n    import h5py\n"),
+    ("tdse1d.io.result_file", "import h5py\nfrom ..physics import grid\nfrom .. import __version__\n"),
 ])
 def test_the_checker_passes_allowed_imports(module, source):
     assert layer_violations(source, module) == []

@@ -23,7 +23,7 @@ from tdse1d.input.spec import InputError
 from tdse1d.input.schema import load_input
 from tdse1d.input.problem import build_problem
 from tdse1d.run.runner import RunControl, RunInterrupted
-from tdse1d.io.store import is_complete
+from tdse1d.io.result_file import is_complete
 
 SMALL = """
 [atom]

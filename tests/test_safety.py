@@ -23,7 +23,8 @@ import pytest
 from tdse1d.cli import program as cli
 from tdse1d.scan import execute as scan
 from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
-from tdse1d.io.store import is_complete, lock_path
+from tdse1d.io.result_file import is_complete
+from tdse1d.io.guarded_file import lock_path
 
 BASE = """
 [atom]
@@ -293,7 +294,7 @@ def test_job_array_task_of_a_point_being_written_is_refused(tmp_path, capsys):
     point = scan.load_plan(plan_path).points[0]
     result = out / "points" / f"{point.hash}.h5"
     result.parent.mkdir(parents=True)
-    holder = _holder_process(f"import sys\nfrom tdse1d.io.store import WriterLock\n"
+    holder = _holder_process(f"import sys\nfrom tdse1d.io.guarded_file import WriterLock\n"
                              f"lock = WriterLock({str(lock_path(result))!r}).acquire()")
     try:
         assert cli.main(["scan", str(plan_path), "-o", str(out), "--point", "0", "--quiet"]) == 1
@@ -327,7 +328,7 @@ def test_a_point_file_missing_data_is_not_skipped(tmp_path):
 def test_full_disk_while_writing_the_summary_keeps_the_earlier_one(tmp_path, monkeypatch):
     import errno
 
-    from tdse1d.io import store
+    from tdse1d.io import guarded_file
     from tdse1d.scan.summary import write_summary
 
     plan = scan.load_plan(_plan(tmp_path))
@@ -339,7 +340,7 @@ def test_full_disk_while_writing_the_summary_keeps_the_earlier_one(tmp_path, mon
     def full(fd, data, offset):
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
-    monkeypatch.setattr(store.os, "pwrite", full)
+    monkeypatch.setattr(guarded_file.os, "pwrite", full)
     with pytest.raises(OSError) as info:
         write_summary(plan, out)
     assert info.value.errno == errno.ENOSPC

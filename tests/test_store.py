@@ -17,12 +17,13 @@ import pytest
 
 from tdse1d import api
 from tdse1d.cli import program as cli
-from tdse1d.io import store
+from tdse1d.io import guarded_file, result_file
 from tdse1d.input.spec import InputError
 from tdse1d.input.schema import load_input
 from tdse1d.errors import OutputBusy, OutputError
 from tdse1d.input.problem import build_problem
-from tdse1d.io.store import ResultWriter, WriterLock, is_complete, lock_path
+from tdse1d.io.result_file import ResultWriter, is_complete
+from tdse1d.io.guarded_file import WriterLock, lock_path
 
 SMALL = """
 [atom]
@@ -106,7 +107,7 @@ def test_concurrent_runs_of_one_input_leave_one_whole_file(tmp_path):
     assert first.returncode == 0, err
     assert is_complete(out) and not lock_path(out).exists()
     with h5py.File(out, "r") as f:
-        assert store.content_problems(f) == []
+        assert result_file.content_problems(f) == []
         # the early datasets were not truncated away: the run starts normalised
         assert abs(f["observables/norm"][0] - 1) < 1e-10 and np.any(f["observables/dipole"][()] != 0)
 
@@ -248,7 +249,7 @@ def _fail_writes_after(monkeypatch, calls: int, code: int):
             raise OSError(code, os.strerror(code))
         return real(fd, data, offset)
 
-    monkeypatch.setattr(store.os, "pwrite", pwrite)
+    monkeypatch.setattr(guarded_file.os, "pwrite", pwrite)
     return count
 
 
@@ -298,7 +299,7 @@ def test_read_only_file_system_is_one_line(problem, tmp_path, monkeypatch):
     def refuse(path, exclusive=True):
         raise OSError(errno.EROFS, os.strerror(errno.EROFS), str(path))
 
-    monkeypatch.setattr(store.GuardedFile, "create", staticmethod(refuse))
+    monkeypatch.setattr(guarded_file.GuardedFile, "create", staticmethod(refuse))
     steps = []
     with pytest.raises(OutputError, match="Read-only file system") as info:
         api.run_problem(problem, tmp_path / "ro.h5", progress=lambda k, n: steps.append(k))

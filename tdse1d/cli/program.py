@@ -252,7 +252,7 @@ def _main(argv, debug) -> int:
     except OSError as exc:  # a file that cannot be written or read (read-only, full disk...)
         if debug:
             raise
-        from ..io.store import describe_os_error
+        from ..io.guarded_file import describe_os_error
 
         print(f"tdse1d: error: {describe_os_error(exc, action=None)}", file=sys.stderr)
         return EXIT_FAILURE

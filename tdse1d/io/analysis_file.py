@@ -20,7 +20,7 @@ import numpy as np
 
 from .. import units
 from ..analysis.run_analysis import PHOTOELECTRON_METHOD_ORDER, RunAnalysis, _Inputs, _analyse, _pulse_rows
-from .store import write_dataset
+from .result_file import write_dataset
 
 
 def _file_pulses(h5file):

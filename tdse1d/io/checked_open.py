@@ -58,7 +58,7 @@ def check_result(path, kinds=None, needs=None) -> str:
     """
     import h5py
 
-    from .store import COMPLETE_ATTR
+    from .guarded_file import COMPLETE_ATTR
 
     source = str(path)
     p = Path(path)

@@ -92,7 +92,7 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
     tmp = path.with_name(path.name + ".tmp")
     # through a GuardedFile: a full disk raises OSError here (tmp removed, the previous
     # checkpoint intact) instead of leaving the HDF5 library in a state that crashes at exit
-    from ..io.store import new_hdf5
+    from ..io.guarded_file import new_hdf5
 
     with new_hdf5(tmp) as f:
         f.attrs["format"] = _FORMAT
@@ -184,7 +184,7 @@ def read_checkpoint(path, digest: str | None = None):
 
 
 class CheckpointSink:
-    """A run's sink that also writes checkpoints: wraps a :class:`~tdse1d.io.store.ResultWriter`.
+    """A run's sink that also writes checkpoints: wraps a :class:`~tdse1d.io.result_file.ResultWriter`.
 
     Snapshots go to the writer; :meth:`checkpoint` copies the snapshots stored so far
     from the writer's open file into the checkpoint with the run state.

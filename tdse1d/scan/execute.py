@@ -32,7 +32,7 @@ is refused unless the user starts afresh.
 
 One writer at a time: :func:`run_scan` holds ``SCAN_DIR/scan.lock`` for the whole scan
 (a second scan of the same directory is refused at once, naming the holder), and every
-point file is written under its own lock (:class:`tdse1d.io.store.WriterLock`), so a
+point file is written under its own lock (:class:`tdse1d.io.guarded_file.WriterLock`), so a
 job-array task (:func:`run_one`) never writes a point that another process is writing.
 A SIGTERM or SIGINT reaching a process that runs points (a Dask worker, a job-array
 task) makes each of its runs write its checkpoint and stop (:func:`install_stop_handlers`).
@@ -653,14 +653,14 @@ class ScanDirectory:
 
     def lock(self) -> "WriterLock":
         """The directory's lock, taken: :class:`~tdse1d.errors.OutputBusy` if another scan holds it."""
-        from ..io.store import WriterLock
+        from ..io.guarded_file import WriterLock
 
         self.root.mkdir(parents=True, exist_ok=True)
         return WriterLock(self.lock_file, what=f"the scan directory {str(self.root)!r}", purpose="tdse1d scan").acquire()
 
     def writer_of(self, point: ScanPoint):
-        """The live process writing ``point`` (a :class:`~tdse1d.io.store.LockHolder`), or None."""
-        from ..io.store import WriterLock, lock_path
+        """The live process writing ``point`` (a :class:`~tdse1d.io.guarded_file.LockHolder`), or None."""
+        from ..io.guarded_file import WriterLock, lock_path
 
         return WriterLock.holder(lock_path(self.result(point)))
 
@@ -673,7 +673,7 @@ class ScanDirectory:
             If a point is being written by a live process (nothing is deleted).
         """
         from ..errors import OutputBusy
-        from ..io.store import WriterLock
+        from ..io.guarded_file import WriterLock
 
         if self.points.exists():
             for lock in self.points.glob("*.h5.lock"):
@@ -711,11 +711,11 @@ def _write_atomic(path: Path, text: str) -> None:
 
 def result_matches(path, expected_hash: str) -> bool:
     """True if ``path`` is a complete result file of the input named ``expected_hash``
-    holding every dataset of the contract with its shape (:func:`tdse1d.io.store.content_problems`),
+    holding every dataset of the contract with its shape (:func:`tdse1d.io.result_file.content_problems`),
     and its data are readable, not only its header."""
     import h5py
 
-    from ..io.store import content_problems, is_complete
+    from ..io.result_file import content_problems, is_complete
 
     if not is_complete(path):
         return False

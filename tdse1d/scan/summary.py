@@ -25,7 +25,8 @@ import numpy as np
 
 from .. import __version__, units
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
-from ..io.store import new_hdf5, write_dataset
+from ..io.guarded_file import new_hdf5
+from ..io.result_file import write_dataset
 
 __all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
 
