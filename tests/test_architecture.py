@@ -49,7 +49,6 @@ CORE_FORBIDDEN = ("h5py", "matplotlib", "dask", "distributed", "tomllib", "tomli
 MAX_LINES = 500
 #: modules allowed to be longer, with the reason
 LONG_MODULES = {
-    "tdse1d.scan.execute": "several subjects (plan, directory, execution); to be split",
     "tdse1d.validate": "case kinds, runner and report in one module; to be split into a package",
 }
 

@@ -40,11 +40,14 @@ def _scan_dir(args):
 
 
 def main(args):
-    from ..scan import execute as scan
+    from ..scan.directory import PlanMismatch, ScanDirectory
+    from ..scan.execute import SchedulerUnreachable, run_one, run_scan
+    from ..scan.plan import load_plan
+    from ..scan.worker import install_stop_handlers, remove_stop_handlers
     from ..scan.summary import write_summary
 
-    plan = scan.load_plan(args.plan)  # PlanError (exit 2) lists every bad point
-    directory = scan.ScanDirectory(_scan_dir(args))
+    plan = load_plan(args.plan)  # PlanError (exit 2) lists every bad point
+    directory = ScanDirectory(_scan_dir(args))
     say = (lambda *a: None) if args.quiet else (lambda *a: print(*a))
     if args.list:
         for p in plan.points:
@@ -59,16 +62,16 @@ def main(args):
                 raise InputError("--fresh with --point would delete the points of the other array tasks; "
                                  "clear the directory once before submitting the array", "--fresh", args.plan)
             # the run is in this (main) thread: SIGTERM/SIGINT stop it with a checkpoint
-            scan.install_stop_handlers(redeliver=False)
+            install_stop_handlers(redeliver=False)
             try:
-                report = scan.run_one(plan, directory.root, args.point, fresh=args.fresh,
+                report = run_one(plan, directory.root, args.point, fresh=args.fresh,
                                       retry_failed=True)
             except IndexError as exc:
                 from ..input.spec import InputError
 
                 raise InputError(str(exc), "--point", args.plan) from None
             finally:
-                scan.remove_stop_handlers()
+                remove_stop_handlers()
             for k, err in report.failed.items():
                 print(f"tdse1d: point {k} failed: {err}", file=sys.stderr)
             for k, err in report.busy.items():
@@ -85,7 +88,7 @@ def main(args):
                 say(f"point {args.point} done in {report.wall:.1f} s -> {directory.result(plan.points[args.point])}")
             return 0 if report.ok else 1
         if not args.gather:
-            report = scan.run_scan(plan, directory.root, scheduler=args.scheduler, timeout=args.timeout,
+            report = run_scan(plan, directory.root, scheduler=args.scheduler, timeout=args.timeout,
                                    workers=args.workers,
                                    dashboard=args.dashboard, fresh=args.fresh, retry_failed=args.retry_failed,
                                    progress=not args.quiet)
@@ -106,9 +109,9 @@ def main(args):
             with directory.lock():  # not while a scan is writing into the directory
                 directory.claim(plan, fresh=False)
                 summary = write_summary(plan, directory.root)
-    except scan.PlanMismatch as exc:
+    except PlanMismatch as exc:
         raise CommandError(str(exc)) from None
-    except scan.SchedulerUnreachable as exc:
+    except SchedulerUnreachable as exc:
         raise CommandError(f"{exc}; nothing was run") from None
     missing = [p.index for p in plan.points if directory.state(p) != "done"]
     say(f"wrote {summary.path} ({len(plan.points) - len(missing)} of {len(plan.points)} points)")

@@ -1,6 +1,6 @@
 """``summary.h5`` of a scan: per-point spectra on one photon-energy grid, cutoffs, yields, fit.
 
-:func:`write_summary` reads the finished point files of a :class:`~tdse1d.scan.execute.ScanPlan`
+:func:`write_summary` reads the finished point files of a :class:`~tdse1d.scan.plan.ScanPlan`
 and writes ``SCAN_DIR/summary.h5`` (root attribute ``kind = "scan-summary"``); the
 layout is listed in ``docs/scans.md``. Points without a finished file are kept as rows
 of NaN with ``/points/complete`` False, so a partial scan can be looked at.
@@ -163,7 +163,7 @@ def write_summary(plan, directory) -> Summary:
 
     Parameters
     ----------
-    plan : tdse1d.scan.execute.ScanPlan
+    plan : tdse1d.scan.plan.ScanPlan
     directory : path
         The scan directory.
 
@@ -171,7 +171,7 @@ def write_summary(plan, directory) -> Summary:
     -------
     Summary
     """
-    from .execute import ScanDirectory
+    from .directory import ScanDirectory
 
     sd = ScanDirectory(directory)
     n = len(plan.points)
