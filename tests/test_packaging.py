@@ -12,6 +12,7 @@ import pytest
 
 from tdse1d.cli import program as cli
 from tdse1d import validate
+from tdse1d.validate import cases
 from tdse1d.input.spec import tomllib
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -72,7 +73,7 @@ def test_installed_layout_finds_the_cases(tmp_path):
 
 def test_no_cases_found_is_one_line(tmp_path, capsys, monkeypatch):
     # the package without its cases (as a wheel built without package data was)
-    monkeypatch.setattr(validate, "case_dirs_searched", lambda: [tmp_path / "a", tmp_path / "b"])
+    monkeypatch.setattr(cases, "case_dirs_searched", lambda: [tmp_path / "a", tmp_path / "b"])
     assert cli.main(["validate", "-o", str(tmp_path / "r")]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "no validation cases found" in err and str(tmp_path / "a") in err
