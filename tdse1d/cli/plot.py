@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..plots import run_figures as plots, scan_figures as scan_plots
+from ..plots import run_figures, scan_figures
 from ..input.spec import InputError
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
@@ -36,14 +36,14 @@ def _analysis(f, cache):
 
 
 def _field(f, cache):
-    return plots.field_figure(f["field/time"][()], f["field/electric"][()], f["field/vector_potential"][()])
+    return run_figures.field_figure(f["field/time"][()], f["field/electric"][()], f["field/vector_potential"][()])
 
 
 def _density(f, cache):
     if "snapshots/psi" not in f or f["snapshots/psi"].shape[0] == 0:
         raise InputError("the file holds no wavefunction snapshots ([output] snapshots = 0)", "--what")
     psi = f["snapshots/psi"][()]
-    return plots.density_figure(f["snapshots/time"][()], f["snapshots/x"][()], np.abs(psi) ** 2,
+    return run_figures.density_figure(f["snapshots/time"][()], f["snapshots/x"][()], np.abs(psi) ** 2,
                                 f["field/time"][()], f["field/electric"][()])
 
 
@@ -55,7 +55,7 @@ def _harmonic(f, cache):
     if a.three_step is not None:
         cutoffs.append(("three-step model", a.three_step.cutoff_energy))
     cutoffs.append(("read off", a.harmonic_cutoff))
-    return plots.harmonic_figure(g["frequency"][()], g["power"][()], a.omega0, cutoffs)
+    return run_figures.harmonic_figure(g["frequency"][()], g["power"][()], a.omega0, cutoffs)
 
 
 def _time_frequency(f, cache):
@@ -65,7 +65,7 @@ def _time_frequency(f, cache):
         raise InputError("no time-frequency map: the run has no field", "--what")
     s = a.three_step
     branches = [("short", s.short_branch), ("long", s.long_branch)] if s is not None else []
-    return plots.time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
+    return run_figures.time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
                                        s.cutoff_energy if s is not None else math.nan,
                                        f["field/time"][()], f["field/electric"][()])
 
@@ -86,12 +86,12 @@ def _photoelectron(f, cache):
         marks = [("2 Up", 2 * up), ("10 Up", 10 * up)]
         if a.edges is not None:
             marks += [("direct edge read off", a.edges.direct), ("backscattered edge read off", a.edges.backscattered)]
-    return plots.photoelectron_figure(g["energy"][()], g["energy_density_left"][()], g["energy_density_right"][()],
+    return run_figures.photoelectron_figure(g["energy"][()], g["energy_density_left"][()], g["energy_density_right"][()],
                                       marks, title=f"photoelectron spectrum ({method.replace('_', ' ')})")
 
 
 def _populations(f, cache):
-    return plots.populations_figure(f["observables/time"][()], f["observables/norm"][()],
+    return run_figures.populations_figure(f["observables/time"][()], f["observables/norm"][()],
                                     f["observables/population_time"][()], f["observables/bound_population"][()])
 
 
@@ -105,7 +105,7 @@ KINDS = {
         "photoelectron": _photoelectron,
         "populations": _populations,
     },
-    "scan-summary": scan_plots.FIGURES,
+    "scan-summary": scan_figures.FIGURES,
 }
 
 
