@@ -14,7 +14,7 @@ import sys
 from pathlib import Path
 
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from tdse1d.cli import program as cli
@@ -161,6 +161,7 @@ values = st.one_of(
 
 @settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(key=st.sampled_from(NUMERIC_KEYS), value=values)
+@example(key="propagation.order", value="[]")  # an array for a choice: once a TypeError traceback
 def test_random_values_never_crash(key, value, tmp_path_factory, capsys):
     path = tmp_path_factory.mktemp("prop") / "in.toml"
     path.write_text(GOOD)

@@ -165,8 +165,10 @@ def _read_value(raw, spec: Spec, path: str):
         return raw
     if kind == "choice":
         options = spec.allowed_choices()
-        if not isinstance(raw, bool) and raw in dict(spec.retired):
-            raise InputError(dict(spec.retired)[raw], path)
+        retired = dict(spec.retired)
+        # a TOML array or table given for a choice is unhashable: refused below, not looked up
+        if not isinstance(raw, (bool, list, dict)) and raw in retired:
+            raise InputError(retired[raw], path)
         if isinstance(raw, bool) or raw not in options:
             near = difflib.get_close_matches(str(raw), list(map(str, options)), n=1)
             hint = f" (did you mean '{near[0]}'?)" if near else ""
