@@ -1,6 +1,6 @@
 """The package's layers, checked on the source: every module imports only from its own
-layer or lower ones, the numerical core (physics, spectra, semiclassical) imports no
-file, plotting or cluster library, and no module is longer than MAX_LINES.
+layer or lower ones, the numerical core (physics, spectra, semiclassical, and the
+analysis of a run) imports no file, plotting or cluster library, and no module is longer than MAX_LINES.
 
 Imports are read from the syntax tree of every module, including the imports inside
 functions (the lazy imports that keep the command line light), so a late import
@@ -42,8 +42,9 @@ LAYERS = (
 )
 
 #: the numerical core computes on arrays; files, figures, clusters and input parsing
-#: belong to the layers above it
-CORE = ("tdse1d.physics", "tdse1d.spectra", "tdse1d.semiclassical")
+#: belong to the layers above it. The analysis of a run is numerics too: the file it
+#: is read from and stored in is handled by tdse1d.io.analysis_file.
+CORE = ("tdse1d.physics", "tdse1d.spectra", "tdse1d.semiclassical", "tdse1d.analysis")
 CORE_FORBIDDEN = ("h5py", "matplotlib", "dask", "distributed", "tomllib", "tomli", "tomli_w")
 
 #: a module longer than this holds more than one subject (common practice, no source)
@@ -181,6 +182,7 @@ def test_every_package_is_shipped():
     ("tdse1d.semiclassical.estimates", "def f():\n    import h5py\n"),
     ("tdse1d.spectra.cutoff", "from matplotlib import pyplot\n"),
     ("tdse1d.physics.states", "def f():\n    import tomllib\n"),
+    ("tdse1d.analysis.run_analysis", "import h5py\n"),
 ])
 def test_the_checker_flags_a_planted_bad_import(module, source):
     assert len(layer_violations(source, module)) == 1
