@@ -16,10 +16,10 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .config import RunConfig, load_input
-from .estimates import GridAdvice, PulseEstimate, estimates_json
-from .problem import Problem, build_problem
-from .states import BoundStates
+from .input.schema import RunConfig, load_input
+from .semiclassical.estimates import GridAdvice, PulseEstimate, estimates_json
+from .input.problem import Problem, build_problem
+from .physics.states import BoundStates
 
 __all__ = ["load_input", "find_states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
 
@@ -81,7 +81,7 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
 
 
 def estimate(config: RunConfig | str) -> EstimateResult:
-    """Semiclassical estimates for the input's pulses (see :mod:`tdse1d.estimates`)."""
+    """Semiclassical estimates for the input's pulses (see :mod:`tdse1d.semiclassical.estimates`)."""
     if not isinstance(config, RunConfig):
         config = load_input(config)
     return EstimateResult(build_problem(config, with_states=False))
@@ -167,10 +167,10 @@ def run(config: RunConfig | str, output=None, progress=None, overrides=(), resum
     progress : callable, optional
         ``progress(step, steps)``.
     resume : bool
-        Continue from the checkpoint ``OUTPUT.checkpoint`` (see :mod:`tdse1d.checkpoint`)
+        Continue from the checkpoint ``OUTPUT.checkpoint`` (see :mod:`tdse1d.run.checkpoint`)
         if there is one (a run from the start otherwise); a checkpoint of a different
         input raises InputError.
-    control : tdse1d.runner.RunControl, optional
+    control : tdse1d.run.runner.RunControl, optional
         Checkpoint cadence and stop requests; by default the input's
         ``output.checkpoint_interval`` (if any) sets the cadence.
     strict : bool
@@ -182,7 +182,7 @@ def run(config: RunConfig | str, output=None, progress=None, overrides=(), resum
 
     Raises
     ------
-    tdse1d.runner.RunInterrupted
+    tdse1d.run.runner.RunInterrupted
         When ``control`` asked to stop; the checkpoint is written, the partial file removed.
     """
     if not isinstance(config, RunConfig):
@@ -191,9 +191,9 @@ def run(config: RunConfig | str, output=None, progress=None, overrides=(), resum
 
 
 def default_control(config: RunConfig):
-    """A :class:`~tdse1d.runner.RunControl` with the input's checkpoint interval (in s)."""
+    """A :class:`~tdse1d.run.runner.RunControl` with the input's checkpoint interval (in s)."""
     from . import units
-    from .runner import RunControl
+    from .run.runner import RunControl
 
     interval = config.output.checkpoint_interval
     return RunControl(None if interval is None else interval * units.AU_TIME_S)
@@ -201,19 +201,20 @@ def default_control(config: RunConfig):
 
 def run_problem(problem: Problem, output=None, progress=None, resume=False, control=None,
                 strict=False) -> RunOutcome:
-    """:func:`run` for an already assembled :class:`~tdse1d.problem.Problem`."""
-    from .checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
-    from .propagate import NumericalError
-    from .problem import check_absorber
-    from .resources import check_resources
-    from .runner import simulate, snapshot_steps
-    from .store import ResultWriter
+    """:func:`run` for an already assembled :class:`~tdse1d.input.problem.Problem`."""
+    from .run.checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
+    from .physics.propagation import NumericalError
+    from .input.problem import check_absorber
+    from .run.resources import check_resources
+    from .run.runner import simulate, snapshot_steps
+    from .io.result_file import ResultWriter
 
     if strict and problem.warnings:
         raise NumericalError(f"before the run: {problem.warnings[0]}", 0, problem.time.start)
-    from .config import InputError
+    from .input.spec import InputError
     from .errors import OutputError
-    from .store import describe_os_error, refuse_reason
+    from .io.guarded_file import describe_os_error
+    from .io.result_file import refuse_reason
 
     path = output_path(problem.config, output)
     reason = refuse_reason(path)
@@ -241,7 +242,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
             # a stop request from here on comes after the last step: the analysis and the
             # writing take a small fraction of the run, so the run finishes (docs/checkpoints.md)
             _hold("analysis", control)
-            from .analysis import analyse_run, write_analysis
+            from .analysis.run_analysis import analyse_run
+            from .io.analysis_file import write_analysis
 
             try:  # the comparison must never cost the run itself
                 analysis = analyse_run(problem, result)

@@ -1,7 +1,7 @@
 """Shared test set-up: keep the suite away from the user's files.
 
 Runs made by the tests (in this process, in ``python -m tdse1d.cli`` subprocesses and
-in scan workers) keep FFTW wisdom in a cache directory. :func:`tdse1d.wisdom.wisdom_path`
+in scan workers) keep FFTW wisdom in a cache directory. :func:`tdse1d.io.wisdom.wisdom_path`
 places it under ``$XDG_CACHE_HOME``; the fixture below points that variable at a
 temporary directory for the whole session, before any test runs, so no test reads a
 user's wisdom or writes into their cache. The variable is inherited by subprocesses.

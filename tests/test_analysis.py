@@ -27,8 +27,9 @@ import pytest
 import scipy.constants as sc
 
 from tdse1d import analysis, api
-from tdse1d.commands import export, plot, report
-from tdse1d.config import load_input
+from tdse1d.io import analysis_file
+from tdse1d.cli import export, plot, report
+from tdse1d.input.schema import load_input
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
 
@@ -82,7 +83,7 @@ def infrared(tmp_path_factory):
     text = HYDROGEN + IR.format(intensity="1.4e14 W/cm^2", cycles=4) + _grid(1536, 0.25, 30.0, "0.5 fs", 0.05)
     outcome = _run(tmp_path_factory, "infrared", text)
     with h5py.File(outcome.path) as f:
-        return outcome, analysis.analyse_file(f)
+        return outcome, analysis_file.analyse_file(f)
 
 
 def _spectrum(path, method):
@@ -161,7 +162,7 @@ def infrared_weaker(tmp_path_factory):
     text = HYDROGEN + IR.format(intensity="1.0e14 W/cm^2", cycles=4) + _grid(768, 0.25, 30.0, "0.5 fs", 0.05)
     outcome = _run(tmp_path_factory, "infrared_weaker", text)
     with h5py.File(outcome.path) as f:
-        return outcome, analysis.analyse_file(f)
+        return outcome, analysis_file.analyse_file(f)
 
 
 @pytest.fixture(scope="module")
@@ -170,7 +171,7 @@ def infrared_vanishing(tmp_path_factory):
     text = HYDROGEN + IR.format(intensity="1e6 W/cm^2", cycles=4) + _grid(768, 0.25, 30.0, "0.5 fs", 0.05)
     outcome = _run(tmp_path_factory, "infrared_vanishing", text)
     with h5py.File(outcome.path) as f:
-        return outcome, analysis.analyse_file(f)
+        return outcome, analysis_file.analyse_file(f)
 
 
 @pytest.mark.xfail(strict=True, reason="measured: the backscattered edge reads 1.195 of its classical value at "
@@ -224,7 +225,7 @@ def test_the_vanishing_intensity_spectrum_is_the_field_companion(infrared_vanish
         floor = f["spectra/harmonic/noise_floor_log10"][()]
         assert f["spectra/harmonic/noise_floor_log10"].attrs["units"] == "log10(atomic_units)"
         assert f["spectra/photoelectron/edges/noise_floor_log10"].attrs["units"] == "log10(1/hartree)"
-    from tdse1d.spectra import running_mean
+    from tdse1d.spectra.cutoff import running_mean
 
     smoothed = running_mean(w, np.log10(p), weak.omega0)
     far = w >= 2.0  # hartree: four times Ip
@@ -394,7 +395,7 @@ def test_plot_writes_pdf_and_svg_and_rejects_other_formats(example_runs, tmp_pat
         out = tmp_path / f"fig{suffix}"
         assert plot.main(_args(plot, [str(path), "--what", "photoelectron", "-o", str(out)])) == 0
         assert out.stat().st_size > 5_000
-    from tdse1d.config import InputError
+    from tdse1d.input.spec import InputError
 
     with pytest.raises(InputError, match="format"):
         plot.main(_args(plot, [str(path), "--what", "field", "-o", str(tmp_path / "fig.jpg")]))

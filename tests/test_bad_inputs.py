@@ -14,10 +14,10 @@ import sys
 from pathlib import Path
 
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
-from tdse1d import cli
+from tdse1d.cli import program as cli
 
 HERE = Path(__file__).parent / "bad_inputs"
 CASES = sorted(HERE.glob("*.toml"))
@@ -30,7 +30,7 @@ def _expected(path):
 
 
 def test_corpus_is_large_and_covers_every_key():
-    from tdse1d.config import _SECTIONS, AtomConfig, CentreConfig, LaserConfig
+    from tdse1d.input.schema import _SECTIONS, AtomConfig, CentreConfig, LaserConfig
     import dataclasses
 
     assert len(CASES) >= 40 and len(SCANS) >= 10
@@ -161,6 +161,7 @@ values = st.one_of(
 
 @settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(key=st.sampled_from(NUMERIC_KEYS), value=values)
+@example(key="propagation.order", value="[]")  # an array for a choice: once a TypeError traceback
 def test_random_values_never_crash(key, value, tmp_path_factory, capsys):
     path = tmp_path_factory.mktemp("prop") / "in.toml"
     path.write_text(GOOD)

@@ -5,7 +5,7 @@ import pytest
 from scipy.integrate import quad, solve_ivp, trapezoid
 from scipy.optimize import brentq
 
-from tdse1d import classical
+from tdse1d.semiclassical import three_step, tunnelling
 
 # ---------------------------------------------------------------------------
 # Fields and potentials built analytically here, independent of the package.
@@ -53,8 +53,8 @@ def flat_top():
 def flat_top_summary(flat_top):
     """Births inside the flat top whose first returns also lie inside it."""
     births = np.linspace(FLAT_START + 0.5 * PERIOD, FLAT_END - 2.0 * PERIOD, 350, endpoint=False)
-    traj = classical.trajectories(*flat_top, birth_times=births)
-    return traj, classical.summary(traj, 0.5)
+    traj = three_step.trajectories(*flat_top, birth_times=births)
+    return traj, three_step.summary(traj, 0.5)
 
 
 class SoftCore:
@@ -124,7 +124,7 @@ class Mirrored:
 def test_returns_agree_with_independent_ode_integration(flat_top):
     """Return times/energies against scipy's solve_ivp on the analytic field."""
     births = FLAT_START + PERIOD * np.array([0.01, 0.03, 0.05, 0.12, 0.2, 0.55, 0.7])
-    traj = classical.trajectories(*flat_top, birth_times=births, max_returns=2)
+    traj = three_step.trajectories(*flat_top, birth_times=births, max_returns=2)
 
     # Births and windows lie inside the flat top, where E = E0 cos(wt) exactly.
     def rhs(t, y):
@@ -166,10 +166,10 @@ def test_cutoff_is_3p17_up(flat_top_summary):
 
 def test_cutoff_with_default_births_over_whole_pulse(flat_top):
     """Default birth sampling still finds 3.17 Up (Corkum 1993)."""
-    traj = classical.trajectories(*flat_top)
+    traj = three_step.trajectories(*flat_top)
     spacing = np.diff(traj.birth_time)
     assert spacing.max() <= PERIOD / 20
-    assert classical.summary(traj, 0.5).max_return_energy / UP == pytest.approx(3.173, rel=5e-3)
+    assert three_step.summary(traj, 0.5).max_return_energy / UP == pytest.approx(3.173, rel=5e-3)
 
 
 def test_backscattered_drift_is_10_up(flat_top_summary):
@@ -213,14 +213,14 @@ def test_short_and_long_branch_emission_times(flat_top_summary):
 def test_rejects_flipped_sign_convention(flat_top):
     time, e, a = flat_top
     with pytest.raises(ValueError, match="sign convention"):
-        classical.trajectories(time, -e, a)
+        three_step.trajectories(time, -e, a)
 
 
 def test_rejects_incomplete_pulse(flat_top):
     time, e, a = flat_top
     cut = time.size // 2 + 37
     with pytest.raises(ValueError, match="vanish"):
-        classical.trajectories(time[:cut], e[:cut], a[:cut])
+        three_step.trajectories(time[:cut], e[:cut], a[:cut])
 
 
 # ---------------------------------------------------------------------------
@@ -231,7 +231,7 @@ def test_rejects_incomplete_pulse(flat_top):
 @pytest.mark.parametrize("depth, alpha, energy", [(2.0, 1.0, -0.5), (1.0, 0.7, -0.2), (5.0, 2.0, -4.0)])
 def test_classical_period_poschl_teller(depth, alpha, energy):
     """-V0 sech**2(alpha x): T = pi sqrt(2) / (alpha sqrt|E|), exact (independent of V0)."""
-    period = classical.classical_period(PoschlTeller(depth, alpha), energy)
+    period = tunnelling.classical_period(PoschlTeller(depth, alpha), energy)
     assert period == pytest.approx(np.pi * np.sqrt(2.0) / (alpha * np.sqrt(-energy)), rel=1e-9)
 
 
@@ -239,14 +239,14 @@ def test_rate_increases_with_field_and_saturates():
     """Monotonic in F; no barrier left above suppression, so Gamma = 1/T."""
     potential, energy = SoftCore(), -0.5
     fields = np.linspace(0.004, 0.12, 60)
-    rate = classical.tunnelling_rate(fields, potential, energy)
+    rate = tunnelling.tunnelling_rate(fields, potential, energy)
     assert np.all(rate > 0) and np.all(np.diff(rate) >= 0)
     assert rate[0] < 1e-60
-    suppression = classical.barrier_suppression_field(potential, energy)
-    period = classical.classical_period(potential, energy)
-    above = classical.tunnelling_rate(np.array([1.01, 2.0]) * suppression, potential, energy)
+    suppression = tunnelling.barrier_suppression_field(potential, energy)
+    period = tunnelling.classical_period(potential, energy)
+    above = tunnelling.tunnelling_rate(np.array([1.01, 2.0]) * suppression, potential, energy)
     np.testing.assert_allclose(above, 1.0 / period, rtol=1e-12)
-    assert classical.tunnelling_rate(0.0, potential, energy) == 0.0
+    assert tunnelling.tunnelling_rate(0.0, potential, energy) == 0.0
 
 
 @pytest.mark.parametrize("charge, ip", [(1.0, 0.5), (2.0, 2.0), (1.0, 0.9)])
@@ -254,7 +254,7 @@ def test_barrier_suppression_coulomb_limit(charge, ip):
     """Nearly Coulomb -Z/|x|: F_BSI -> Ip**2 / (4 Z) (common practice)."""
     potential = SoftCore(charges=(charge,), softening=1e-4)
     for sign in (1, -1):
-        field = classical.barrier_suppression_field(potential, -ip, field_sign=sign)
+        field = tunnelling.barrier_suppression_field(potential, -ip, field_sign=sign)
         assert field == pytest.approx(ip ** 2 / (4.0 * charge), rel=1e-6)
 
 
@@ -266,8 +266,8 @@ def test_wkb_exponent_exact_for_linear_ramp(field):
     the short stretch inside the well is integrated with scipy's quad.
     """
     well, ip = CompactWell(depth=1.0, width=1.0), 0.5
-    period = classical.classical_period(well, -ip)
-    exponent = -np.log(classical.tunnelling_rate(field, well, -ip) * period)
+    period = tunnelling.classical_period(well, -ip)
+    exponent = -np.log(tunnelling.tunnelling_rate(field, well, -ip) * period)
 
     def excess(x):
         return well.value(np.array([x]))[0] + field * x + ip
@@ -283,9 +283,9 @@ def test_wkb_exponent_weak_field_keldysh_limit():
     """Short-range well, weak field: exponent -> (2/3) (2 Ip)**1.5 / F
     (Keldysh, Sov. Phys. JETP 20, 1307 (1965), from memory)."""
     well, ip = CompactWell(depth=1.0, width=0.5), 0.5
-    period = classical.classical_period(well, -ip)
+    period = tunnelling.classical_period(well, -ip)
     fields = np.array([0.004, 0.002])
-    exponent = -np.log(classical.tunnelling_rate(fields, well, -ip) * period)
+    exponent = -np.log(tunnelling.tunnelling_rate(fields, well, -ip) * period)
     ratio = exponent * fields / ((2.0 / 3.0) * (2.0 * ip) ** 1.5)
     assert np.all(np.abs(ratio - 1.0) < 5e-3)
     assert abs(ratio[1] - 1.0) < abs(ratio[0] - 1.0)
@@ -295,8 +295,8 @@ def test_rate_parity():
     """Mirroring the potential and the field leaves the rate unchanged (parity)."""
     molecule, energy = SoftCore(centres=(-1.0, 1.5), charges=(1.0, 0.6), softening=1.0), -0.7
     fields = np.array([-0.06, -0.03, 0.03, 0.06])
-    direct = classical.tunnelling_rate(fields, molecule, energy)
-    mirrored = classical.tunnelling_rate(-fields, Mirrored(molecule), energy)
+    direct = tunnelling.tunnelling_rate(fields, molecule, energy)
+    mirrored = tunnelling.tunnelling_rate(-fields, Mirrored(molecule), energy)
     np.testing.assert_allclose(direct, mirrored, rtol=1e-9)
     # The molecule is asymmetric, so the two field signs must differ.
     assert abs(direct[0] / direct[3] - 1.0) > 1e-2
@@ -306,8 +306,8 @@ def test_yield_constant_field():
     """Constant field: P(t) = 1 - exp(-Gamma t), exact."""
     potential, energy, field = SoftCore(), -0.5, 0.045
     time = np.linspace(0.0, 300.0, 301)
-    probability = classical.tunnelling_yield(time, np.full_like(time, field), potential, energy)
-    rate = classical.tunnelling_rate(field, potential, energy)
+    probability = tunnelling.tunnelling_yield(time, np.full_like(time, field), potential, energy)
+    rate = tunnelling.tunnelling_rate(field, potential, energy)
     np.testing.assert_allclose(probability, -np.expm1(-rate * time), rtol=1e-6, atol=1e-15)
 
 
@@ -316,11 +316,11 @@ def test_yield_matches_direct_rate_quadrature():
     molecule, energy = SoftCore(centres=(-1.0, 1.5), charges=(1.0, 0.6), softening=1.0), -0.7
     time = np.linspace(0.0, 4.0 * PERIOD, 241)
     electric = 0.07 * np.sin(np.pi * time / time[-1]) ** 2 * np.cos(OMEGA * time)
-    probability = classical.tunnelling_yield(time, electric, molecule, energy)
+    probability = tunnelling.tunnelling_yield(time, electric, molecule, energy)
     assert np.all(np.diff(probability) >= 0) and 0.0 < probability[-1] < 1.0
-    rate = classical.tunnelling_rate(electric, molecule, energy)
+    rate = tunnelling.tunnelling_rate(electric, molecule, energy)
     expected = -np.expm1(-trapezoid(rate, time))
     assert probability[-1] == pytest.approx(expected, rel=1e-5)
     # Parity: the mirrored molecule in the reversed field ionizes identically.
-    mirrored = classical.tunnelling_yield(time, -electric, Mirrored(molecule), energy)
+    mirrored = tunnelling.tunnelling_yield(time, -electric, Mirrored(molecule), energy)
     np.testing.assert_allclose(mirrored, probability, rtol=1e-9, atol=1e-300)

@@ -18,8 +18,9 @@ import numpy as np
 import pytest
 import scipy.constants as sc
 
-from tdse1d import cli
-from tdse1d.config import parse_override, tomllib
+from tdse1d.cli import program as cli
+from tdse1d.input.spec import parse_override
+from tdse1d.input.spec import tomllib
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
 HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]
@@ -339,7 +340,7 @@ def test_every_input_key_is_documented():
     import dataclasses
     import re
 
-    from tdse1d import config
+    from tdse1d.input import schema as config
 
     text = (INPUTS.parent / "docs" / "input.md").read_text()
     tables = {
@@ -414,7 +415,7 @@ def test_ctrl_c_at_any_moment_is_one_line_and_exit_130(where, workdir, capsys, m
     elif where == "parse":
         monkeypatch.setattr(cli._Parser, "parse_args", _interrupting)
     else:
-        from tdse1d.commands import states
+        from tdse1d.cli import states
 
         monkeypatch.setattr(states, "main", _interrupting)
     assert cli.main(["states", "case.toml"]) == 130
@@ -428,7 +429,7 @@ def test_ctrl_c_in_a_real_process_while_it_starts(tmp_path):
     handshake: the child raises the interrupt itself from inside the import of the
     command module (the slow step that follows the first second), no timing involved."""
     code = ("import signal, os, sys, importlib\n"
-            "import tdse1d.cli as cli\n"
+            "import tdse1d.cli.program as cli\n"
             "real = importlib.import_module\n"
             "def slow_import(name, *a):\n"
             "    os.kill(os.getpid(), signal.SIGINT)\n"

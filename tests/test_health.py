@@ -6,11 +6,11 @@ import os
 import h5py
 import pytest
 
-from tdse1d import cli
-from tdse1d.config import load_input
-from tdse1d.problem import build_problem
-from tdse1d.propagate import NumericalError
-from tdse1d.runner import simulate
+from tdse1d.cli import program as cli
+from tdse1d.input.schema import load_input
+from tdse1d.input.problem import build_problem
+from tdse1d.physics.propagation import NumericalError
+from tdse1d.run.runner import simulate
 
 BASE = """
 [atom]
@@ -90,7 +90,7 @@ def test_runs_keep_wisdom_out_of_the_user_cache(tmp_path, monkeypatch, user_cach
     """The suite's autouse fixture (conftest.py) sends FFTW wisdom to a private cache: a
     run through the command line writes it there and leaves the user's cache as it was.
     Without the fixture the run below writes (or replaces) the user's file and this fails."""
-    from tdse1d import wisdom
+    from tdse1d.io import wisdom
 
     monkeypatch.delenv("TDSE1D_NO_WISDOM", raising=False)
     with monkeypatch.context() as m:

@@ -5,13 +5,13 @@ import numpy as np
 import pytest
 from scipy.special import zeta
 
-from tdse1d.config import parse_input
-from tdse1d.grid import Grid
-from tdse1d.ionization import _parity, ionization
-from tdse1d.potentials import Centre, SoftCore
-from tdse1d.problem import build_problem
-from tdse1d.runner import simulate
-from tdse1d.states import bound_states
+from tdse1d.input.schema import parse_input
+from tdse1d.physics.grid import Grid
+from tdse1d.physics.ionization import _parity, ionization
+from tdse1d.physics.potentials import Centre, SoftCore
+from tdse1d.input.problem import build_problem
+from tdse1d.run.runner import simulate
+from tdse1d.physics.states import bound_states
 
 SQRT2 = 2**0.5
 
@@ -128,7 +128,7 @@ def test_report_footnote_says_what_the_box_cannot_hold(tmp_path):
     # converged; a file without the pieces gets a plain note instead of a KeyError
     import h5py
 
-    from tdse1d.commands.report import ionization_note
+    from tdse1d.io.analysis_file import ionization_note
 
     with h5py.File(tmp_path / "r.h5", "w") as f:
         g = f.create_group("ionization")

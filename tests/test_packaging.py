@@ -10,19 +10,21 @@ from pathlib import Path
 
 import pytest
 
-from tdse1d import cli, validate
-from tdse1d.config import tomllib
+from tdse1d.cli import program as cli
+from tdse1d import validate
+from tdse1d.validate import cases
+from tdse1d.input.spec import tomllib
 
 ROOT = Path(__file__).resolve().parent.parent
 PYPROJECT = tomllib.loads((ROOT / "pyproject.toml").read_text())
 
 
 def test_tomllib_is_imported_in_one_place():
-    # Python 3.10 has no tomllib: every module takes the reader from tdse1d.config
+    # Python 3.10 has no tomllib: every module takes the reader from tdse1d.input.spec
     offenders = []
     for path in [*(ROOT / "tdse1d").rglob("*.py"), *(ROOT / "tests").rglob("*.py")]:
         for line in path.read_text().splitlines():
-            if re.match(r"\s*(import tomllib|from tomllib import)", line) and path.name != "config.py":
+            if re.match(r"\s*(import tomllib|from tomllib import)", line) and path.name != "spec.py":
                 offenders.append(f"{path.relative_to(ROOT)}: {line.strip()}")
     assert not offenders
 
@@ -71,7 +73,7 @@ def test_installed_layout_finds_the_cases(tmp_path):
 
 def test_no_cases_found_is_one_line(tmp_path, capsys, monkeypatch):
     # the package without its cases (as a wheel built without package data was)
-    monkeypatch.setattr(validate, "case_dirs_searched", lambda: [tmp_path / "a", tmp_path / "b"])
+    monkeypatch.setattr(cases, "case_dirs_searched", lambda: [tmp_path / "a", tmp_path / "b"])
     assert cli.main(["validate", "-o", str(tmp_path / "r")]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "no validation cases found" in err and str(tmp_path / "a") in err

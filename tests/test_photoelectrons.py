@@ -25,12 +25,13 @@ import numpy as np
 import pytest
 
 from tdse1d import api
-from tdse1d.absorb import ComplexPotential, CosineMask
-from tdse1d.config import InputError, load_input, parse_input
-from tdse1d.grid import Grid
-from tdse1d.propagate import Propagator
-from tdse1d.spectra import harmonic_spectrum
-from tdse1d.surface_flux import (
+from tdse1d.physics.absorbers import ComplexPotential, CosineMask
+from tdse1d.input.spec import InputError
+from tdse1d.input.schema import load_input, parse_input
+from tdse1d.physics.grid import Grid
+from tdse1d.physics.propagation import Propagator
+from tdse1d.spectra.harmonic import harmonic_spectrum
+from tdse1d.spectra.surface_flux import (
     DERIVATIVE_ERROR,
     SAMPLES_PER_PHOTON,
     SurfaceFlux,
@@ -409,7 +410,7 @@ def test_tabulated_field_of_non_zero_area_gives_gauge_independent_spectra(tmp_pa
 def test_checkpoint_of_the_mask_accumulator_is_refused(tmp_path):
     # a checkpoint written before the surface flux method holds a mask accumulator,
     # which cannot continue a surface-flux run: one clear message, no traceback
-    from tdse1d.checkpoint import read_checkpoint
+    from tdse1d.run.checkpoint import read_checkpoint
 
     path = tmp_path / "old.h5.checkpoint"
     with h5py.File(path, "w") as f:

@@ -5,8 +5,9 @@ import math
 
 import pytest
 
-from tdse1d.config import InputError, parse_input
-from tdse1d.potentials import POTENTIALS, Centre, HarmonicOscillator, PoschlTeller, SoftCore, model_keys
+from tdse1d.input.spec import InputError
+from tdse1d.input.schema import parse_input
+from tdse1d.physics.potentials import POTENTIALS, Centre, HarmonicOscillator, PoschlTeller, SoftCore, model_keys
 
 
 @pytest.mark.parametrize(

@@ -41,13 +41,16 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import curve_fit
 from scipy.sparse.linalg import expm_multiply
 
-from tdse1d import api, cli, spectra, store
-from tdse1d.config import load_input, parse_input, tomllib
-from tdse1d.grid import Grid
-from tdse1d.potentials import Centre, HarmonicOscillator, Potential, SoftCore
-from tdse1d.propagate import SCHEMES, Propagator
-from tdse1d.pulses import AnalyticPulse, Field, Pulse, Sin2
-from tdse1d.states import bound_states, hamiltonian_matrix
+from tdse1d import api, spectra
+from tdse1d.cli import program as cli
+from tdse1d.io import guarded_file, result_file
+from tdse1d.input.schema import load_input, parse_input
+from tdse1d.input.spec import tomllib
+from tdse1d.physics.grid import Grid
+from tdse1d.physics.potentials import Centre, HarmonicOscillator, Potential, SoftCore
+from tdse1d.physics.propagation import SCHEMES, Propagator
+from tdse1d.physics.pulses import AnalyticPulse, Field, Pulse, Sin2
+from tdse1d.physics.states import bound_states, hamiltonian_matrix
 from tdse1d.units import HARTREE_EV
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
@@ -430,8 +433,8 @@ def argon(tmp_path_factory):
 def test_argon_example_runs(argon):
     code, _, path = argon
     assert code == 0
-    assert store.is_complete(path)
-    assert not path.with_name(path.name + store.PART_SUFFIX).exists()
+    assert result_file.is_complete(path)
+    assert not path.with_name(path.name + guarded_file.PART_SUFFIX).exists()
 
 
 @pytest.mark.xfail(strict=True, reason="measured: the cutoff reads H35.44 against the argued band H28.54 .. H34.79 "
@@ -445,7 +448,7 @@ def test_argon_cutoff_between_classical_and_quantum_rules(argon):
     # orders beyond it (its documented bias of drop / slope orders for falls steeper
     # than about one decade per order).
     _, _, path = argon
-    with store.read_result(path) as r:
+    with result_file.read_result(path) as r:
         est = r.attrs("estimates")
         cutoff = r.attrs("spectra/harmonic")["cutoff_frequency"]
         ground = r["states/energy"][0]
@@ -519,7 +522,7 @@ def test_result_file_holds_the_contract(argon):
 
 def test_reread_file_reproduces_spectrum(argon):
     _, _, path = argon
-    with store.read_result(path) as r:
+    with result_file.read_result(path) as r:
         omega0 = r.attrs("estimates")["photon_energy"]
         window = r.attrs("spectra/harmonic")["window"]
         spec = spectra.harmonic_spectrum(r["observables/time"], r["observables/acceleration"], omega0, window=window)
@@ -546,10 +549,10 @@ def test_interrupted_run_leaves_no_finished_file(tmp_path):
     with pytest.raises(KeyboardInterrupt):
         api.run(problem_config, path, progress=stop)
     assert not path.exists()
-    assert not path.with_name(path.name + store.PART_SUFFIX).exists()
-    assert not store.is_complete(path)
+    assert not path.with_name(path.name + guarded_file.PART_SUFFIX).exists()
+    assert not result_file.is_complete(path)
     with pytest.raises(ValueError, match="not a finished"):
-        store.read_result(path)
+        result_file.read_result(path)
     # an earlier result of the same name survives an interrupted rerun untouched (it must
     # be a tdse1d result: any other file is never written over, docs/output.md)
     api.run(problem_config, path)
@@ -557,7 +560,7 @@ def test_interrupted_run_leaves_no_finished_file(tmp_path):
     with pytest.raises(KeyboardInterrupt):
         api.run(problem_config, path, progress=stop)
     assert path.read_bytes() == earlier
-    assert not path.with_name(path.name + store.PART_SUFFIX).exists()
+    assert not path.with_name(path.name + guarded_file.PART_SUFFIX).exists()
 
 
 # ------------------------------------------------------------------ the command line
@@ -586,8 +589,8 @@ def test_run_command_on_examples(example, tmp_path, capsys):
     for s in SHORTER[example.name]:
         argv += ["--set", s]
     assert cli.main(argv) == 0
-    assert store.is_complete(out)
-    assert not out.with_name(out.name + store.PART_SUFFIX).exists()
+    assert result_file.is_complete(out)
+    assert not out.with_name(out.name + guarded_file.PART_SUFFIX).exists()
     captured = capsys.readouterr()
     assert captured.out == ""
 
@@ -613,5 +616,5 @@ def test_run_command_reports_numerical_failure(tmp_path, capsys, monkeypatch):
     assert "numerical failure" in err and "non-finite" in err
     where = re.search(r"at step (\d+), t = (\S+) a\.u\.", err)
     assert where and int(where.group(1)) > 0 and math.isfinite(float(where.group(2)))
-    assert not out.exists() and not store.is_complete(out)
-    assert not out.with_name(out.name + store.PART_SUFFIX).exists()
+    assert not out.exists() and not result_file.is_complete(out)
+    assert not out.with_name(out.name + guarded_file.PART_SUFFIX).exists()

@@ -7,9 +7,9 @@ import pytest
 from scipy.signal import hilbert
 
 from tdse1d import units
-from tdse1d.config import load_input
-from tdse1d.problem import build_field, build_problem
-from tdse1d.pulses import ENVELOPES, AnalyticPulse, FlatTop, Field, Gaussian, Sin2, TabulatedPulse
+from tdse1d.input.schema import load_input
+from tdse1d.input.problem import build_field, build_problem
+from tdse1d.physics.pulses import ENVELOPES, AnalyticPulse, FlatTop, Field, Gaussian, Sin2, TabulatedPulse
 
 OMEGA = units.nm_to_omega(800.0)
 PERIOD = 2 * math.pi / OMEGA

@@ -7,8 +7,9 @@ import shutil
 import h5py
 import pytest
 
-from tdse1d import api, cli
-from tdse1d.config import load_input
+from tdse1d import api
+from tdse1d.cli import program as cli
+from tdse1d.input.schema import load_input
 
 SMALL = """
 [atom]

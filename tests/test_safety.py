@@ -20,9 +20,13 @@ from pathlib import Path
 import h5py
 import pytest
 
-from tdse1d import cli, scan
-from tdse1d.checkpoint import checkpoint_path, read_checkpoint
-from tdse1d.store import is_complete, lock_path
+from tdse1d.cli import program as cli
+from tdse1d.scan.directory import ScanDirectory, result_matches
+from tdse1d.scan.execute import open_local_client, run_one, run_scan
+from tdse1d.scan.plan import load_plan
+from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
+from tdse1d.io.result_file import is_complete
+from tdse1d.io.guarded_file import lock_path
 
 BASE = """
 [atom]
@@ -82,8 +86,8 @@ class _Planted:
 
 
 def test_planted_pickle_wisdom_is_never_executed(tmp_path, monkeypatch):
-    from tdse1d import wisdom
-    from tdse1d.fft import InPlaceFFT
+    from tdse1d.io import wisdom
+    from tdse1d.physics.fft import InPlaceFFT
 
     monkeypatch.delenv("TDSE1D_NO_WISDOM", raising=False)
     monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
@@ -120,7 +124,7 @@ def test_planted_pickle_wisdom_is_never_executed(tmp_path, monkeypatch):
     b'{"format": "something else", "version": 1, "wisdom": ["AA=="]}',
 ])
 def test_malformed_wisdom_is_refused(blob):
-    from tdse1d.fft import WisdomError, export_wisdom, import_wisdom
+    from tdse1d.physics.fft import WisdomError, export_wisdom, import_wisdom
 
     with pytest.raises(WisdomError):
         import_wisdom(blob)
@@ -157,7 +161,7 @@ def test_local_cluster_takes_no_foreign_client_and_serves_no_http():
     from distributed import Client
     from distributed.security import Security
 
-    cluster, client = scan.open_local_client(workers=1)
+    cluster, client = open_local_client(workers=1)
     try:
         assert client.submit(os.getpid).result(timeout=60) != os.getpid()  # our client works
         address = cluster.scheduler_address
@@ -178,7 +182,7 @@ def test_local_cluster_takes_no_foreign_client_and_serves_no_http():
 
 def test_dashboard_when_asked_answers_http():
     """The null case of the test above: the probe does see an HTTP server when there is one."""
-    cluster, client = scan.open_local_client(workers=1, dashboard=True)
+    cluster, client = open_local_client(workers=1, dashboard=True)
     try:
         port = int(cluster.dashboard_link.split(":")[2].split("/")[0])
         assert _answers_http(port)
@@ -194,13 +198,13 @@ def test_sigterm_to_a_scan_worker_leaves_a_checkpoint_that_the_scan_continues(tm
     hold = tmp_path / "hold"
     hold.mkdir()
     monkeypatch.setenv("TDSE1D_TEST_HOLD", str(hold))  # inherited by the worker processes
-    plan = scan.load_plan(_plan(tmp_path))
+    plan = load_plan(_plan(tmp_path))
     out = tmp_path / "out"
     point = plan.points[0]
     result = {}
 
     def go():
-        result["report"] = scan.run_scan(plan, out, workers=1, progress=False)
+        result["report"] = run_scan(plan, out, workers=1, progress=False)
 
     thread = threading.Thread(target=go)
     thread.start()
@@ -220,12 +224,12 @@ def test_sigterm_to_a_scan_worker_leaves_a_checkpoint_that_the_scan_continues(tm
     report = result["report"]
     if point.index not in report.done:  # the interrupted record reached the scan before the worker ended
         assert report.interrupted == [point.index] or point.index in report.failed, report
-        report = scan.run_scan(plan, out, workers=1, progress=False)
+        report = run_scan(plan, out, workers=1, progress=False)
     assert report.done == [point.index]
     again = [json.loads(p.read_text()) for p in hold.glob("propagation.*.json")
              if p.name != f"propagation.{first['pid']}.json"]
     assert again and all(a["resumed_from"] is not None and a["resumed_from"] >= state.step_index for a in again)
-    assert scan.result_matches(out / "points" / f"{point.hash}.h5", point.hash) and not cp.exists()
+    assert result_matches(out / "points" / f"{point.hash}.h5", point.hash) and not cp.exists()
 
 
 def test_sigterm_to_a_job_array_task_checkpoints_and_exits_75(tmp_path):
@@ -247,7 +251,7 @@ def test_sigterm_to_a_job_array_task_checkpoints_and_exits_75(tmp_path):
             proc.kill()
     assert proc.returncode == 75, err
     assert "Traceback" not in err and "checkpoint" in err
-    point = scan.load_plan(plan_path).points[0]
+    point = load_plan(plan_path).points[0]
     result = out / "points" / f"{point.hash}.h5"
     assert checkpoint_path(result).exists() and not result.exists()
     assert not result.with_suffix(".error").exists()  # a stop is not a failure
@@ -273,7 +277,7 @@ def _holder_process(code: str):
 def test_second_scan_of_a_directory_is_refused_naming_the_first(tmp_path, capsys):
     plan_path = _plan(tmp_path)
     out = tmp_path / "out"
-    holder = _holder_process(f"import sys\nfrom tdse1d.scan import ScanDirectory\nlock = ScanDirectory({str(out)!r}).lock()")
+    holder = _holder_process(f"import sys\nfrom tdse1d.scan.directory import ScanDirectory\nlock = ScanDirectory({str(out)!r}).lock()")
     try:
         assert cli.main(["scan", str(plan_path), "-o", str(out), "--quiet", "--workers", "1"]) == 1
         err = capsys.readouterr().err
@@ -289,10 +293,10 @@ def test_second_scan_of_a_directory_is_refused_naming_the_first(tmp_path, capsys
 def test_job_array_task_of_a_point_being_written_is_refused(tmp_path, capsys):
     plan_path = _plan(tmp_path)
     out = tmp_path / "array"
-    point = scan.load_plan(plan_path).points[0]
+    point = load_plan(plan_path).points[0]
     result = out / "points" / f"{point.hash}.h5"
     result.parent.mkdir(parents=True)
-    holder = _holder_process(f"import sys\nfrom tdse1d.store import WriterLock\n"
+    holder = _holder_process(f"import sys\nfrom tdse1d.io.guarded_file import WriterLock\n"
                              f"lock = WriterLock({str(lock_path(result))!r}).acquire()")
     try:
         assert cli.main(["scan", str(plan_path), "-o", str(out), "--point", "0", "--quiet"]) == 1
@@ -309,36 +313,36 @@ def test_job_array_task_of_a_point_being_written_is_refused(tmp_path, capsys):
 
 
 def test_a_point_file_missing_data_is_not_skipped(tmp_path):
-    plan = scan.load_plan(_plan(tmp_path))
+    plan = load_plan(_plan(tmp_path))
     out = tmp_path / "out"
-    report = scan.run_one(plan, out, 0)
+    report = run_one(plan, out, 0)
     assert report.done == [0]
     path = out / "points" / f"{plan.points[0].hash}.h5"
     with h5py.File(path, "r+") as f:  # still says complete, and still holds power and acceleration
         assert f.attrs["complete"]
         del f["observables/norm"]
-    assert scan.ScanDirectory(out).state(plan.points[0]) == "todo"
-    again = scan.run_one(plan, out, 0)
+    assert ScanDirectory(out).state(plan.points[0]) == "todo"
+    again = run_one(plan, out, 0)
     assert again.done == [0] and not again.skipped
-    assert scan.result_matches(path, plan.points[0].hash)
+    assert result_matches(path, plan.points[0].hash)
 
 
 def test_full_disk_while_writing_the_summary_keeps_the_earlier_one(tmp_path, monkeypatch):
     import errno
 
-    from tdse1d import store
-    from tdse1d.summary import write_summary
+    from tdse1d.io import guarded_file
+    from tdse1d.scan.summary import write_summary
 
-    plan = scan.load_plan(_plan(tmp_path))
+    plan = load_plan(_plan(tmp_path))
     out = tmp_path / "out"
-    assert scan.run_one(plan, out, 0).done == [0]
+    assert run_one(plan, out, 0).done == [0]
     write_summary(plan, out)
     before = (out / "summary.h5").read_bytes()
 
     def full(fd, data, offset):
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
-    monkeypatch.setattr(store.os, "pwrite", full)
+    monkeypatch.setattr(guarded_file.os, "pwrite", full)
     with pytest.raises(OSError) as info:
         write_summary(plan, out)
     assert info.value.errno == errno.ENOSPC

@@ -21,8 +21,12 @@ from scipy import constants
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from tdse1d import cli, focal, scan
-from tdse1d.compare import MeasuredSpectrum, compare_spectra, read_spectrum_csv
+from tdse1d import cli
+from tdse1d.scan import focal
+from tdse1d.scan.directory import PlanMismatch, ScanDirectory, result_matches
+from tdse1d.scan.execute import ScanReport, _prepare, run_one, run_scan
+from tdse1d.scan.plan import input_hash, load_plan
+from tdse1d.scan.compare import MeasuredSpectrum, compare_spectra, read_spectrum_csv
 
 BASE = """
 [atom]
@@ -64,10 +68,10 @@ def local_scan(tmp_path_factory):
     """A 3-point intensity scan on a LocalCluster with 2 workers."""
     root = tmp_path_factory.mktemp("local")
     plan_path = _plan(root, INTENSITIES)
-    plan = scan.load_plan(plan_path)
-    report = scan.run_scan(plan, root / "out", workers=2, progress=False)
+    plan = load_plan(plan_path)
+    report = run_scan(plan, root / "out", workers=2, progress=False)
     assert report.ok, report.failed
-    from tdse1d.summary import write_summary
+    from tdse1d.scan.summary import write_summary
 
     write_summary(plan, root / "out")
     return plan, root / "out", report
@@ -101,7 +105,7 @@ def test_rerun_computes_nothing_again(local_scan):
     plan, out, _ = local_scan
     files = [out / "points" / f"{p.hash}.h5" for p in plan.points]
     before = [f.stat().st_mtime_ns for f in files]
-    report = scan.run_scan(plan, out, workers=2, progress=False)
+    report = run_scan(plan, out, workers=2, progress=False)
     assert sorted(report.skipped) == [0, 1, 2] and not report.done and report.ok
     assert [f.stat().st_mtime_ns for f in files] == before
 
@@ -127,7 +131,7 @@ def test_batch_array_mode_equals_dask_scan(local_scan, tmp_path, capsys):
     size = victim.stat().st_size
     with open(victim, "r+b") as fh:
         fh.truncate(size // 2)
-    report = scan.run_one(plan, array_dir, 1)
+    report = run_one(plan, array_dir, 1)
     assert report.done == [1]
     _same_results(victim, out / "points" / f"{plan.points[1].hash}.h5")
 
@@ -206,13 +210,13 @@ def test_external_scheduler_and_a_killed_worker(external_cluster, local_scan, tm
     address, client, workers = external_cluster
     _, local_out, _ = local_scan
     values = INTENSITIES + ["2.5e14 W/cm^2"]
-    plan = scan.load_plan(_plan(tmp_path, values))
+    plan = load_plan(_plan(tmp_path, values))
     out = tmp_path / "out"
     points = out / "points"
     result = {}
 
     def go():
-        result["report"] = scan.run_scan(plan, out, scheduler=address, progress=False)
+        result["report"] = run_scan(plan, out, scheduler=address, progress=False)
 
     thread = threading.Thread(target=go)
     thread.start()
@@ -228,10 +232,10 @@ def test_external_scheduler_and_a_killed_worker(external_cluster, local_scan, tm
     assert set(report.done) | set(report.failed) == set(range(4))
     assert len(report.failed) <= 1
     for k in report.done:
-        assert scan.result_matches(points / f"{plan.points[k].hash}.h5", plan.points[k].hash)
+        assert result_matches(points / f"{plan.points[k].hash}.h5", plan.points[k].hash)
     # a rerun finishes it, and runs no finished point again
     mtimes = {k: (points / f"{plan.points[k].hash}.h5").stat().st_mtime_ns for k in report.done}
-    again = scan.run_scan(plan, out, scheduler=address, progress=False)
+    again = run_scan(plan, out, scheduler=address, progress=False)
     assert again.ok and sorted(again.skipped) == sorted(report.done)
     assert sorted(again.done) == sorted(report.failed)
     for k, t in mtimes.items():
@@ -286,7 +290,7 @@ def test_grid_and_zip_expansion_and_ranges(tmp_path):
             'spacing = "log"\n[[axis]]\nkey = "laser.0.wavelength"\nvalues = ["800 nm", "1 um", "1200 nm"]\n')
     (tmp_path / "grid.toml").write_text('base = "base.toml"\n' + axes)
     (tmp_path / "zip.toml").write_text('base = "base.toml"\nmode = "zip"\n' + axes)
-    grid, zipped = scan.load_plan(tmp_path / "grid.toml"), scan.load_plan(tmp_path / "zip.toml")
+    grid, zipped = load_plan(tmp_path / "grid.toml"), load_plan(tmp_path / "zip.toml")
     assert len(grid.points) == 9 and len(zipped.points) == 3
     intensity = np.array(grid.axes[0].atomic)
     np.testing.assert_allclose(intensity / intensity[0], [1, math.sqrt(10), 10], rtol=1e-12)
@@ -299,32 +303,32 @@ def test_grid_and_zip_expansion_and_ranges(tmp_path):
     # the hash does not depend on the order of the keys in the input
     raw = zipped.points[0].raw
     flipped = {k: raw[k] for k in reversed(list(raw))}
-    assert scan.input_hash(flipped) == zipped.points[0].hash
+    assert input_hash(flipped) == zipped.points[0].hash
 
 
 def test_another_plan_is_refused(local_scan, tmp_path, capsys):
     plan, out, _ = local_scan
-    other = scan.load_plan(_plan(tmp_path, ["3e14 W/cm^2"]))
-    with pytest.raises(scan.PlanMismatch):
-        scan.ScanDirectory(out).claim(other)
+    other = load_plan(_plan(tmp_path, ["3e14 W/cm^2"]))
+    with pytest.raises(PlanMismatch):
+        ScanDirectory(out).claim(other)
     copy = tmp_path / "copy"
     shutil.copytree(out, copy)
     assert cli.main(["scan", str(tmp_path / "plan.toml"), "-o", str(copy), "--gather", "--quiet"]) == 1
     assert "another plan" in capsys.readouterr().err
-    scan.ScanDirectory(copy).claim(other, fresh=True)
+    ScanDirectory(copy).claim(other, fresh=True)
     assert not list((copy / "points").glob("*.h5"))
 
 
 def test_failed_point_is_reported_and_retried_only_when_asked(tmp_path):
-    plan = scan.load_plan(_plan(tmp_path, INTENSITIES[:2]))
-    d = scan.ScanDirectory(tmp_path / "out")
+    plan = load_plan(_plan(tmp_path, INTENSITIES[:2]))
+    d = ScanDirectory(tmp_path / "out")
     d.claim(plan)
     d.error(plan.points[0]).write_text("NumericalError: made up for the test\n")
-    report = scan.ScanReport(total=2)
-    todo = scan._prepare(plan, d, fresh=False, retry_failed=False, report=report)
+    report = ScanReport(total=2)
+    todo = _prepare(plan, d, fresh=False, retry_failed=False, report=report)
     assert report.failed == {0: "NumericalError: made up for the test"} and [p.index for p in todo] == [1]
-    report = scan.ScanReport(total=2)
-    todo = scan._prepare(plan, d, fresh=False, retry_failed=True, report=report)
+    report = ScanReport(total=2)
+    todo = _prepare(plan, d, fresh=False, retry_failed=True, report=report)
     assert not report.failed and sorted(p.index for p in todo) == [0, 1]
     assert not d.error(plan.points[0]).exists()
 
@@ -429,11 +433,11 @@ def test_compare_command_on_a_run_and_the_demo_spectrum(local_scan, tmp_path, ca
 
 def test_shipped_plans_validate_and_run_longest_first(tmp_path):
     inputs = Path(__file__).resolve().parents[1] / "inputs"
-    intensity = scan.load_plan(inputs / "scan_argon_intensity.toml")
-    wavelength = scan.load_plan(inputs / "scan_argon_wavelength.toml")
+    intensity = load_plan(inputs / "scan_argon_intensity.toml")
+    wavelength = load_plan(inputs / "scan_argon_wavelength.toml")
     assert 4 <= len(intensity.points) <= 6 and 4 <= len(wavelength.points) <= 6
     # the cost (grid points x steps) grows with the wavelength: longer cycles, larger quiver box
     costs = [p.cost for p in wavelength.points]
     assert costs == sorted(costs) and costs[-1] > 2 * costs[0]
-    todo = scan._prepare(wavelength, scan.ScanDirectory(tmp_path), False, False, scan.ScanReport(total=4))
+    todo = _prepare(wavelength, ScanDirectory(tmp_path), False, False, ScanReport(total=4))
     assert [p.index for p in todo] == [3, 2, 1, 0]

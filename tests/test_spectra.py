@@ -15,19 +15,11 @@ from hypothesis import strategies as st
 from scipy.special import eval_hermite
 
 from tdse1d import spectra
-from tdse1d.spectra import (
-    DIPOLE_FORMS,
-    SPLITS,
-    WINDOWS,
-    Tukey,
-    default_gabor_width,
-    dipole_forms,
-    gabor_transform,
-    harmonic_spectrum,
-    plane_wave_spectrum,
-    project_out_bound,
-    read_cutoff,
-)
+from tdse1d.spectra.harmonic import DIPOLE_FORMS, dipole_forms, harmonic_spectrum
+from tdse1d.spectra.photoelectron import SPLITS, plane_wave_spectrum, project_out_bound
+from tdse1d.spectra.windows import WINDOWS, Tukey
+from tdse1d.spectra.time_frequency import default_gabor_width, gabor_transform
+from tdse1d.spectra.cutoff import read_cutoff
 
 OMEGA0 = 0.057  # 800 nm in a.u. (common practice)
 

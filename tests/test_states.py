@@ -5,9 +5,9 @@ import numpy as np
 import pytest
 import scipy.linalg
 
-from tdse1d.grid import Grid
-from tdse1d.potentials import Centre, HarmonicOscillator, PoschlTeller, SoftCore
-from tdse1d.states import (
+from tdse1d.physics.grid import Grid
+from tdse1d.physics.potentials import Centre, HarmonicOscillator, PoschlTeller, SoftCore
+from tdse1d.physics.states import (
     SofteningFitError,
     bound_states,
     fit_softening,
@@ -140,7 +140,7 @@ def test_banded_path_on_a_large_grid(monkeypatch):
     # enough for the dense reference: same count of E < 0 states, and the states that
     # the box does not distort (the lowest ten, radius < 2 nu^2 = 60 bohr here) with the
     # same energies to 1e-8 Hartree (Rayleigh quotient error ~ residual^2)
-    import tdse1d.states as module
+    import tdse1d.physics.states as module
 
     grid = Grid(1600, 0.25)
     potential = soft_core(1.0)

@@ -15,11 +15,15 @@ import h5py
 import numpy as np
 import pytest
 
-from tdse1d import api, cli, store
-from tdse1d.config import InputError, load_input
+from tdse1d import api
+from tdse1d.cli import program as cli
+from tdse1d.io import guarded_file, result_file
+from tdse1d.input.spec import InputError
+from tdse1d.input.schema import load_input
 from tdse1d.errors import OutputBusy, OutputError
-from tdse1d.problem import build_problem
-from tdse1d.store import ResultWriter, WriterLock, is_complete, lock_path
+from tdse1d.input.problem import build_problem
+from tdse1d.io.result_file import ResultWriter, is_complete
+from tdse1d.io.guarded_file import WriterLock, lock_path
 
 SMALL = """
 [atom]
@@ -103,7 +107,7 @@ def test_concurrent_runs_of_one_input_leave_one_whole_file(tmp_path):
     assert first.returncode == 0, err
     assert is_complete(out) and not lock_path(out).exists()
     with h5py.File(out, "r") as f:
-        assert store.content_problems(f) == []
+        assert result_file.content_problems(f) == []
         # the early datasets were not truncated away: the run starts normalised
         assert abs(f["observables/norm"][0] - 1) < 1e-10 and np.any(f["observables/dipole"][()] != 0)
 
@@ -155,7 +159,7 @@ def test_a_file_missing_a_dataset_is_not_marked_complete(problem, tmp_path):
     out = tmp_path / "c.h5"
     with pytest.raises(OutputError, match="observables/norm missing"):
         with ResultWriter(out, problem, ()) as w:
-            from tdse1d.runner import simulate
+            from tdse1d.run.runner import simulate
 
             w.write_result(simulate(problem))
             del w.file["observables/norm"]
@@ -167,7 +171,7 @@ def test_a_file_written_over_by_another_writer_is_not_marked_complete(problem, t
     out = tmp_path / "o.h5"
     with pytest.raises(OutputError, match="another writer"):
         with ResultWriter(out, problem, ()) as w:
-            from tdse1d.runner import simulate
+            from tdse1d.run.runner import simulate
 
             w.write_result(simulate(problem))
             w.file.attrs["writer"] = "someone else"
@@ -245,7 +249,7 @@ def _fail_writes_after(monkeypatch, calls: int, code: int):
             raise OSError(code, os.strerror(code))
         return real(fd, data, offset)
 
-    monkeypatch.setattr(store.os, "pwrite", pwrite)
+    monkeypatch.setattr(guarded_file.os, "pwrite", pwrite)
     return count
 
 
@@ -269,8 +273,8 @@ def test_full_disk_keeps_the_earlier_result(problem, tmp_path, monkeypatch, when
 
 
 def test_full_disk_while_writing_a_checkpoint_keeps_the_previous_one(problem, tmp_path, monkeypatch):
-    from tdse1d.checkpoint import checkpoint_path, read_checkpoint
-    from tdse1d.runner import RunControl, RunInterrupted
+    from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
+    from tdse1d.run.runner import RunControl, RunInterrupted
 
     out = tmp_path / "cp.h5"
     control = RunControl()
@@ -295,7 +299,7 @@ def test_read_only_file_system_is_one_line(problem, tmp_path, monkeypatch):
     def refuse(path, exclusive=True):
         raise OSError(errno.EROFS, os.strerror(errno.EROFS), str(path))
 
-    monkeypatch.setattr(store.GuardedFile, "create", staticmethod(refuse))
+    monkeypatch.setattr(guarded_file.GuardedFile, "create", staticmethod(refuse))
     steps = []
     with pytest.raises(OutputError, match="Read-only file system") as info:
         api.run_problem(problem, tmp_path / "ro.h5", progress=lambda k, n: steps.append(k))
@@ -335,7 +339,7 @@ def small_tmpfs(tmp_path):
 def test_really_full_disk_is_one_line_and_no_crash(small_tmpfs, tmp_path):
     """The HDF5 library crashed at exit after a failed write (exit status 139).
 
-    The disk estimate made before a run (tdse1d.resources) passes: the disk is filled
+    The disk estimate made before a run (tdse1d.run.resources) passes: the disk is filled
     while the run is held at its first chunk (the test handshake, docs/checkpoints.md),
     so that the failure comes in the middle of writing, as on a shared disk."""
     inp = _input(tmp_path / "i", extra="")

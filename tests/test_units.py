@@ -7,7 +7,7 @@ import pytest
 import scipy.constants as sc
 
 from tdse1d import units
-from tdse1d.estimates import pulse_estimate
+from tdse1d.semiclassical.estimates import pulse_estimate
 from tdse1d.units import UnitError, to_atomic
 
 E_H = sc.physical_constants["Hartree energy"][0]

@@ -3,7 +3,8 @@ report that names, per case, the reference, its source and the comparison."""
 
 import re
 
-from tdse1d import cli, validate
+from tdse1d.cli import program as cli
+from tdse1d import validate
 
 
 def test_quick_validation_passes(tmp_path, capsys):

@@ -142,15 +142,16 @@ values = ["1.0e14 W/cm^2", "1.6e14 W/cm^2"]
 
 def run_scan_summary(workdir) -> Path:
     """Run the two points of :data:`SCAN_PLAN` one by one and write the summary."""
-    from tdse1d import scan
-    from tdse1d.summary import write_summary
+    from tdse1d.scan.execute import run_one
+    from tdse1d.scan.plan import load_plan
+    from tdse1d.scan.summary import write_summary
 
     workdir = Path(workdir)
     plan_path = workdir / "plan.toml"
     plan_path.write_text(SCAN_PLAN.format(base=(ROOT / "inputs" / "argon_800nm.toml").as_posix()))
-    plan = scan.load_plan(plan_path)
+    plan = load_plan(plan_path)
     for index in range(len(plan.points)):
-        report = scan.run_one(plan, workdir / "scan", index)
+        report = run_one(plan, workdir / "scan", index)
         assert report.ok, report.failed
     return write_summary(plan, workdir / "scan").path
 

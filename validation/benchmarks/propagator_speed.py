@@ -17,12 +17,12 @@ import time
 
 import numpy as np
 
-from tdse1d.absorb import CosineMask
-from tdse1d.fft import InPlaceFFT
-from tdse1d.grid import Grid
-from tdse1d.potentials import Centre, SoftCore
-from tdse1d.propagate import Propagator, Strang
-from tdse1d.pulses import AnalyticPulse, Field, Sin2
+from tdse1d.physics.absorbers import CosineMask
+from tdse1d.physics.fft import InPlaceFFT
+from tdse1d.physics.grid import Grid
+from tdse1d.physics.potentials import Centre, SoftCore
+from tdse1d.physics.propagation import Propagator, Strang
+from tdse1d.physics.pulses import AnalyticPulse, Field, Sin2
 
 
 def best_of(fn, repeats):

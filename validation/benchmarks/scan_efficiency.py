@@ -8,7 +8,7 @@ Steps, each on the same ``LocalCluster`` of single-threaded worker processes:
 
 1. warm-up: one tiny run on every worker (imports, compiled kernels), not counted;
 2. single-point times t_k: each point run alone, one after the other, on the cluster;
-3. the scan: all points submitted at once, longest first, through :func:`tdse1d.scan.run_scan`;
+3. the scan: all points submitted at once, longest first, through :func:`tdse1d.scan.execute.run_scan`;
    wall time W and the time s_k of each point inside the scan.
 
 Reported: parallel efficiency ``sum(t_k) / (workers x W)`` (target >= 0.9), the same with
@@ -70,35 +70,38 @@ def main(argv=None) -> int:
 
     from distributed import Client
 
-    from tdse1d import scan
+    from tdse1d.scan.directory import ScanDirectory
+    from tdse1d.scan.execute import _args, local_cluster, run_scan
+    from tdse1d.scan.plan import load_plan
+    from tdse1d.scan.worker import run_point
 
     os.environ.setdefault("TDSE1D_NO_WISDOM", "1")  # all workers plan their FFTs alike
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
-        cluster = scan.local_cluster(args.workers)
+        cluster = local_cluster(args.workers)
         client = Client(cluster, set_as_default=False)
         try:
             client.wait_for_workers(args.workers)
             # 1. warm-up, one tiny run pinned to each worker
-            warm = scan.load_plan(_plan(tmp, args.workers, 0.5, "warm"))
+            warm = load_plan(_plan(tmp, args.workers, 0.5, "warm"))
             (tmp / "warm" / "points").mkdir(parents=True)
-            futures = [client.submit(scan.run_point, *scan._args(warm, scan.ScanDirectory(tmp / "warm"), p),
+            futures = [client.submit(run_point, *_args(warm, ScanDirectory(tmp / "warm"), p),
                                      workers=[w], pure=False)
                        for p, w in zip(warm.points, client.scheduler_info()["workers"])]
             client.gather(futures)
 
-            plan = scan.load_plan(_plan(tmp, args.points, args.cycles, "plan"))
+            plan = load_plan(_plan(tmp, args.points, args.cycles, "plan"))
             # 2. single-point times, one at a time
-            single_dir = scan.ScanDirectory(tmp / "single")
+            single_dir = ScanDirectory(tmp / "single")
             single_dir.claim(plan)
             single = []
             for p in plan.points:
-                record = client.submit(scan.run_point, *scan._args(plan, single_dir, p), pure=False).result()
+                record = client.submit(run_point, *_args(plan, single_dir, p), pure=False).result()
                 assert record["status"] == "done", record
                 single.append(record["seconds"])
             # 3. the scan
             submitted = time.time()
-            report = scan.run_scan(plan, tmp / "scan", client=client, progress=False)
+            report = run_scan(plan, tmp / "scan", client=client, progress=False)
             assert report.ok and len(report.done) == args.points, report.failed
             records = [report.records[p.index] for p in plan.points]
             inside = [r["seconds"] for r in records]

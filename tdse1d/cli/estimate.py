@@ -1,0 +1,74 @@
+"""``tdse1d estimate INPUT``: semiclassical numbers for the input's pulses."""
+
+import json
+
+from .. import api, units
+from .program import add_input_arguments
+from ..input.schema import load_input
+
+HELP = "semiclassical estimates (Up, Keldysh parameter, cutoffs), the advised grid, and the memory and disk of the run"
+
+
+def add_arguments(parser):
+    add_input_arguments(parser)
+    parser.add_argument("--json", action="store_true", help="print the estimates as JSON")
+
+
+def _rows(p):
+    ev = units.HARTREE_EV
+    return [
+        ("photon energy", f"{p.photon_energy * ev:.4f} eV", f"{p.photon_energy:.6g} a.u., {units.omega_to_nm(p.photon_energy):.1f} nm"),
+        ("peak field", f"{p.peak_field:.5g} a.u.", f"{p.peak_field * units.AU_FIELD_V_M:.4g} V/m"),
+        ("peak intensity", f"{p.peak_intensity_W_cm2:.4g} W/cm^2", "cycle-averaged, I = c eps0 E0^2 / 2"),
+        ("optical period", f"{units.au_to_fs(p.optical_period):.4f} fs", f"{p.optical_period:.2f} a.u."),
+        ("ionization potential Ip", f"{p.ionization_potential * ev:.4f} eV", f"{p.ionization_potential:.6f} Hartree"),
+        ("ponderomotive energy Up", f"{p.ponderomotive_energy * ev:.4f} eV", f"{p.ponderomotive_energy:.6g} Hartree"),
+        ("Keldysh parameter", f"{p.keldysh_parameter:.4g}", "sqrt(Ip / 2Up); < 1 tunnelling"),
+        ("quiver amplitude", f"{p.quiver_amplitude:.3f} bohr", "E0 / w^2"),
+        ("cutoff Ip + 3.17 Up", f"{p.cutoff_energy * ev:.3f} eV", f"harmonic {p.cutoff_order:.1f}"),
+        ("cutoff 1.32 Ip + 3.17 Up", f"{p.cutoff_energy_lewenstein * ev:.3f} eV", f"harmonic {p.cutoff_energy_lewenstein / p.photon_energy:.1f}"),
+        ("direct electrons 2 Up", f"{p.direct_drift_energy * ev:.3f} eV", ""),
+        ("backscattered electrons 10 Up", f"{p.backscattered_drift_energy * ev:.3f} eV", ""),
+        ("barrier suppression", f"{p.barrier_suppression_intensity_W_cm2:.4g} W/cm^2", f"field {p.barrier_suppression_field:.5g} a.u. (this model)"),
+    ]
+
+
+def _resource_rows(est):
+    """Rows of the memory and disk estimate (:mod:`tdse1d.run.resources`) of the run as given."""
+    from ..run.resources import MEMORY_SHARE, available_memory, format_bytes
+
+    memory = available_memory()
+    rows = [("time steps", f"{est.steps}", f"{est.points} grid points, {est.snapshots} snapshots")]
+    have = f"{format_bytes(memory)} available, {MEMORY_SHARE:.0%} may be planned" if memory else "available: unknown"
+    rows.append(("memory (peak)", format_bytes(est.memory), have))
+    rows += [(f"  {name}", format_bytes(n), "") for name, n in est.memory_parts.items()]
+    rows.append(("disk (result and checkpoint)", format_bytes(est.disk), ""))
+    rows += [(f"  {name}", format_bytes(n), "") for name, n in est.disk_parts.items()]
+    return rows
+
+
+def main(args):
+    from ..run.resources import estimate_resources
+
+    config = load_input(args.input, args.overrides)
+    result = api.estimate(config)
+    resources = estimate_resources(result.problem)
+    if args.json:
+        print(json.dumps({**result.to_json(), "resources": resources.to_json()}, indent=1))
+        return 0
+    for i, p in enumerate(result.pulses):
+        print(f"pulse {i}")
+        for name, value, note in _rows(p):
+            print(f"  {name:<30} {value:>20}   {note}")
+    a = result.advice
+    print("advised grid")
+    print(f"  {'points':<30} {a.points:>20}")
+    print(f"  {'spacing':<30} {a.spacing:>15.4g} bohr")
+    print(f"  {'time step':<30} {a.time_step:>15.4g} a.u.   {units.au_to_fs(a.time_step) * 1000:.3f} as")
+    print(f"  {'absorber width':<30} {a.absorber_width:>15.1f} bohr")
+    for reason in a.reasons:
+        print(f"    - {reason}")
+    print("resources of the run as given (checked before `tdse1d run` propagates)")
+    for name, value, note in _resource_rows(resources):
+        print(f"  {name:<30} {value:>20}   {note}")
+    return 0

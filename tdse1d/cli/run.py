@@ -1,0 +1,113 @@
+"""``tdse1d run INPUT``: the full quantum run, written to HDF5.
+
+Checkpoints: with ``output.checkpoint_interval`` the run writes ``RESULT.h5.checkpoint``
+beside its result at that wall-clock cadence (see :mod:`tdse1d.run.checkpoint`). SIGTERM
+and SIGINT write a checkpoint at once and exit with status 75 (:data:`EXIT_INTERRUPTED`,
+as EX_TEMPFAIL: try again); ``tdse1d run INPUT --resume`` continues from it.
+"""
+
+import signal
+import sys
+import time
+
+from .. import api, units
+from .program import add_input_arguments
+from ..input.schema import load_input
+from ..io.wisdom import fftw_wisdom
+
+HELP = "propagate the input's model atom through its pulses and write the HDF5 result"
+
+#: exit status after a stop request (SIGTERM/SIGINT) left a checkpoint
+EXIT_INTERRUPTED = 75
+
+
+def add_arguments(parser):
+    add_input_arguments(parser)
+    parser.add_argument("-o", "--output", default=None, help="result file (default: output.file, else INPUT-STEM.h5)")
+    parser.add_argument("--quiet", action="store_true", help="no progress bar and no summary")
+    parser.add_argument("--resume", action="store_true",
+                        help="continue from RESULT.h5.checkpoint left by an interrupted run of the same input")
+    parser.add_argument("--strict", action="store_true",
+                        help="treat numerical-health warnings as errors (exit status 1)")
+
+
+class _ProgressBar:
+    """tqdm bar in simulated time, shown only on a terminal."""
+
+    def __init__(self, problem, enabled):
+        self.enabled = enabled
+        self.bar = None
+        self.problem = problem
+
+    def __call__(self, step, steps):
+        if not self.enabled:
+            return
+        if self.bar is None:
+            from tqdm import tqdm
+
+            t_fs = units.au_to_fs(self.problem.time.end - self.problem.time.start)
+            self.bar = tqdm(total=steps, unit="step", desc=f"propagating {t_fs:.1f} fs", file=sys.stderr,
+                            dynamic_ncols=True, smoothing=0.1)
+        self.bar.update(step - self.bar.n)
+        t = self.problem.time.times[step]
+        self.bar.set_postfix_str(f"t = {units.au_to_fs(t):.2f} fs", refresh=False)
+
+    def close(self):
+        if self.bar is not None:
+            self.bar.close()
+
+
+def main(args):
+    config = load_input(args.input, args.overrides)
+    show = not args.quiet and sys.stderr.isatty()
+    started = time.time()
+    from ..input.problem import build_problem
+
+    from ..run.runner import RunInterrupted
+
+    problem = build_problem(config)
+    for w in problem.warnings:
+        print(f"tdse1d: warning: {w}", file=sys.stderr)
+    bar = _ProgressBar(problem, show)
+    control = api.default_control(config)
+    previous = {sig: signal.signal(sig, control.request_stop) for sig in (signal.SIGTERM, signal.SIGINT)}
+    try:
+        with fftw_wisdom():
+            outcome = api.run_problem(problem, args.output, progress=bar, resume=args.resume,
+                                      control=control, strict=args.strict)
+    except RunInterrupted as exc:
+        bar.close()
+        from ..run.checkpoint import checkpoint_path
+
+        print(f"tdse1d: {exc}: {checkpoint_path(api.output_path(config, args.output))}; "
+              "continue with --resume", file=sys.stderr)
+        return EXIT_INTERRUPTED
+    finally:
+        bar.close()
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
+    for note in outcome.notes:
+        print(f"tdse1d: note: {note}", file=sys.stderr)
+    if outcome.stopped_late:
+        print("tdse1d: note: the stop request came after the last time step; the run finished its "
+              f"analysis and wrote {outcome.path}", file=sys.stderr)
+    for w in outcome.result.warnings[len(problem.warnings):]:
+        print(f"tdse1d: warning: {w}", file=sys.stderr)
+    if args.quiet:
+        return 0
+    p, r = outcome.problem, outcome.result
+    ev = units.HARTREE_EV
+    print(f"wrote {outcome.path} in {time.time() - started:.1f} s "
+          f"({p.time.steps} steps of {p.time.step:.4g} a.u., {p.grid.points} points of {p.grid.spacing:.4g} bohr)")
+    print(f"  initial-state energy   {-p.ionization_potential:.8f} Hartree ({-p.ionization_potential * ev:.4f} eV)")
+    print(f"  final norm             {r.observables.norm[-1]:.6f}")
+    print(f"  ionization probability {r.ionization_probability:.4e}  (absorbed {r.absorbed:.4e})")
+    if p.pulse_estimates and r.cutoff is not None:
+        est = p.pulse_estimates[0]
+        cut = r.cutoff
+        # an unresolved reading has no number (NaN) and says why instead
+        read = (f"{cut.frequency * ev:.2f} eV (order {cut.order:.1f})" + ("" if cut.resolved else ", not resolved")
+                if cut.frequency == cut.frequency else cut.reason)
+        print(f"  harmonic cutoff        Ip + 3.17 Up = {est.cutoff_energy * ev:.2f} eV (order {est.cutoff_order:.1f}); "
+              f"read off the spectrum: {read}")
+    return 0

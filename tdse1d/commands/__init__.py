@@ -1,1 +1,0 @@
-"""One module per ``tdse1d`` command (see :mod:`tdse1d.cli`)."""

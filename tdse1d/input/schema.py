@@ -1,0 +1,490 @@
+"""Input files: TOML in, validated frozen dataclasses in atomic units out.
+
+One TOML file describes one run. :func:`load_input` reads it, applies ``--set``
+overrides (:func:`~tdse1d.input.spec.apply_override`), and validates every table
+against the dataclasses below, whose fields carry their own specification
+(:class:`~tdse1d.input.spec.Spec`) as metadata: the dataclass *is* the schema, so adding
+a key is adding one field. ``docs/input.md`` documents every key.
+
+Every error is an :class:`~tdse1d.input.spec.InputError` naming the file, the dotted key
+and what is wrong; the command line turns it into one line on stderr and exit status 2.
+"""
+
+from __future__ import annotations
+
+import copy
+import dataclasses
+import difflib
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+
+from .. import units
+from .spec import (InputError, Spec, _join, _read_array, _read_table, apply_override, dump_toml, key, parse_override,
+                   tomllib)
+
+
+# ----------------------------------------------------------------------- sections
+
+
+def _potential_names():
+    from ..physics.potentials import POTENTIALS
+
+    return tuple(POTENTIALS)
+
+
+def _envelope_names():
+    from ..physics.pulses import ENVELOPES
+
+    return tuple(ENVELOPES)
+
+
+def _absorber_names():
+    from ..physics.absorbers import ABSORBERS
+
+    return tuple(ABSORBERS)
+
+
+def _window_names():
+    from ..spectra.windows import WINDOWS
+
+    return tuple(WINDOWS)
+
+
+_POSITIVE = dict(minimum=0.0)
+# Ranges of the model's parameters outside which no grid represents the model (the
+# numbers overflow or the core is far below any spacing); generous, not physical limits.
+_CHARGE = dict(minimum=0.0, maximum=100.0)
+_SOFTENING = dict(minimum=1e-3, strict=False, maximum=1e3)
+_POSITION = dict(minimum=-1e3, strict=False, maximum=1e3)
+
+
+# Ranges of a pulse's carrier and strength inside which this program's model holds:
+#: shortest wavelength (nm): below about 1 nm the wavelength nears the size of the bound
+#: state (a few bohr, 0.1-0.3 nm) and the dipole approximation the solver makes fails
+MIN_WAVELENGTH_NM = 1.0
+#: longest wavelength (nm): one cycle at 1 m lasts 3.3 ns, 1.4e8 a.u., more time steps
+#: than a run may take (problem.MAX_STEPS) at any step that resolves an atom
+MAX_WAVELENGTH_NM = 1e9
+#: largest normalised vector potential a0 = E0 / (omega c): at a0 = 1 the classical
+#: quiver momentum reaches m c and the non-relativistic Schrodinger equation fails
+MAX_NORMALISED_VECTOR_POTENTIAL = 1.0
+#: largest |delay| of a pulse (fs): 1 ns is 4.1e7 a.u., already more steps between two
+#: pulses than a run may take at a step of 0.04 a.u.
+MAX_DELAY_FS = 1e6
+
+
+@dataclass(frozen=True)
+class CentreConfig:
+    """One soft-core centre of a molecular ion (``[[atom.centre]]``)."""
+
+    position: float = key(Spec("quantity", "length", **_POSITION, doc="position of the centre (bohr)"), 0.0)
+    charge: float = key(Spec("float", **_CHARGE, doc="nuclear charge Z (a.u.)"), 1.0)
+    softening: float | None = key(Spec("quantity", "length", **_SOFTENING, doc="softening a (bohr)"), None)
+
+
+@dataclass(frozen=True)
+class AtomConfig:
+    """The model atom or molecular ion (``[atom]``)."""
+
+    model: str = key(Spec("choice", choices=_potential_names, doc="model potential"), "soft-core")
+    charge: float = key(Spec("float", **_CHARGE, doc="nuclear charge Z (a.u.)"), 1.0)
+    softening: float | None = key(Spec("quantity", "length", **_SOFTENING, doc="softening a (bohr)"), None)
+    ionization_potential: float | None = key(
+        Spec("quantity", "energy", **_POSITIVE, doc="ionization potential to fit (Hartree)"), None
+    )
+    initial_state: tuple[int, ...] = key(
+        Spec("int_list", minimum=0, strict=False, doc="index or indices of the initial state"), (0,)
+    )
+    initial_amplitudes: tuple[float, ...] | None = key(
+        Spec("float_list", doc="amplitudes of a superposition initial state"), None
+    )
+    initial_phases: tuple[float, ...] | None = key(
+        Spec("float_list", doc="phases (rad) of a superposition initial state"), None
+    )
+    bound_states: int | None = key(
+        Spec("int", auto=True, minimum=1, strict=False, doc="number of bound states to compute"), None
+    )
+    depth_parameter: float = key(Spec("float", **_POSITIVE, doc="Poschl-Teller l"), 2.0)
+    trap_frequency: float = key(Spec("float", **_POSITIVE, doc="harmonic-oscillator frequency (a.u.)"), 1.0)
+    centres: tuple[CentreConfig, ...] = ()
+
+    @property
+    def fit_softening(self) -> bool:
+        return self.ionization_potential is not None
+
+
+@dataclass(frozen=True)
+class GridConfig:
+    """The spatial grid (``[grid]``); ``None`` means chosen from the estimates."""
+
+    points: int | None = key(Spec("int", auto=True, minimum=16, strict=False, doc="number of points"), None)
+    spacing: float | None = key(
+        Spec("quantity", "length", auto=True, minimum=1e-4, strict=False, maximum=100.0, doc="spacing (bohr)"), None
+    )
+
+
+@dataclass(frozen=True)
+class LaserConfig:
+    """One pulse (``[[laser]]``). Quantities in a.u.; None where not given."""
+
+    wavelength: float | None = key(
+        Spec("quantity", "length", bare_allowed=False, **_POSITIVE, doc="vacuum wavelength"), None
+    )
+    photon_energy: float | None = key(Spec("quantity", "energy", **_POSITIVE, doc="photon energy"), None)
+    peak_intensity: float | None = key(
+        Spec("quantity", "intensity", bare_allowed=False, **_POSITIVE, doc="peak (cycle-averaged) intensity"), None
+    )
+    peak_field: float | None = key(Spec("quantity", "electric_field", **_POSITIVE, doc="peak field"), None)
+    envelope: str = key(Spec("choice", choices=_envelope_names, doc="envelope shape"), "sin2")
+    cycles: float | None = key(Spec("float", **_POSITIVE, doc="length in optical cycles"), None)
+    fwhm: float | None = key(
+        Spec("quantity", "time", bare_allowed=False, **_POSITIVE, doc="intensity FWHM"), None
+    )
+    ramp_cycles: float = key(Spec("float", **_POSITIVE, doc="flat-top ramp length in cycles"), 2.0)
+    cep: float = key(Spec("quantity", "angle", doc="carrier-envelope phase (rad)"), 0.0)
+    delay: float = key(Spec("quantity", "time", bare_allowed=False, doc="time of the envelope centre"), 0.0)
+    chirp: float = key(Spec("quantity", "chirp_rate", doc="linear chirp rate d(omega)/dt (a.u.)"), 0.0)
+    field_file: str | None = key(Spec("str", doc="two-column file: time, field"), None)
+    time_unit: str | None = key(Spec("str", doc="unit of the file's time column"), None)
+    field_unit: str | None = key(Spec("str", doc="unit of the file's field column"), None)
+
+    @property
+    def omega(self) -> float | None:
+        """Carrier angular frequency (a.u.)."""
+        if self.photon_energy is not None:
+            return self.photon_energy
+        if self.wavelength is not None:
+            return 2 * math.pi * units.SPEED_OF_LIGHT_AU / self.wavelength
+        return None
+
+    @property
+    def amplitude(self) -> float | None:
+        """Peak field amplitude E0 (a.u.)."""
+        if self.peak_field is not None:
+            return self.peak_field
+        if self.peak_intensity is not None:
+            return math.sqrt(self.peak_intensity)
+        return None
+
+
+@dataclass(frozen=True)
+class PropagationConfig:
+    """Time propagation (``[propagation]``)."""
+
+    time_step: float | None = key(
+        Spec("quantity", "time", auto=True, minimum=1e-6, strict=False, doc="time step"), None
+    )
+    gauge: str = key(Spec("choice", choices=("length", "velocity"), doc="gauge"), "length")
+    order: int = key(Spec("choice", choices=(2, 4), doc="order of the splitting"), 2)
+    after_pulse: float | None = key(
+        Spec("quantity", "time", auto=True, minimum=0, strict=False, doc="field-free time after the pulses"), None
+    )
+
+
+@dataclass(frozen=True)
+class AbsorberConfig:
+    """Absorbing boundaries (``[absorber]``)."""
+
+    type: str = key(Spec("choice", choices=_absorber_names, doc="absorber"), "mask")
+    width: float | None = key(Spec("quantity", "length", auto=True, **_POSITIVE, doc="width of each side"), None)
+    exponent: float = key(Spec("float", **_POSITIVE, doc="exponent of the cos mask"), 0.125)
+    strength: float | None = key(
+        Spec("float", auto=True, **_POSITIVE, doc="peak of the complex absorbing potential (Hartree)"), None
+    )
+
+
+@dataclass(frozen=True)
+class OutputConfig:
+    """What is written (``[output]``)."""
+
+    file: str | None = key(Spec("str", doc="result file"), None)
+    # a million wavefunctions is far beyond a film or an analysis (every step of most
+    # runs); more is a typo, and the run's disk estimate would refuse it anyway
+    snapshots: int = key(Spec("int", minimum=0, strict=False, maximum=1e6, doc="number of wavefunction snapshots"),
+                         100)
+    snapshot_stride: int = key(Spec("int", minimum=1, strict=False, doc="keep every n-th grid point"), 1)
+    population_interval: float | None = key(
+        Spec("quantity", "time", auto=True, **_POSITIVE, doc="time between bound-state projections"), None
+    )
+    checkpoint_interval: float | None = key(
+        Spec("quantity", "time", bare_allowed=False, **_POSITIVE, doc="wall-clock time between checkpoints"), None
+    )
+
+
+@dataclass(frozen=True)
+class SpectraConfig:
+    """How spectra are computed (``[spectra]``)."""
+
+    window: str = key(Spec("choice", choices=_window_names, doc="window of the harmonic spectrum"), "hann")
+    photoelectrons: str = key(
+        Spec("choice", choices=("surface_flux", "none"),
+             doc="photoelectron spectrum by the flux through surfaces at the absorbers",
+             retired={"mask": '"mask" is no longer offered: use "surface_flux" (the time-dependent surface '
+                              'flux method), the default'}),
+        "surface_flux",
+    )
+
+
+@dataclass(frozen=True)
+class RunConfig:
+    """A validated run: every quantity in atomic units.
+
+    Attributes
+    ----------
+    raw : dict
+        The input as read, with overrides applied (the "resolved input").
+    source : str
+        The input file's path, for messages ("<string>" for text input).
+    base_dir : Path
+        Directory against which relative paths in the input are resolved.
+    """
+
+    atom: AtomConfig
+    lasers: tuple[LaserConfig, ...]
+    grid: GridConfig = GridConfig()
+    propagation: PropagationConfig = PropagationConfig()
+    absorber: AbsorberConfig = AbsorberConfig()
+    output: OutputConfig = OutputConfig()
+    spectra: SpectraConfig = SpectraConfig()
+    raw: dict = field(default_factory=dict, compare=False, repr=False)
+    source: str = "<string>"
+    base_dir: Path = Path(".")
+
+    @property
+    def resolved_toml(self) -> str:
+        """The resolved input as TOML text."""
+        return dump_toml(self.raw)
+
+    def resolve_path(self, name: str) -> Path:
+        """A path from the input, relative to the input file's directory."""
+        p = Path(name)
+        return p if p.is_absolute() else self.base_dir / p
+
+
+_SECTIONS = {
+    "grid": GridConfig,
+    "propagation": PropagationConfig,
+    "absorber": AbsorberConfig,
+    "output": OutputConfig,
+    "spectra": SpectraConfig,
+}
+
+
+def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
+    """Refuse a key of the [atom] table that another model reads and ``model`` does not
+    (e.g. ``trap_frequency`` with the soft-core model): it would be silently ignored."""
+    from ..physics.potentials import model_keys
+
+    keys = model_keys()
+    own = set(keys.get(model, ()))
+    for name in table:
+        owners = [m for m, ks in keys.items() if name in ks and m != model]
+        if owners and name not in own:
+            mine = ", ".join(sorted(own)) or "none"
+            raise InputError(
+                f"belongs to the {' and '.join(owners)} model, not to atom.model = '{model}' "
+                f"(whose own keys are: {mine})",
+                _join(path, name),
+            )
+
+
+def _read_atom(table, path):
+    atom = _read_table(
+        AtomConfig, table, path, nested={"centre": ("centres", lambda t, p: _read_array(CentreConfig, t, p))}
+    )
+    _refuse_other_models_keys(atom.model, table, path)
+    centres = atom.centres
+    if atom.model == "soft-core":
+        if centres:
+            for name in ("softening", "charge"):
+                if name in table:
+                    raise InputError(
+                        f"give '{name}' in each [[atom.centre]] table when centres are listed", _join(path, name)
+                    )
+            given = [c.softening is not None for c in centres]
+            if atom.fit_softening and any(given):
+                i = given.index(True)
+                raise InputError(
+                    "give either the softening of each centre or atom.ionization_potential, not both",
+                    f"{path}.centre.{i}.softening",
+                )
+            if not atom.fit_softening and not all(given):
+                i = given.index(False)
+                raise InputError(
+                    "missing softening (or give atom.ionization_potential to fit it)", f"{path}.centre.{i}.softening"
+                )
+        else:
+            if (atom.softening is None) == (not atom.fit_softening):
+                which = "both" if atom.fit_softening else "neither"
+                raise InputError(
+                    f"give exactly one of 'softening' and 'ionization_potential' ({which} given)",
+                    _join(path, "softening"),
+                )
+            centres = (CentreConfig(0.0, atom.charge, atom.softening),)
+        atom = dataclasses.replace(atom, centres=centres)
+    elif atom.fit_softening:
+        raise InputError(f"the {atom.model} model has no softening to fit", _join(path, "ionization_potential"))
+    n = len(atom.initial_state)
+    for name in ("initial_amplitudes", "initial_phases"):
+        got = getattr(atom, name)
+        if got is not None and len(got) != n:
+            raise InputError(f"needs {n} entries, one per initial_state, got {len(got)}", _join(path, name))
+    if atom.initial_amplitudes is not None and not any(a != 0 for a in atom.initial_amplitudes):
+        raise InputError("at least one amplitude must be non-zero", _join(path, "initial_amplitudes"))
+    if len(set(atom.initial_state)) != n:
+        raise InputError("lists a state twice", _join(path, "initial_state"))
+    return atom
+
+
+def _read_laser(table, path, base_dir: Path):
+    laser = _read_table(LaserConfig, table, path)
+    tabulated = laser.field_file is not None
+    if laser.wavelength is not None and laser.photon_energy is not None:
+        raise InputError("give either 'wavelength' or 'photon_energy', not both", _join(path, "photon_energy"))
+    if abs(laser.delay) > units.fs_to_au(MAX_DELAY_FS):
+        raise InputError(f"|delay| = {units.au_to_fs(abs(laser.delay)):.3g} fs is more than the {MAX_DELAY_FS:g} fs "
+                         "a run can span", _join(path, "delay"))
+    if laser.omega is not None:
+        which = "wavelength" if laser.wavelength is not None else "photon_energy"
+        nm = units.omega_to_nm(laser.omega)
+        if not MIN_WAVELENGTH_NM <= nm <= MAX_WAVELENGTH_NM:
+            lo_ev = units.au_to_ev(units.nm_to_omega(MAX_WAVELENGTH_NM))
+            hi_ev = units.au_to_ev(units.nm_to_omega(MIN_WAVELENGTH_NM))
+            raise InputError(
+                f"a carrier of {nm:.3g} nm ({units.au_to_ev(laser.omega):.3g} eV) is outside what the model holds: "
+                f"{MIN_WAVELENGTH_NM:g} nm to {MAX_WAVELENGTH_NM / 1e9:g} m ({lo_ev:.3g} to {hi_ev:.4g} eV; "
+                "shorter breaks the dipole approximation, longer takes more steps than a run may)",
+                _join(path, which),
+            )
+    if tabulated:
+        for name in ("time_unit", "field_unit"):
+            if getattr(laser, name) is None:
+                raise InputError(f"a field_file needs '{name}' (e.g. \"fs\", \"V/m\" or \"au\")", _join(path, name))
+        for name in ("peak_intensity", "peak_field", "cycles", "fwhm", "envelope", "ramp_cycles", "cep", "chirp"):
+            if name in table:
+                raise InputError("does not apply to a pulse read from field_file", _join(path, name))
+        return laser
+    if laser.omega is None:
+        raise InputError("missing 'wavelength' or 'photon_energy'", _join(path, "wavelength"))
+    if laser.peak_intensity is not None and laser.peak_field is not None:
+        raise InputError("give either 'peak_intensity' or 'peak_field', not both", _join(path, "peak_field"))
+    if laser.amplitude is None:
+        raise InputError("missing 'peak_intensity' (e.g. \"1e14 W/cm^2\")", _join(path, "peak_intensity"))
+    a0 = laser.amplitude / (laser.omega * units.SPEED_OF_LIGHT_AU)
+    if not a0 < MAX_NORMALISED_VECTOR_POTENTIAL:
+        which = "peak_field" if laser.peak_field is not None else "peak_intensity"
+        limit = units.field_to_intensity(MAX_NORMALISED_VECTOR_POTENTIAL * laser.omega * units.SPEED_OF_LIGHT_AU)
+        raise InputError(
+            f"relativistic: the quiver momentum E0/omega is {a0:.3g} m c (a0 >= {MAX_NORMALISED_VECTOR_POTENTIAL:g}), "
+            f"outside the non-relativistic Schrodinger equation; at {units.omega_to_nm(laser.omega):.4g} nm keep "
+            f"the intensity below {limit:.3g} W/cm^2",
+            _join(path, which),
+        )
+    if (laser.cycles is None) == (laser.fwhm is None):
+        which = "both" if laser.cycles is not None else "neither"
+        raise InputError(f"give exactly one of 'cycles' and 'fwhm' ({which} given)", _join(path, "cycles"))
+    if laser.envelope == "flat-top":
+        if laser.cycles is None:
+            raise InputError("a flat-top pulse is given by 'cycles' (total length)", _join(path, "cycles"))
+        if 2 * laser.ramp_cycles > laser.cycles:
+            raise InputError(
+                f"two ramps of {laser.ramp_cycles:g} cycles do not fit in {laser.cycles:g} cycles",
+                _join(path, "ramp_cycles"),
+            )
+    return laser
+
+
+def parse_input(raw: dict, source: str = "<string>", base_dir: Path | str = ".") -> RunConfig:
+    """Validate a parsed input (a dict as from TOML) into a :class:`RunConfig`.
+
+    Parameters
+    ----------
+    raw : dict
+        The input tables.
+    source : str
+        Name of the input, used in messages.
+    base_dir : path
+        Directory for relative paths in the input.
+
+    Raises
+    ------
+    InputError
+        With ``source`` and the dotted key filled in.
+    """
+    base_dir = Path(base_dir)
+    try:
+        if not isinstance(raw, dict):
+            raise InputError("the input must be a TOML document of tables")
+        known = ["atom", "laser"] + list(_SECTIONS)
+        for name in raw:
+            if name not in known:
+                near = difflib.get_close_matches(name, known, n=1)
+                hint = f"; did you mean '{near[0]}'?" if near else f"; known tables: {', '.join(known)}"
+                raise InputError(f"unknown table{hint}", name)
+        if "atom" not in raw:
+            raise InputError("missing required table [atom]", "atom")
+        atom = _read_atom(raw["atom"], "atom")
+        lasers = ()
+        if "laser" in raw:
+            items = raw["laser"]
+            if isinstance(items, dict):
+                items = [items]
+            if not isinstance(items, list):
+                raise InputError("must be an array of tables [[laser]]", "laser")
+            lasers = tuple(_read_laser(t, f"laser.{i}", base_dir) for i, t in enumerate(items))
+        sections = {name: _read_table(cls, raw.get(name, {}), name) for name, cls in _SECTIONS.items()}
+        return RunConfig(atom=atom, lasers=lasers, raw=copy.deepcopy(raw), source=source, base_dir=base_dir, **sections)
+    except InputError as exc:
+        if exc.source is None:
+            exc.source = source
+        raise
+
+
+def load_input(path, overrides=(), text: str | None = None) -> RunConfig:
+    """Read, override and validate one input file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+    overrides : iterable of (str, value) or of "KEY=VALUE" strings
+        Applied in order before validation.
+    text : str, optional
+        TOML text to use instead of reading ``path`` (``path`` then only names it).
+
+    Returns
+    -------
+    RunConfig
+
+    Raises
+    ------
+    InputError
+        For a missing file, a TOML syntax error (with its line) or any invalid key.
+    """
+    path = Path(path)
+    source = str(path)
+    if text is None:
+        try:
+            text = path.read_text(encoding="utf-8")
+        except UnicodeDecodeError as exc:
+            # the contents are not echoed: the file may be anything
+            raise InputError(f"not a text file: byte {exc.start} is not UTF-8 (an input is TOML text)",
+                             source=source) from None
+        except OSError as exc:
+            raise InputError(f"cannot read the input file ({exc.strerror})", source=source) from None
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"TOML syntax error: {exc}", source=source) from None
+    except ValueError as exc:  # e.g. an integer of more digits than Python converts
+        raise InputError(f"cannot read the TOML ({str(exc).split(';')[0]})", source=source) from None
+    try:
+        for item in overrides:
+            k, v = parse_override(item) if isinstance(item, str) else item
+            raw = apply_override(raw, k, v)
+    except InputError as exc:
+        exc.source = source
+        raise
+    return parse_input(raw, source=source, base_dir=path.parent)

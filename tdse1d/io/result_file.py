@@ -1,0 +1,412 @@
+"""HDF5 results: writing a run as it goes (:class:`ResultWriter`), and reading it back
+(:func:`read_result`).
+
+The layout is a contract (``docs/output.md`` lists every dataset with its units); every
+dataset carries a ``units`` attribute, and the root holds the resolved input TOML
+(``input``), the tdse1d version and the grid and time step actually used. The root
+attribute ``complete`` is set last, only after :func:`content_problems` found every
+dataset of the contract with its expected shape and the file still carries this
+writer's token; an existing ``NAME.h5`` that is not a tdse1d result (or is a directory)
+is never replaced (:func:`refuse_reason`). Locks and the guarded file are in
+:mod:`tdse1d.io.guarded_file`.
+
+Snapshots are streamed into a pre-sized dataset as they come, so memory does not grow
+with their number.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import time
+import uuid
+from dataclasses import dataclass
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from .. import __version__
+from ..errors import OutputError
+from ..semiclassical.estimates import as_attributes
+from .guarded_file import COMPLETE_ATTR, GuardedFile, HDF5_SIGNATURE, PART_SUFFIX, WRITER_ATTR, WriterLock, lock_path
+
+
+# ---------------------------------------------------------------- what is ours
+
+
+def is_result_file(path) -> bool:
+    """True if ``path`` is an HDF5 file written by ``tdse1d run`` (finished or not)."""
+    try:
+        with open(path, "rb") as fh:
+            if fh.read(len(HDF5_SIGNATURE)) != HDF5_SIGNATURE:
+                return False
+        with h5py.File(path, "r") as f:
+            return all(k in f.attrs for k in ("input", "tdse1d_version", "grid_points"))
+    except (OSError, ValueError):
+        return False
+
+
+def refuse_reason(path) -> str | None:
+    """Why a run must not write its result to ``path`` (None if it may).
+
+    A directory, or an existing file (or link) that is not a tdse1d result file, is
+    never replaced.
+    """
+    path = Path(path)
+    if path.is_dir():
+        return f"the output {str(path)!r} is a directory; give a file name"
+    if path.exists() or path.is_symlink():
+        if not is_result_file(path):
+            return (f"the output {str(path)!r} exists and is not a tdse1d result file; "
+                    "it is left alone: remove it or choose another name")
+    return None
+
+
+def content_problems(f, token: str | None = None) -> list[str]:
+    """What a result file lacks: every dataset of the contract with its expected shape.
+
+    Parameters
+    ----------
+    f : h5py.File
+    token : str, optional
+        The writer token the file must carry (checked before marking it complete).
+
+    Returns
+    -------
+    list of str
+        Empty for a whole file.
+    """
+    problems = []
+    try:
+        n = int(f.attrs["grid_points"])
+        s = int(f.attrs["steps"])
+    except (KeyError, ValueError, TypeError):
+        return ["no grid_points/steps attributes"]
+    if token is not None and f.attrs.get(WRITER_ATTR) != token:
+        problems.append("written over by another writer")
+    # shapes that follow from the header (the per-step series are checked against their
+    # own time axis, whatever its length: a run may store them decimated)
+    expected = {"grid/x": (n,), "final/psi": (n,), "states/energy": None, "spectra/harmonic/power": None,
+                "spectra/harmonic/frequency": None, "ionization/probability": None, "snapshots/psi": None,
+                "snapshots/time": None, "observables/time": None}
+    for name, shape in expected.items():
+        if name not in f:
+            problems.append(f"{name} missing")
+        elif shape is not None and f[name].shape != shape:
+            problems.append(f"{name} has shape {f[name].shape}, expected {shape}")
+    if "observables/time" in f:
+        steps = f["observables/time"].shape
+        if s > 0 and not 1 < steps[0] <= s + 1:
+            problems.append(f"observables/time has shape {steps} for {s} steps")
+        for name in ("norm", "dipole", "momentum", "acceleration"):
+            key = f"observables/{name}"
+            if key not in f:
+                problems.append(f"{key} missing")
+            elif f[key].shape != steps:
+                problems.append(f"{key} has shape {f[key].shape}, expected {steps}")
+    if "spectra/harmonic/power" in f and "spectra/harmonic/frequency" in f \
+            and f["spectra/harmonic/power"].shape != f["spectra/harmonic/frequency"].shape:
+        problems.append("spectra/harmonic/power and frequency differ in shape")
+    if "snapshots/psi" in f and "snapshots/time" in f and f["snapshots/psi"].shape[0] != f["snapshots/time"].shape[0]:
+        problems.append("snapshots/psi and snapshots/time differ in length")
+    return problems
+
+
+def write_dataset(group, name, data, units, **attrs):
+    """Create ``group[name]`` holding ``data`` with its ``units`` attribute (and others)."""
+    ds = group.create_dataset(name, data=data)
+    ds.attrs["units"] = units
+    for k, v in attrs.items():
+        ds.attrs[k] = v
+    return ds
+
+
+class ResultWriter:
+    """Writes one run's HDF5 file; used as the run's snapshot sink.
+
+    Parameters
+    ----------
+    path : path
+        Final file name; the data go to ``path + ".part"`` until :meth:`close`.
+    problem : Problem
+
+    Use as a context manager: on an exception the partial file is removed and the lock
+    released. Opening takes the lock ``path + ".lock"`` (:class:`WriterLock`) and
+    writes the header, so an output that cannot be written fails here, before any
+    propagation.
+
+    Raises
+    ------
+    OutputError
+        The output is a directory or a file that is not a tdse1d result.
+    OutputBusy
+        Another process is writing the same result.
+    OSError
+        The file cannot be created (read-only, no such directory, no space...).
+    """
+
+    def __init__(self, path, problem, snapshot_times=()):
+        self.path = Path(path)
+        self.part = self.path.with_name(self.path.name + PART_SUFFIX)
+        reason = refuse_reason(self.path)
+        if reason is not None:
+            raise OutputError(reason)
+        self.problem = problem
+        self.file = self._raw = None
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        self.lock = WriterLock(lock_path(self.path), what=str(self.path), purpose="tdse1d run").acquire()
+        try:
+            # we hold the lock: a .part here was left by a writer that died
+            self.part.unlink(missing_ok=True)
+            self._raw = GuardedFile.create(self.part, exclusive=True)
+            self.file = h5py.File(self._raw, "w")
+            self.token = uuid.uuid4().hex
+            self.file.attrs[WRITER_ATTR] = self.token
+            self._write_header(snapshot_times)
+            self.check()
+        except BaseException:
+            self.abort()
+            raise
+
+    @property
+    def note(self) -> str | None:
+        """A remark for the user (a stale lock taken over), or None."""
+        return self.lock.note
+
+    def check(self):
+        """Raise the first write error (OSError) met so far, e.g. a full disk."""
+        self._raw.raise_error()
+
+    # -------------------------------------------------------------- header
+    def _write_header(self, snapshot_times):
+        f, p = self.file, self.problem
+        cfg = p.config
+        f.attrs["input"] = cfg.resolved_toml
+        f.attrs["input_source"] = str(cfg.source)
+        f.attrs["tdse1d_version"] = __version__
+        f.attrs["grid_points"] = p.grid.points
+        f.attrs["grid_spacing"] = p.grid.spacing
+        f.attrs["time_step"] = p.time.step
+        f.attrs["steps"] = p.time.steps
+        f.attrs["gauge"] = cfg.propagation.gauge
+        f.attrs["order"] = cfg.propagation.order
+        f.attrs["absorber"] = cfg.absorber.type
+        f.attrs["absorber_width"] = p.absorber_width
+        f.attrs["potential"] = p.potential.describe()
+        f.attrs["warnings"] = "\n".join(p.warnings)
+        f.attrs[COMPLETE_ATTR] = False
+        write_dataset(f.create_group("grid"), "x", p.grid.x, "bohr")
+        f["grid"].attrs["spacing"] = p.grid.spacing
+        states = f.create_group("states")
+        write_dataset(states, "energy", p.states.energies, "hartree")
+        write_dataset(states, "wavefunction", p.states.wavefunctions, "bohr^-1/2")
+        est = f.create_group("estimates")
+        if p.pulse_estimates:
+            for k, v in as_attributes(p.pulse_estimates[0]).items():
+                est.attrs[k] = v
+            for i, pe in enumerate(p.pulse_estimates):
+                g = est.create_group(f"pulse_{i}")
+                for k, v in as_attributes(pe).items():
+                    g.attrs[k] = v
+        est.attrs["units"] = "atomic units (hartree, bohr, a.u. of time and field) unless the name says otherwise"
+        stride = cfg.output.snapshot_stride
+        n_snap = len(snapshot_times)
+        snaps = f.create_group("snapshots")
+        self._snap_time = write_dataset(snaps, "time", np.asarray(snapshot_times, float), "atomic_unit_of_time")
+        x = p.grid.x[::stride]
+        write_dataset(snaps, "x", x, "bohr")
+        self._stride = stride
+        self._snap = snaps.create_dataset(
+            "psi", shape=(n_snap, len(x)), dtype=np.complex128,
+            chunks=(1, len(x)) if n_snap else None,
+        )
+        self._snap.attrs["units"] = "bohr^-1/2"
+        self._snap.attrs["gauge"] = "length"
+
+    # ---------------------------------------------------------------- sink
+    def snapshot(self, index, time, psi):
+        """Store snapshot ``index`` (length gauge) at ``time`` (a.u.)."""
+        self._snap[index] = psi[:: self._stride]
+        self._snap_time[index] = time
+        self.check()
+
+    # ------------------------------------------------------------- results
+    def write_result(self, result, extra=None):
+        """Write the run's observables, spectra and ionization; ``extra`` is a callable
+        given the open file to add analysis groups."""
+        f = self.file
+        obs = result.observables
+        fld = f.create_group("field")
+        write_dataset(fld, "time", obs.time, "atomic_unit_of_time")
+        write_dataset(fld, "electric", obs.electric, "atomic_unit_of_electric_field")
+        write_dataset(fld, "vector_potential", obs.vector_potential, "atomic_unit_of_vector_potential")
+        o = f.create_group("observables")
+        write_dataset(o, "time", obs.time, "atomic_unit_of_time")
+        write_dataset(o, "dipole", obs.dipole, "bohr", description="<x>, dipole moment per electron charge")
+        write_dataset(o, "momentum", obs.momentum, "atomic_unit_of_momentum", description="kinetic momentum <p>")
+        write_dataset(o, "acceleration", obs.acceleration, "atomic_unit_of_acceleration",
+                 description="Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t)")
+        write_dataset(o, "norm", obs.norm, "1")
+        write_dataset(o, "initial_population", obs.initial_population, "1")
+        write_dataset(o, "population_time", result.population_time, "atomic_unit_of_time")
+        write_dataset(o, "bound_population", result.bound_population, "1",
+                 description="|<phi_n|psi>|^2 at population_time, shape (time, state)")
+        write_dataset(o, "absorbed", obs.norm[0] - obs.norm, "1", description="norm removed by the absorber so far")
+        h = f.create_group("spectra/harmonic")
+        hs = result.harmonic
+        write_dataset(h, "frequency", hs.frequency, "hartree", description="angular frequency = photon energy")
+        write_dataset(h, "order", hs.order, "1", description="frequency / carrier frequency of the first pulse")
+        write_dataset(h, "power", hs.power, "atomic_units", description="|FFT of windowed acceleration|^2")
+        h.attrs["window"] = self.problem.config.spectra.window
+        if result.cutoff is not None:
+            h.attrs["cutoff_frequency"] = result.cutoff.frequency
+            h.attrs["cutoff_order"] = result.cutoff.order
+            h.attrs["cutoff_resolved"] = bool(result.cutoff.resolved)
+        for method, spec in result.photoelectrons.items():
+            g = f.create_group(f"spectra/photoelectron/{method}")
+            g.attrs["method"] = method
+            g.attrs["split"] = spec.split
+            write_dataset(g, "momentum", spec.momentum, "atomic_unit_of_momentum", description="|p|")
+            write_dataset(g, "density_left", spec.density_left, "1/atomic_unit_of_momentum")
+            write_dataset(g, "density_right", spec.density_right, "1/atomic_unit_of_momentum")
+            write_dataset(g, "energy", spec.energy, "hartree")
+            write_dataset(g, "energy_density_left", spec.energy_density_left, "1/hartree")
+            write_dataset(g, "energy_density_right", spec.energy_density_right, "1/hartree")
+        ion = f.create_group("ionization")
+        write_dataset(ion, "probability", result.ionization_probability, "1",
+                      description="1 - population of all bound states (held + edge + beyond), docs/analysis.md")
+        est = getattr(result, "ionization", None)
+        if est is not None:
+            write_dataset(ion, "probability_band", np.array([est.lower, est.upper]), "1",
+                          description="lower and upper ends of the band covering the estimate's error")
+            write_dataset(ion, "bound_held", est.held, "1", description="population of the bound states the box holds")
+            write_dataset(ion, "bound_edge", est.edge, "1",
+                          description="population of the grid's E < 0 states reaching into the absorber")
+            write_dataset(ion, "bound_beyond", est.beyond, "1",
+                          description="estimated population of Rydberg states above the grid's highest level")
+            write_dataset(ion, "bound_unheld", est.unheld, "1",
+                          description="bound_edge + bound_beyond: population in bound states the box cannot hold")
+            write_dataset(ion, "time", est.time, "atomic_unit_of_time",
+                          description="when the populations were read: first record at or after the field's end")
+            ion.attrs["states_found"] = est.states_found
+            ion.attrs["states_held"] = est.states_held
+            ion.attrs["states_complete"] = est.complete
+            ion.attrs["top_held_energy"] = est.top_held_energy
+            ion.attrs["edge_loss_rate"] = est.edge_loss_rate
+            ion.attrs["converged"] = est.converged
+        write_dataset(ion, "absorbed", result.absorbed, "1", description="norm removed by the absorber")
+        final = f.create_group("final")
+        write_dataset(final, "psi", result.final_state, "bohr^-1/2", gauge="length")
+        f.attrs["warnings"] = "\n".join(result.warnings)
+        if extra is not None:
+            extra(f)
+        self.check()
+
+    def close(self):
+        """Check the content, mark complete, sync, rename to the final name, release the lock.
+
+        Raises
+        ------
+        OutputError
+            A dataset of the contract is missing or has the wrong shape, or the file
+            was written over by another writer: the file is not marked complete.
+        OSError
+            A write failed.
+        """
+        self.check()
+        self.file.flush()
+        problems = content_problems(self.file, self.token)
+        if problems:
+            raise OutputError(f"{self.path} is not whole ({'; '.join(problems)}); it was not marked complete")
+        self.file.attrs[COMPLETE_ATTR] = True  # last: only a whole file carries it
+        self.file.close()
+        self.file = None
+        self._raw.sync()
+        self.check()
+        self._raw.close()
+        reason = refuse_reason(self.path)  # something may have appeared there meanwhile
+        if reason is not None:
+            raise OutputError(reason)
+        os.replace(self.part, self.path)
+        _fsync_dir(self.path.parent)
+        self.lock.release()
+
+    def abort(self):
+        """Close and delete the partial file, release the lock (never raises for the file)."""
+        try:
+            if self.file is not None:
+                with contextlib.suppress(Exception):
+                    self.file.close()
+                self.file = None
+            if self._raw is not None:
+                self._raw.close()
+            with contextlib.suppress(OSError):
+                self.part.unlink(missing_ok=True)
+        finally:
+            self.lock.release()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is not None:
+            self.abort()
+        return False
+
+
+def _fsync_dir(directory: Path):
+    try:
+        fd = os.open(directory, os.O_RDONLY)
+    except OSError:  # pragma: no cover - platforms without directory fds
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
+
+
+def is_complete(path) -> bool:
+    """True if ``path`` is a finished, readable result file."""
+    try:
+        with h5py.File(path, "r") as f:
+            return bool(f.attrs.get(COMPLETE_ATTR, False))
+    except (OSError, KeyError):
+        return False
+
+
+@dataclass
+class ResultFile:
+    """A result file opened for reading (use :func:`read_result`)."""
+
+    path: Path
+    file: h5py.File
+
+    def __getitem__(self, key):
+        return self.file[key][()]
+
+    def attrs(self, key="/"):
+        return dict(self.file[key].attrs)
+
+    @property
+    def input_toml(self) -> str:
+        return self.file.attrs["input"]
+
+    def close(self):
+        self.file.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+
+def read_result(path) -> ResultFile:
+    """Open a finished result file; raises ValueError for an incomplete one."""
+    path = Path(path)
+    if not is_complete(path):
+        raise ValueError(f"{path} is not a finished tdse1d result file")
+    return ResultFile(path, h5py.File(path, "r"))

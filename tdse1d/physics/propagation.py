@@ -1,0 +1,443 @@
+"""Split-operator propagation of the time-dependent Schrodinger equation on a Fourier grid.
+
+The split-operator Fourier method (Feit, Fleck and Steiger, J. Comput. Phys. 47, 412
+(1982)) alternates exact propagation under the potential (point-wise in x) and under
+the kinetic energy (point-wise in k, reached by FFT). The basic step is the symmetric
+(Strang) splitting with the time-dependent parts taken at the sub-step's midpoint,
+
+    S2(h; t) = exp(-i h/2 V(t + h/2)) exp(-i h T(t + h/2)) exp(-i h/2 V(t + h/2)),
+
+which is time-symmetric and second order. Higher orders are symmetric compositions
+S2(w_1 h) ... S2(w_m h) (Yoshida, Phys. Lett. A 150, 262 (1990); Suzuki, Phys. Lett. A
+146, 319 (1990)), each sub-step at its own midpoint time. Adjacent potential halves
+within a step are merged.
+
+Gauges (electron charge -1, E = -dA/dt):
+
+* length gauge: V(x, t) = V(x) + x E(t); the grid momentum is the kinetic momentum;
+* velocity gauge: T(t) = (p + A(t))^2 / 2, the A^2/2 term included (a phase common to
+  all of space, folded into the linear-phase table at no cost), so that
+  psi_L = exp(i A x) psi_V holds exactly, global phase included, and a wave propagated
+  here keeps the phase of the Volkov waves of :mod:`tdse1d.spectra.surface_flux`; the kinetic
+  momentum is p + A(t).
+
+Absorption (:mod:`tdse1d.physics.absorbers`) is applied at every step, after its last sub-step.
+Observables are recorded at every step t_n: norm, dipole <x>, kinetic momentum <p>,
+the Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t) (a more accurate source of
+harmonic spectra than differentiating the dipole; Burnett et al., Phys. Rev. A 45, 3347
+(1992), from memory), and the population of the initial state; the bound-state
+populations at a coarser cadence. Given a :class:`tdse1d.spectra.surface_flux.SurfaceFlux`,
+the propagator adds the flux through its surfaces at every step.
+
+The time loop allocates no arrays: every work array is made in the constructor, and the
+point-wise work is done by the fused kernels of :mod:`tdse1d.physics.kernels`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import kernels
+from ..errors import NumericalError
+from .fft import InPlaceFFT
+from .grid import Grid
+from ..registry import registrar
+
+__all__ = [
+    "SplittingScheme",
+    "Strang",
+    "Yoshida4",
+    "Suzuki4",
+    "SCHEMES",
+    "register_scheme",
+    "scheme_for_order",
+    "Propagator",
+    "Observables",
+    "NumericalError",
+]
+
+SCHEMES: dict[str, type["SplittingScheme"]] = {}
+
+
+register_scheme = registrar(SCHEMES)
+
+
+class SplittingScheme:
+    """A symmetric composition of midpoint Strang steps.
+
+    Contract for an implementer: ``weights`` is a palindromic tuple of floats summing
+    to 1 (sub-step i lasts ``weights[i] * h``; negative weights step backwards in time),
+    and ``order`` is the order of the composition.
+    """
+
+    name = "?"
+    order: int
+    weights: tuple[float, ...]
+
+    @classmethod
+    def check(cls):
+        w = np.asarray(cls.weights)
+        assert abs(w.sum() - 1) < 1e-14 and np.allclose(w, w[::-1]), cls
+
+
+@register_scheme("strang")
+class Strang(SplittingScheme):
+    """Strang splitting V/2 T V/2 (Strang, SIAM J. Numer. Anal. 5, 506 (1968)), 2nd order."""
+
+    order = 2
+    weights = (1.0,)
+
+
+_CBRT2 = 2 ** (1 / 3)
+
+
+@register_scheme("yoshida4")
+class Yoshida4(SplittingScheme):
+    """Triple jump w1, w0, w1 with w1 = 1/(2 - 2^(1/3)), w0 = 1 - 2 w1 (Yoshida 1990), 4th order."""
+
+    order = 4
+    weights = (1 / (2 - _CBRT2), 1 - 2 / (2 - _CBRT2), 1 / (2 - _CBRT2))
+
+
+_P5 = 1 / (4 - 4 ** (1 / 3))
+
+
+@register_scheme("suzuki4")
+class Suzuki4(SplittingScheme):
+    """Five-stage fractal p, p, 1 - 4p, p, p with p = 1/(4 - 4^(1/3)) (Suzuki 1990), 4th order.
+
+    Smaller error constant than the triple jump for the same order, at 5/3 of the cost.
+    """
+
+    order = 4
+    weights = (_P5, _P5, 1 - 4 * _P5, _P5, _P5)
+
+
+for _cls in SCHEMES.values():
+    _cls.check()
+
+#: scheme used for each ``propagation.order``
+DEFAULT_SCHEME_FOR_ORDER = {2: "strang", 4: "yoshida4"}
+
+
+def scheme_for_order(order: int) -> type[SplittingScheme]:
+    return SCHEMES[DEFAULT_SCHEME_FOR_ORDER[order]]
+
+
+@dataclass
+class Observables:
+    """Observables at every time step (arrays of length steps + 1), atomic units."""
+
+    time: np.ndarray
+    electric: np.ndarray
+    vector_potential: np.ndarray
+    norm: np.ndarray
+    dipole: np.ndarray
+    momentum: np.ndarray
+    acceleration: np.ndarray
+    initial_population: np.ndarray
+
+    @classmethod
+    def empty(cls, times, electric, vector_potential):
+        n = len(times)
+        nan = lambda: np.full(n, np.nan)  # noqa: E731
+        return cls(times, electric, vector_potential, nan(), nan(), nan(), nan(), nan())
+
+
+class Propagator:
+    """Split-operator propagator of one wavefunction on a Fourier grid.
+
+    Parameters
+    ----------
+    grid : Grid
+    potential : Potential
+        Field-free potential with ``value`` and ``gradient``.
+    field : Field
+        Provides ``electric(t)`` and ``vector_potential(t)`` (a.u.).
+    times : ndarray
+        Uniform times t_0 ... t_N of the steps (a.u.).
+    gauge : {"length", "velocity"}
+    scheme : type of SplittingScheme
+    absorber_factor : ndarray, optional
+        Per-step absorber factor M(x) in (0, 1] (all ones if None).
+    reference : ndarray, optional
+        State whose population is recorded every step (the initial state).
+    fft_effort : str
+        FFTW planner flag.
+    surface_flux : tdse1d.spectra.surface_flux.SurfaceFlux, optional
+        Accumulates the flux through its surfaces: the propagator adds the state of
+        every step to it (the first with :meth:`start`, the last half-weight
+        correction with :meth:`finish`).
+
+    Notes
+    -----
+    Use :meth:`start` with the initial wavefunction, then :meth:`advance` as many steps
+    as wanted (callers interleave snapshots, checkpoints and progress between calls),
+    and :meth:`finish` to record the last momentum. ``psi`` is the current state.
+    """
+
+    def __init__(self, grid: Grid, potential, field, times, gauge="length", scheme=None,
+                 absorber_factor=None, reference=None, fft_effort="FFTW_MEASURE",
+                 surface_flux=None):
+        if gauge not in ("length", "velocity"):
+            raise ValueError(f"gauge must be 'length' or 'velocity', got {gauge!r}")
+        times = np.asarray(times, dtype=float)
+        if times.ndim != 1 or len(times) < 2:
+            raise ValueError("times must be a 1-D array of at least two times")
+        steps = np.diff(times)
+        h = float(steps.mean())
+        if not (h > 0 and np.allclose(steps, h, rtol=1e-9, atol=1e-12 * abs(h))):
+            raise ValueError("times must be uniform and increasing")
+        self.grid = grid
+        self.field = field
+        self.times = times
+        self.time_step = h
+        self.gauge = gauge
+        self.scheme = scheme or Strang
+        n = grid.points
+        self.block = kernels.block_size(n)
+        nb = n // self.block
+        self._fft = InPlaceFFT(n, fft_effort)
+        self.psi = self._fft.data
+
+        x = grid.x
+        k = grid.k
+        v = potential.value(x)
+        self._x = np.ascontiguousarray(x)
+        self._k = np.ascontiguousarray(k)
+        self._grad = np.ascontiguousarray(potential.gradient(x))
+        self._mask = np.ones(n) if absorber_factor is None else np.ascontiguousarray(absorber_factor, dtype=float)
+        if self._mask.shape != (n,) or np.any(self._mask <= 0) or np.any(self._mask > 1):
+            raise ValueError("absorber_factor must hold values in (0, 1] on the grid")
+        self.surface_flux = surface_flux
+        self._reference = np.ascontiguousarray(
+            np.zeros(n, complex) if reference is None else np.asarray(reference, dtype=complex)
+        )
+
+        # the sub-step plan: potential kicks with coefficients c (times h), kinetic
+        # steps with weights w, and the midpoint times (fractions of h) of each
+        w = np.asarray(self.scheme.weights)
+        offsets = np.concatenate([[0.0], np.cumsum(w)[:-1]])
+        self._kinetic_weights = w
+        self._kinetic_mid = offsets + w / 2
+        # potential kick i (0..m) combines the half kicks adjacent to it
+        # as (coefficient, index of the kinetic sub-step whose midpoint field it uses)
+        self._kick_parts = []
+        for i in range(len(w) + 1):
+            parts = []
+            if i > 0:
+                parts.append((w[i - 1] / 2, i - 1))
+            if i < len(w):
+                parts.append((w[i] / 2, i))
+            self._kick_parts.append(tuple(parts))
+
+        # static phases, one per distinct coefficient; 1/N of the inverse FFT folded in
+        def vphase(c):
+            return np.ascontiguousarray(np.exp(-1j * c * h * v))
+
+        self._kick_phase = [vphase(sum(c for c, _ in parts)) for parts in self._kick_parts]
+        self._kinetic_phase = [np.ascontiguousarray(np.exp(-1j * wi * h * 0.5 * k**2) / n) for wi in w]
+
+        # linear-phase tables (x in the length gauge, k in the velocity gauge)
+        starts = np.arange(nb) * self.block
+        self._x_first = x[starts].copy()
+        self._k_first = k[starts].copy()
+        self._coarse = np.ones(nb, complex)
+        self._fine = np.ones(self.block, complex)
+        self._ref_coarse = np.ones(nb, complex)
+        self._ref_fine = np.ones(self.block, complex)
+        self._ones_coarse = np.ones(nb, complex)
+        self._ones_fine = np.ones(self.block, complex)
+
+        # float64 views for the kernels (made once; views do not copy)
+        f = lambda a: a.view(np.float64)  # noqa: E731
+        self._v_psi = f(self.psi)
+        self._v_kick = [f(a) for a in self._kick_phase]
+        self._v_kinetic = [f(a) for a in self._kinetic_phase]
+        self._v_coarse, self._v_fine = f(self._coarse), f(self._fine)
+        self._v_ref = f(self._reference)
+        self._v_ref_coarse, self._v_ref_fine = f(self._ref_coarse), f(self._ref_fine)
+        self._v_ones_coarse, self._v_ones_fine = f(self._ones_coarse), f(self._ones_fine)
+
+        # field at every midpoint, precomputed so the loop does no field evaluation
+        mids = times[:-1, None] + h * self._kinetic_mid[None, :]
+        self._e_mid = np.asarray(field.electric(mids.ravel())).reshape(mids.shape) if field.pulses else np.zeros(mids.shape)
+        self._a_mid = np.asarray(field.vector_potential(mids.ravel())).reshape(mids.shape) if field.pulses else np.zeros(mids.shape)
+        e_t = field.electric(times) if field.pulses else np.zeros(len(times))
+        a_t = field.vector_potential(times) if field.pulses else np.zeros(len(times))
+        self.observables = Observables.empty(times, np.asarray(e_t, float), np.asarray(a_t, float))
+        self.step_index = 0
+        self._pending_momentum = 0.0  # <k> of the first kinetic sub-step, for <p>(t_n)
+
+    # ------------------------------------------------------------------ state
+    @property
+    def steps(self) -> int:
+        return len(self.times) - 1
+
+    @property
+    def time(self) -> float:
+        return float(self.times[self.step_index])
+
+    def start(self, psi0, step_index: int = 0):
+        """Set the state at ``times[step_index]`` and record its observables.
+
+        At step 0 the state's flux enters the surface-flux integral with weight h/2; a
+        resumed run (step > 0) restores the accumulator from its checkpoint instead.
+        """
+        psi0 = np.asarray(psi0, dtype=complex)
+        if psi0.shape != (self.grid.points,):
+            raise ValueError(f"psi0 must have shape ({self.grid.points},), got {psi0.shape}")
+        if not np.all(np.isfinite(psi0)):
+            raise ValueError("psi0 holds non-finite values")
+        self.psi[:] = psi0
+        self.step_index = step_index
+        self._record_position(step_index, *self._position_moments(step_index))
+        if self.surface_flux is not None and step_index == 0:
+            self.surface_flux.add(self._v_psi, 0, float(self.observables.vector_potential[0]),
+                                  0.5 * self.time_step, advance=False)
+
+    def vector_potential_steps(self):
+        """int A dt and int A^2 dt over each step, by the propagator's midpoint rule.
+
+        Returns
+        -------
+        dG, dH : ndarray, shape (steps,)
+            (a.u.) The Volkov phase of a velocity-gauge free wave advances by
+            p^2 h / 2 + p dG + dH / 2 per step, exactly as this propagator moves it.
+        """
+        w = self._kinetic_weights * self.time_step
+        return self._a_mid @ w, self._a_mid**2 @ w
+
+    def _velocity_reference_phase(self, a):
+        # psi_L = exp(i A x) psi_V, so <ref|psi_L> = sum conj(ref exp(-i A x)) psi_V:
+        # the kernel conjugates ref', so it is given ref' = ref exp(-i A x)
+        if self.gauge == "velocity" and a != 0.0:
+            kernels.linear_phase(a, self._x_first, self.grid.spacing, self.block, self._v_ref_coarse, self._v_ref_fine)
+            return self._v_ref_coarse, self._v_ref_fine
+        return self._v_ones_coarse, self._v_ones_fine
+
+    def _position_moments(self, n):
+        a = self.observables.vector_potential[n]
+        rc, rf = self._velocity_reference_phase(a)
+        psi = self.psi
+        d = psi.real**2 + psi.imag**2  # once per start/finish only, not in the loop
+        rc, rf = rc.view(complex), rf.view(complex)
+        r = self._reference * np.repeat(rc, self.block) * np.tile(rf, len(rc))
+        return float(d.sum()), float(d @ self._x), float(d @ self._grad), complex(np.vdot(r, psi))
+
+    def _record_position(self, n, s0, s1, s2, ov):
+        dx = self.grid.spacing
+        obs = self.observables
+        obs.norm[n] = s0 * dx
+        obs.dipole[n] = s1 * dx
+        obs.acceleration[n] = -s2 * dx - obs.electric[n] * s0 * dx
+        obs.initial_population[n] = abs(ov * dx) ** 2
+        self._force = s2 * dx  # <V'>_n, for the momentum of step n
+
+    # ------------------------------------------------------------------- loop
+    def advance(self, count: int) -> int:
+        """Take up to ``count`` steps; returns the number taken."""
+        count = min(count, self.steps - self.step_index)
+        psi = self._v_psi
+        fft = self._fft
+        block = self.block
+        h = self.time_step
+        dx = self.grid.spacing
+        dk = self.grid.k[1]
+        length = self.gauge == "length"
+        obs = self.observables
+        x_first, k_first = self._x_first, self._k_first
+        coarse, fine = self._v_coarse, self._v_fine
+        ones_c, ones_f = self._v_ones_coarse, self._v_ones_fine
+        kick_parts = self._kick_parts
+        flux = self.surface_flux
+        last = len(kick_parts) - 1
+        for _ in range(count):
+            n = self.step_index
+            e_mid = self._e_mid[n]
+            a_mid = self._a_mid[n]
+            for i in range(last + 1):
+                if length:
+                    theta = 0.0
+                    for c, j in kick_parts[i]:
+                        theta += c * h * e_mid[j]
+                    kernels.linear_phase(theta, x_first, dx, block, coarse, fine)
+                    kc, kf = coarse, fine
+                else:
+                    kc, kf = ones_c, ones_f
+                if i < last:
+                    kernels.kick(psi, self._v_kick[i], kc, kf, block)
+                    fft.forward()
+                    if length:
+                        lc, lf = ones_c, ones_f
+                    else:
+                        wh = self._kinetic_weights[i] * h
+                        # exp(-i w h (k + A)^2 / 2) = static k^2 table * exp(-i w h (A k + A^2 / 2))
+                        kernels.linear_phase(wh * a_mid[i], k_first, dk, block, coarse, fine,
+                                             0.5 * wh * a_mid[i] * a_mid[i])
+                        lc, lf = coarse, fine
+                    s0, s1 = kernels.kinetic_moment(psi, self._v_kinetic[i], lc, lf, block, self._k)
+                    if i == 0:
+                        self._pending_momentum = s1 / s0 if s0 > 0 else 0.0
+                    fft.backward()
+                else:
+                    rc, rf = self._velocity_reference_phase(obs.vector_potential[n + 1])
+                    s0, s1, s2, ovr, ovi = kernels.kick_observe(
+                        psi, self._v_kick[i], kc, kf, block, self._mask,
+                        self._x, self._grad, self._v_ref, rc, rf,
+                    )
+                    if flux is not None:
+                        flux.add(psi, n + 1, float(obs.vector_potential[n + 1]), h, advance=True)
+            self._record_momentum(n)
+            self.step_index = n + 1
+            self._record_position(n + 1, s0, s1, s2, complex(ovr, ovi))
+            if not (obs.norm[n + 1] <= obs.norm[n] * (1 + 1e-9) + 1e-12):
+                what = "non-finite values in the wavefunction" if not np.isfinite(obs.norm[n + 1]) else (
+                    f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")
+                raise NumericalError(what, n + 1, float(self.times[n + 1]))
+        return count
+
+    def _record_momentum(self, n):
+        """<p>(t_n) from <k> after the first potential kick of step n: that kick changes
+        <p> by exactly -c h <V' + E> (length) or -c h <V'> (velocity) and not |psi|."""
+        obs = self.observables
+        c, _ = self._kick_parts[0][0]
+        h = self.time_step
+        norm = obs.norm[n]
+        kick = self._force
+        if self.gauge == "length":
+            kick += self._e_mid[n][0] * norm
+        p = self._pending_momentum * norm + c * h * kick
+        if self.gauge == "velocity":
+            p += obs.vector_potential[n] * norm
+        obs.momentum[n] = p
+
+    def finish(self):
+        """Record the momentum at the last step reached (needs one extra FFT), and
+        complete the trapezoidal rule of the surface flux (call once)."""
+        n = self.step_index
+        if self.surface_flux is not None:
+            self.surface_flux.add(self._v_psi, n, float(self.observables.vector_potential[n]),
+                                  -0.5 * self.time_step, advance=False)
+        saved = self.psi.copy()
+        self._fft.forward()
+        d = self.psi.real**2 + self.psi.imag**2
+        s0 = d.sum()
+        mean_k = float(d @ self._k / s0) if s0 > 0 else 0.0
+        self.psi[:] = saved
+        norm = self.observables.norm[n]
+        p = mean_k * norm
+        if self.gauge == "velocity":
+            p += self.observables.vector_potential[n] * norm
+        self.observables.momentum[n] = p
+
+    def length_gauge_state(self) -> np.ndarray:
+        """The current state in the length gauge (a copy)."""
+        a = float(self.observables.vector_potential[self.step_index])
+        if self.gauge == "velocity" and a != 0.0:
+            return self.psi * np.exp(1j * a * self._x)
+        return self.psi.copy()
+

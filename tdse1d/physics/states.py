@@ -1,0 +1,430 @@
+"""Bound states of the model on the run's own Fourier grid.
+
+The Hamiltonian is H = T + V with the Fourier-grid kinetic operator T = F^-1 (k^2/2) F,
+the same operator the split-operator propagator applies (Kosloff, J. Phys. Chem. 92,
+2087 (1988), from memory), so the states found here are stationary under propagation to
+the accuracy of the time step.
+
+Two ways of asking:
+
+* **All bound states** (``count=None``, what a run uses): every eigenpair with E < 0 on
+  the whole grid, none dropped, so the ionization probability (:mod:`tdse1d.physics.ionization`)
+  can count every bound state the box holds. Up to :data:`DENSE_POINTS` points this is a
+  dense solve of the whole grid restricted to E < 0 (LAPACK MRRR via
+  :func:`scipy.linalg.eigh`, only the eigenpairs used). On larger grids the E < 0
+  eigenvalues of a banded high-order finite-difference Hamiltonian (LAPACK band
+  reduction, cost ~ points^2) count the states and give start vectors by inverse
+  iteration; a Rayleigh-Ritz step with the Fourier-grid H (applied by FFT) on those
+  vectors and their preconditioned residuals turns them into eigenpairs of the run's
+  own H. The result says how many were found and whether each converged.
+* **The lowest ``count`` states**: dense diagonalisation of H on a window of the grid
+  around the origin (the whole grid when it is small), refined on the full grid with
+  LOBPCG (Knyazev, SIAM J. Sci. Comput. 23, 517 (2001)) using H applied by FFT and a
+  kinetic-energy preconditioner, until the eigenvalue residual corresponds to an
+  energy error below ``tolerance``.
+"""
+
+from __future__ import annotations
+
+import functools
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+from scipy.optimize import brentq
+from scipy.sparse.linalg import LinearOperator, lobpcg
+
+from .grid import Grid
+from .potentials import Potential
+
+__all__ = [
+    "BoundStates",
+    "kinetic_matrix",
+    "hamiltonian_matrix",
+    "bound_states",
+    "ground_state_energy",
+    "fit_softening",
+    "initial_wavefunction",
+    "SofteningFitError",
+]
+
+#: half-width (bohr) of the window in which a given number of lowest states is looked for
+STATE_WINDOW = 150.0
+#: half-width (bohr) of the window used while fitting a softening (ground state only)
+FIT_WINDOW = 25.0
+#: most points of a dense window (the dense solve costs points^3)
+MAX_WINDOW_POINTS = 2048
+#: largest grid on which all bound states come from a dense solve of the whole grid
+#: (measured on one core: 0.07 s at 1000 points, 0.45 s at 2000, 7 s at 4000)
+DENSE_POINTS = 4096
+#: half-width of the finite-difference stencil of the banded Hamiltonian (order 2 x this)
+FD_HALF_WIDTH = 8
+#: most block Rayleigh-Ritz sweeps refining the banded start vectors on a large grid
+REFINE_SWEEPS = 2
+#: levels kept when the model has no bound state at all (a confining trap, all E > 0)
+TRAP_LEVELS = 10
+#: largest relative change of a fitted ground state when the grid spacing is halved
+MAX_FIT_GRID_ERROR = 1e-3
+
+
+class SofteningFitError(ValueError):
+    """No softening gives the requested ionization potential."""
+
+
+@dataclass(frozen=True)
+class BoundStates:
+    """Bound states on a grid.
+
+    Attributes
+    ----------
+    energies : ndarray, shape (n,)
+        Eigenvalues in Hartree, ascending.
+    wavefunctions : ndarray, shape (n, points)
+        Real eigenfunctions normalised to sum |phi|^2 dx = 1, each with its largest
+        component positive.
+    grid : Grid
+    complete : bool
+        True when these are all the states with E < 0 on the grid, each converged.
+    residuals : ndarray or None
+        Residual norm |H phi - E phi| of each state (Hartree).
+    """
+
+    energies: np.ndarray
+    wavefunctions: np.ndarray
+    grid: Grid
+    #: every state with E < 0 on the grid was looked for and each one converged
+    complete: bool = False
+    #: |H phi - E phi| of each state (Hartree), NaN where not measured
+    residuals: np.ndarray | None = None
+
+    def __len__(self):
+        return len(self.energies)
+
+
+def kinetic_matrix(points: int, spacing: float) -> np.ndarray:
+    """Dense Fourier-grid kinetic matrix (Hartree) of a periodic grid.
+
+    T is circulant: its first column is the inverse FFT of k^2/2.
+    """
+    k = 2 * np.pi * np.fft.fftfreq(points, spacing)
+    column = np.fft.ifft(0.5 * k**2).real
+    return scipy.linalg.circulant(column)
+
+
+def hamiltonian_matrix(grid: Grid, potential: Potential) -> np.ndarray:
+    """Dense H = T + V on ``grid`` (for small grids and independent checks)."""
+    h = kinetic_matrix(grid.points, grid.spacing)
+    h[np.diag_indices_from(h)] += potential.value(grid.x)
+    return h
+
+
+def _window(grid: Grid, half_width: float) -> tuple[Grid, slice]:
+    n = min(grid.points, MAX_WINDOW_POINTS, 2 * int(np.ceil(half_width / grid.spacing)))
+    n = max(n + n % 2, 16)
+    if n >= grid.points:
+        return grid, slice(0, grid.points)
+    start = grid.points // 2 - n // 2
+    return Grid(n, grid.spacing), slice(start, start + n)
+
+
+@functools.lru_cache(maxsize=1)
+def _blas_controller():
+    from threadpoolctl import ThreadpoolController
+
+    return ThreadpoolController()
+
+
+def _dense_eigh(h, eigvals_only=False):
+    # Divide and conquer on one BLAS thread: for these matrices (at most a few thousand
+    # rows) a multi-threaded BLAS was measured 10-15 times *slower* on shared cores (a
+    # scan's workers, a loaded workstation), and LAPACK's subset drivers slower still.
+    with _blas_controller().limit(limits=1, user_api="blas"):
+        return scipy.linalg.eigh(h, eigvals_only=eigvals_only, driver="evd")
+
+
+def _dense_states(grid: Grid, potential: Potential, count: int):
+    energies, vectors = _dense_eigh(hamiltonian_matrix(grid, potential))
+    count = min(count, grid.points)
+    return energies[:count], vectors[:, :count]
+
+
+def _dense_bound(grid: Grid, potential: Potential):
+    """All eigenpairs with E < 0 of the whole grid's dense H (the lowest few if none)."""
+    h = hamiltonian_matrix(grid, potential)
+    # MRRR for a subset: only the eigenpairs used are formed (2.5x faster than all)
+    with _blas_controller().limit(limits=1, user_api="blas"):
+        energies, vectors = scipy.linalg.eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
+        if energies.size == 0:  # a confining trap (all E > 0): its lowest levels
+            energies, vectors = scipy.linalg.eigh(h, subset_by_index=(0, min(TRAP_LEVELS, grid.points) - 1),
+                                                  driver="evr")
+    return energies, vectors
+
+
+def _second_derivative_weights(half_width: int) -> np.ndarray:
+    """Central finite-difference weights of d^2/dx^2 (unit spacing), order 2 x half_width.
+
+    Solved from the Taylor (Vandermonde) conditions, as in Fornberg, Math. Comput. 51,
+    699 (1988) (from memory).
+    """
+    m = np.arange(-half_width, half_width + 1, dtype=float)
+    conditions = np.vander(m, increasing=True).T
+    rhs = np.zeros(m.size)
+    rhs[2] = 2.0
+    return np.linalg.solve(conditions, rhs)
+
+
+def _banded_hamiltonian(grid: Grid, potential: Potential, half_width: int = FD_HALF_WIDTH) -> np.ndarray:
+    """Upper band storage (LAPACK) of T + V with a finite-difference T (no wrap-around)."""
+    w = _second_derivative_weights(half_width) / grid.spacing**2
+    band = np.zeros((half_width + 1, grid.points))
+    for d in range(half_width + 1):
+        band[half_width - d, d:] = -0.5 * w[half_width + d]
+    band[half_width] += potential.value(grid.x)
+    return band
+
+
+def _banded_bound(grid: Grid, potential: Potential, tolerance: float):
+    """All E < 0 eigenpairs of a large grid: banded count and start, Fourier Rayleigh-Ritz.
+
+    Returns energies, vectors (columns) and residuals.
+    """
+    band = _banded_hamiltonian(grid, potential)
+    with _blas_controller().limit(limits=1, user_api="blas"):
+        levels = scipy.linalg.eigvals_banded(band, select="v", select_range=(-np.abs(band[-1]).max() - 1.0, 0.0))
+    if levels.size == 0:
+        levels = scipy.linalg.eigvals_banded(band, select="i", select_range=(0, TRAP_LEVELS - 1))
+    # start vectors: two steps of inverse iteration of the banded H just off each level
+    full = np.zeros((2 * band.shape[0] - 1, grid.points))
+    full[: band.shape[0]] = band
+    for d in range(1, band.shape[0]):
+        full[band.shape[0] - 1 + d, : grid.points - d] = band[band.shape[0] - 1 - d, d:]
+    rng = np.random.default_rng(0)
+    guess = np.empty((grid.points, levels.size))
+    u = band.shape[0] - 1
+    for i, e in enumerate(levels):
+        shifted = full.copy()
+        gap = np.min(np.abs(np.delete(levels, i) - e)) if levels.size > 1 else 1.0
+        shifted[u] -= e + 1e-3 * gap
+        vec = rng.standard_normal(grid.points)
+        for _ in range(2):
+            vec = scipy.linalg.solve_banded((u, u), shifted, vec)
+            vec /= np.linalg.norm(vec)
+        guess[:, i] = vec
+    apply_h = _apply_hamiltonian(grid, potential)
+    t = grid.kinetic_energy()
+    shift = max(1.0, -float(potential.value(grid.x).min()))
+    # block preconditioned Rayleigh-Ritz with the Fourier H (LOBPCG-like: the current
+    # vectors, their preconditioned residuals and the previous step's directions)
+    vectors, energies, previous = guess, levels, None
+    for _ in range(REFINE_SWEEPS):
+        resid = apply_h(vectors) - vectors * energies
+        if np.all(np.linalg.norm(resid, axis=0) <= 0.1 * np.sqrt(tolerance)):
+            break
+        correction = np.fft.ifft(np.fft.fft(resid, axis=0) / (t[:, None] + shift), axis=0).real
+        blocks = [vectors, correction] + ([previous] if previous is not None else [])
+        basis, _ = np.linalg.qr(np.hstack(blocks))
+        h_small = basis.T @ apply_h(basis)
+        ritz, coeffs = np.linalg.eigh(0.5 * (h_small + h_small.T))
+        # as many as the banded count, plus any further Ritz value below zero
+        n_keep = max(levels.size, int(np.count_nonzero(ritz < 0)))
+        new = basis @ coeffs[:, :n_keep]
+        previous = new[:, : vectors.shape[1]] - vectors if new.shape[1] == vectors.shape[1] else None
+        vectors, energies = new, ritz[:n_keep]
+    keep = energies < 0 if np.any(energies < 0) else np.arange(energies.size) < TRAP_LEVELS
+    energies, vectors = energies[keep], vectors[:, keep]
+    return energies, vectors, _residuals(apply_h, energies, vectors)
+
+
+def _apply_hamiltonian(grid: Grid, potential: Potential):
+    """H applied by FFT to the columns of a block of vectors on ``grid``."""
+    v = potential.value(grid.x)
+    t = grid.kinetic_energy()
+
+    def apply_h(block):
+        block = block.reshape(grid.points, -1)
+        out = np.fft.ifft(t[:, None] * np.fft.fft(block, axis=0), axis=0).real
+        return out + v[:, None] * block
+
+    return apply_h
+
+
+def _residuals(apply_h, energies, vectors) -> np.ndarray:
+    """|H v - E v| / |v| for each column v."""
+    return np.linalg.norm(apply_h(vectors) - vectors * energies, axis=0) / np.linalg.norm(vectors, axis=0)
+
+
+def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: float):
+    """LOBPCG refinement of approximate eigenvectors (columns of ``guess``) on ``grid``.
+
+    Returns the energies, the vectors (columns) and their residuals.
+    """
+    v = potential.value(grid.x)
+    t = grid.kinetic_energy()
+    shift = max(1.0, -float(v.min()))
+    apply_h = _apply_hamiltonian(grid, potential)
+
+    def apply_precond(block):
+        block = block.reshape(grid.points, -1)
+        return np.fft.ifft(np.fft.fft(block, axis=0) / (t[:, None] + shift), axis=0).real
+
+    op = LinearOperator((grid.points,) * 2, matvec=apply_h, matmat=apply_h, dtype=float)
+    pre = LinearOperator((grid.points,) * 2, matvec=apply_precond, matmat=apply_precond, dtype=float)
+    # energy error ~ |residual|^2 / gap; ask for a residual well below sqrt(tolerance)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        energies, vectors = lobpcg(
+            op, guess, M=pre, tol=0.1 * np.sqrt(tolerance), maxiter=400, largest=False
+        )
+    order = np.argsort(energies)
+    energies, vectors = energies[order], vectors[:, order]
+    return energies, vectors, _residuals(apply_h, energies, vectors)
+
+
+def _normalise(vectors: np.ndarray, spacing: float) -> np.ndarray:
+    vectors = vectors / np.sqrt(np.sum(vectors**2, axis=0) * spacing)
+    peak = np.argmax(np.abs(vectors), axis=0)
+    signs = np.sign(vectors[peak, np.arange(vectors.shape[1])])
+    return (vectors * signs).T.copy()
+
+
+def bound_states(
+    grid: Grid,
+    potential: Potential,
+    count: int | None = None,
+    tolerance: float = 1e-10,
+    window: float = STATE_WINDOW,
+) -> BoundStates:
+    """Eigenstates of H = T + V on ``grid``: all bound ones, or the lowest ``count``.
+
+    Parameters
+    ----------
+    grid : Grid
+    potential : Potential
+    count : int, optional
+        Number of states. By default every state with E < 0 on the whole grid, none
+        dropped (for a confining trap without any, its :data:`TRAP_LEVELS` lowest).
+    tolerance : float
+        Energy accuracy (Hartree) asked of the refinement on large grids.
+    window : float
+        Half-width (bohr) of the region where ``count`` states are first looked for.
+
+    Returns
+    -------
+    BoundStates
+        With ``complete`` True when all states with E < 0 were asked for, found, and
+        converged (residual |H phi - E phi| below sqrt(tolerance) Hartree: a
+        Rayleigh quotient's energy error is of order residual^2 / gap).
+    """
+    if count is None:
+        apply_h = _apply_hamiltonian(grid, potential)
+        if grid.points <= DENSE_POINTS:
+            energies, vectors = _dense_bound(grid, potential)
+            residuals = _residuals(apply_h, energies, vectors) if energies.size else np.zeros(0)
+        else:
+            energies, vectors, residuals = _banded_bound(grid, potential, tolerance)
+        complete = bool(np.all(residuals <= np.sqrt(tolerance))) and bool(np.all(energies < 0))
+        return BoundStates(np.asarray(energies), _normalise(vectors, grid.spacing), grid, complete, residuals)
+    sub, where = _window(grid, window)
+    energies, vectors = _dense_states(sub, potential, count)
+    if sub.points < grid.points:
+        guess = np.zeros((grid.points, vectors.shape[1]))
+        guess[where] = vectors
+        energies, vectors, residuals = _refine(grid, potential, guess, tolerance)
+    else:
+        residuals = _residuals(_apply_hamiltonian(grid, potential), energies, vectors)
+    return BoundStates(np.asarray(energies), _normalise(vectors, grid.spacing), grid, False, residuals)
+
+
+def ground_state_energy(grid: Grid, potential: Potential, window: float = FIT_WINDOW) -> float:
+    """Lowest eigenvalue of H on ``grid`` (Hartree), via a dense window solve."""
+    sub, _ = _window(grid, window)
+    h = hamiltonian_matrix(sub, potential)
+    return float(_dense_eigh(h, eigvals_only=True)[0])
+
+
+def fit_softening(
+    grid: Grid,
+    potential: Potential,
+    ionization_potential: float,
+    bracket: tuple[float, float] = (1e-3, 50.0),
+    tolerance: float = 1e-10,
+) -> float:
+    """Softening a for which the ground-state energy on ``grid`` is -Ip.
+
+    Root finding (Brent's method) on E0(a) + Ip, which increases monotonically with a.
+
+    Parameters
+    ----------
+    grid : Grid
+    potential : Potential
+        A potential with a softening (``with_softening``).
+    ionization_potential : float
+        Ip in Hartree (> 0).
+    bracket : (float, float)
+        Range of softenings searched (bohr).
+    tolerance : float
+        Accuracy of the ground-state energy at the root (Hartree).
+
+    Raises
+    ------
+    SofteningFitError
+        If Ip is out of the reach of the model on this grid, or is reached only by a
+        state the grid does not resolve (its energy changes by more than
+        :data:`MAX_FIT_GRID_ERROR`, relative, when the spacing is halved).
+    """
+
+    def mismatch(a):
+        return ground_state_energy(grid, potential.with_softening(a)) + ionization_potential
+
+    lo, hi = bracket
+    f_lo, f_hi = mismatch(lo), mismatch(hi)
+    if f_lo > 0 or f_hi < 0:
+        deepest = -(f_lo - ionization_potential)
+        shallowest = -(f_hi - ionization_potential)
+        raise SofteningFitError(
+            f"an ionization potential of {ionization_potential:.6g} Hartree is out of reach of this model on "
+            f"this grid: softenings from {lo:g} to {hi:g} bohr give {shallowest:.4g} to {deepest:.4g} Hartree "
+            "(change the charge, or use a finer grid for deep states)"
+        )
+    # the energy is smooth in a; ask for a far tighter root than the energy tolerance
+    a = float(brentq(mismatch, lo, hi, xtol=1e-13, rtol=1e-13, maxiter=200))
+    # A small enough softening reaches any Ip on a grid, but with a core narrower than
+    # the spacing the "state" is a grid artefact: check that halving the spacing leaves
+    # its energy nearly unchanged. The state is compact, so a narrow window suffices.
+    finer = Grid(2 * grid.points, 0.5 * grid.spacing)
+    e_fine = ground_state_energy(finer, potential.with_softening(a), window=0.5 * FIT_WINDOW)
+    change = abs(e_fine + ionization_potential) / ionization_potential
+    if change > MAX_FIT_GRID_ERROR:
+        raise SofteningFitError(
+            f"an ionization potential of {ionization_potential:.6g} Hartree needs a softening of {a:.3g} bohr, "
+            f"a state this grid (spacing {grid.spacing:g} bohr) does not resolve: halving the spacing changes "
+            f"its energy by {100 * change:.2g}% (use a finer grid, a larger charge, or a smaller Ip)"
+        )
+    return a
+
+
+def initial_wavefunction(states: BoundStates, indices, amplitudes=None, phases=None) -> np.ndarray:
+    """Normalised initial wavefunction: one bound state or a superposition.
+
+    Parameters
+    ----------
+    states : BoundStates
+    indices : sequence of int
+        Which states.
+    amplitudes, phases : sequence of float, optional
+        Relative amplitudes and phases (rad); equal amplitudes and zero phases by default.
+
+    Returns
+    -------
+    ndarray of complex, shape (points,)
+    """
+    indices = list(indices)
+    if max(indices) >= len(states):
+        raise IndexError(f"initial state {max(indices)} requested but only {len(states)} bound states were found")
+    amplitudes = np.ones(len(indices)) if amplitudes is None else np.asarray(amplitudes, dtype=float)
+    phases = np.zeros(len(indices)) if phases is None else np.asarray(phases, dtype=float)
+    coeffs = amplitudes * np.exp(1j * phases)
+    coeffs = coeffs / np.sqrt(np.sum(np.abs(coeffs) ** 2))
+    psi = np.tensordot(coeffs, states.wavefunctions[indices], axes=1).astype(complex)
+    return psi / np.sqrt(np.sum(np.abs(psi) ** 2) * states.grid.spacing)

@@ -1,0 +1,109 @@
+"""Figures of a scan summary (``summary.h5``, root attribute ``kind = "scan-summary"``).
+
+:data:`FIGURES` maps a figure name to a function of the open summary file (and the
+plot command's cache) returning a matplotlib Figure; ``tdse1d plot summary.h5`` finds
+it through the command's table of file kinds. Styling follows :mod:`tdse1d.plots.run_figures`.
+
+``map``
+    Harmonic spectrum (log colour, each row normalised to its maximum) against photon
+    energy and the scanned parameter, with the semiclassical cutoff Ip + 3.17 Up drawn
+    over it and the cutoffs read off the spectra as markers.
+``cutoff-fit``
+    Cutoff read off each spectrum against Up, the least-squares line through them, and
+    the semiclassical lines Ip + 3.17 Up (Krause, Schafer and Kulander, Phys. Rev. Lett.
+    68, 3535 (1992)) and 1.32 Ip + 3.17 Up (Lewenstein et al., Phys. Rev. A 49, 2117
+    (1994)).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from matplotlib.colors import LogNorm
+
+from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
+from .run_figures import DENSITY_CMAP, LOG_RANGE_SPECTROGRAM, _figure
+
+__all__ = ["FIGURES", "map_figure", "cutoff_fit_figure"]
+
+
+def _scan_axis(f):
+    """The values to draw the points against: the first axis for a one-axis or zip scan,
+    else the point index."""
+    n = int(f.attrs["points"])
+    axes = f["axes"]
+    if int(axes.attrs["count"]) == 1 or str(f.attrs["mode"]) == "zip":
+        g = axes["0"]
+        values = g["values"][()]
+        if np.all(np.isfinite(values)):
+            unit = str(g.attrs["unit"])
+            return values, f"{g.attrs['key']}" + (f" ({unit})" if unit else "")
+    return np.arange(n, dtype=float), "scan point"
+
+
+def _edges(values):
+    """Cell edges around (possibly unevenly spaced) centres, for pcolormesh."""
+    v = np.asarray(values, float)
+    if v.size == 1:
+        return np.array([v[0] - 0.5, v[0] + 0.5])
+    mid = 0.5 * (v[1:] + v[:-1])
+    return np.concatenate(([v[0] - (mid[0] - v[0])], mid, [v[-1] + (v[-1] - mid[-1])]))
+
+
+def map_figure(f, cache=None):
+    """Spectrum versus photon energy and the scanned parameter, with the cutoff lines."""
+    energy = f["spectra/photon_energy"][()]
+    power = f["spectra/power"][()]
+    values, label = _scan_axis(f)
+    if energy.size == 0 or not np.isfinite(power).any():
+        fig, (ax,) = _figure(1)
+        ax.text(0.5, 0.5, "no finished point in this summary", ha="center", va="center", transform=ax.transAxes)
+        return fig
+    order = np.argsort(values)
+    values, power = values[order], power[order]
+    peak = np.nanmax(power, axis=1, keepdims=True)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rel = power / peak
+    floor = 10.0 ** -LOG_RANGE_SPECTROGRAM
+    fig, (ax,) = _figure(1, height=4.5)
+    mesh = ax.pcolormesh(_edges(energy), _edges(values), np.clip(np.nan_to_num(rel, nan=floor), floor, 1.0),
+                         norm=LogNorm(floor, 1.0), cmap=DENSITY_CMAP, shading="flat", rasterized=True)
+    fig.colorbar(mesh, ax=ax, label="power / row maximum")
+    semi = f["cutoff/semiclassical"][()][order]
+    read = f["cutoff/spectrum"][()][order]
+    resolved = f["cutoff/resolved"][()][order]
+    ax.plot(semi, values, color="white", lw=1.4, label="Ip + 3.17 Up")
+    ax.plot(read[resolved], values[resolved], "o", mfc="none", mec="tab:red", ms=6, label="read off the spectrum")
+    ax.set_xlabel("photon energy (eV)")
+    ax.set_ylabel(label)
+    top = np.nanmax(semi) * 1.6 if np.any(np.isfinite(semi)) else energy[-1]
+    ax.set_xlim(0, min(energy[-1], top))
+    ax.legend(loc="lower right", fontsize=8, framealpha=0.6)
+    return fig
+
+
+def cutoff_fit_figure(f, cache=None):
+    """Cutoff read off each spectrum against Up, with the fitted and semiclassical lines."""
+    up = f["estimates/ponderomotive_energy"][()]
+    read = f["cutoff/spectrum"][()]
+    resolved = f["cutoff/resolved"][()]
+    ip = np.nanmean(f["estimates/ionization_potential"][()])
+    fig, (ax,) = _figure(1)
+    ax.plot(up[resolved], read[resolved], "o", color="black", label="read off the spectrum")
+    if np.any(~resolved):
+        ax.plot(up[~resolved], read[~resolved], "x", color="grey", label="not resolved (not fitted)")
+    finite = np.isfinite(up)
+    u = np.linspace(0.0, np.max(up[finite]) * 1.1 if finite.any() else 1.0, 50)
+    ax.plot(u, ip + CUTOFF_UP * u, "--", color="tab:blue", label=f"Ip + {CUTOFF_UP} Up")
+    ax.plot(u, LEWENSTEIN_IP * ip + CUTOFF_UP * u, ":", color="tab:blue", label=f"{LEWENSTEIN_IP} Ip + {CUTOFF_UP} Up")
+    fit = dict(f["fit"].attrs)
+    if "slope" in fit:
+        ax.plot(u, fit["intercept_ev"] + fit["slope"] * u, "-", color="tab:red",
+                label=f"fit: {fit['slope']:.2f} Up + {fit['intercept_ev']:.1f} eV")
+    ax.set_xlabel("Up (eV)")
+    ax.set_ylabel("cutoff photon energy (eV)")
+    ax.legend(fontsize=8, frameon=False)
+    return fig
+
+
+#: figure name -> function(open summary file, cache) -> Figure
+FIGURES = {"map": map_figure, "cutoff-fit": cutoff_fit_figure}

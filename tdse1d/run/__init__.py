@@ -1,0 +1,3 @@
+"""One run: the runner that drives the propagator (:mod:`~tdse1d.run.runner`), its
+checkpoints, health checks and the memory and disk estimate made before it starts.
+"""

@@ -1,0 +1,331 @@
+"""Executing a scan plan on Dask distributed, one result file per point.
+
+:func:`run_scan` holds ``SCAN_DIR/scan.lock`` for the whole scan (a second scan of the
+same directory is refused at once, naming the holder) and submits the points, longest
+first (cost :func:`estimate_cost` = grid points x time steps, from the semiclassical grid
+advice without computing bound states), to a Dask ``distributed`` cluster: by default a
+``LocalCluster`` of single-threaded worker processes on the loopback interface, or an
+existing scheduler given by address. :func:`run_one` runs one point in this process (job
+arrays; it never writes a point that another process is writing), and
+:func:`tdse1d.scan.summary.write_summary` assembles ``summary.h5``. The plan is read by
+:mod:`tdse1d.scan.plan`, the directory kept by :mod:`tdse1d.scan.directory`, the points
+run by :mod:`tdse1d.scan.worker`.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import sys
+import time
+from dataclasses import dataclass, field
+
+from .directory import ScanDirectory, result_matches
+from .plan import ScanPlan, ScanPoint
+from .worker import _stop_scheduler_http, _worker_setup, run_point
+
+
+class SchedulerUnreachable(RuntimeError):
+    """No Dask scheduler answered at the given address."""
+
+
+# ------------------------------------------------------------------ the scan run
+
+
+@dataclass
+class ScanReport:
+    """What a scan did: point indices by outcome, and the per-point records."""
+
+    total: int
+    done: list = field(default_factory=list)
+    skipped: list = field(default_factory=list)
+    failed: dict = field(default_factory=dict)  # index -> error message
+    busy: dict = field(default_factory=dict)  # index -> who else is writing it
+    interrupted: list = field(default_factory=list)  # stopped by a signal, checkpoint left
+    records: dict = field(default_factory=dict)  # index -> run_point record
+    wall: float = 0.0
+
+    @property
+    def ok(self) -> bool:
+        return not self.failed and not self.busy and not self.interrupted
+
+
+def _prepare(plan: ScanPlan, directory: ScanDirectory, fresh: bool, retry_failed: bool, report: ScanReport):
+    """Claim the directory and sort the points into to-run and the rest."""
+    directory.claim(plan, fresh=fresh)
+    todo = []
+    for p in plan.points:
+        state = directory.state(p)
+        if state == "done":
+            report.skipped.append(p.index)
+        elif state == "busy":
+            holder = directory.writer_of(p)
+            report.busy[p.index] = f"being written by {holder.describe() if holder else 'another process'}"
+        elif state == "failed" and not retry_failed:
+            report.failed[p.index] = directory.error(p).read_text(encoding="utf-8").splitlines()[0]
+        else:
+            directory.error(p).unlink(missing_ok=True)
+            todo.append(p)
+    # longest first, so that the last points to finish are short ones
+    todo.sort(key=lambda p: (-(p.cost if math.isfinite(p.cost) else math.inf), p.index))
+    return todo
+
+
+def _args(plan: ScanPlan, directory: ScanDirectory, p: ScanPoint):
+    return (p.resolved_toml, f"{plan.source} point {p.index}", str(plan.base_dir), str(directory.result(p)))
+
+
+def run_one(plan: ScanPlan, directory, index: int, fresh: bool = False, retry_failed: bool = True) -> ScanReport:
+    """Run point ``index`` of ``plan`` in this process (one task of a job array).
+
+    A finished point is not run again. Raises IndexError for an index outside the plan.
+    """
+    directory = ScanDirectory(directory)
+    if not 0 <= index < len(plan.points):
+        raise IndexError(f"point {index} does not exist: the plan has points 0 to {len(plan.points) - 1}")
+    report = ScanReport(total=1)
+    directory.claim(plan, fresh=fresh)
+    p = plan.points[index]
+    state = directory.state(p)
+    if state == "done":
+        report.skipped.append(index)
+        return report
+    if state == "busy":
+        holder = directory.writer_of(p)
+        report.busy[index] = f"being written by {holder.describe() if holder else 'another process'}"
+        return report
+    if state == "failed" and not retry_failed:
+        report.failed[index] = directory.error(p).read_text(encoding="utf-8").splitlines()[0]
+        return report
+    started = time.perf_counter()
+    record = run_point(*_args(plan, directory, p))
+    report.wall = time.perf_counter() - started
+    report.records[index] = record
+    _file_record(report, index, record, record["status"] == "done")
+    return report
+
+
+def _file_record(report: ScanReport, index: int, record: dict, done: bool) -> None:
+    """Sort a point's record into the report by its outcome."""
+    status = record.get("status")
+    if done:
+        report.done.append(index)
+    elif status == "busy":
+        report.busy[index] = record.get("error", "being written by another process")
+    elif status == "interrupted":
+        report.interrupted.append(index)
+    else:
+        report.failed[index] = record.get("error", "no result file")
+
+
+def local_cluster(workers: int | None = None, dashboard: bool = False):
+    """A ``LocalCluster`` of single-threaded worker processes on 127.0.0.1, closed to
+    other local users.
+
+    Every connection (client, scheduler, workers) uses TLS with credentials made for
+    this cluster alone (``distributed.security.Security.temporary``, kept in memory
+    and handed to the worker processes through their start-up pipe): a process without
+    them cannot attach a client, so cannot run code as the user. Dask starts an HTTP
+    server in the scheduler and in each worker whatever its options say; they serve no
+    routes and are stopped once the cluster is up (:func:`run_scan`), unless
+    ``dashboard`` asks for the scheduler's.
+
+    Parameters
+    ----------
+    workers : int, optional
+        Number of worker processes (default: the number of cores).
+    dashboard : bool
+        Serve the Dask dashboard on 127.0.0.1:8787 (off by default).
+    """
+    import dask
+    from distributed import LocalCluster
+    from distributed.security import Security
+
+    n = workers or os.cpu_count() or 1
+    routes = {} if dashboard else {"distributed.scheduler.http.routes": []}
+    with dask.config.set({**routes, "distributed.worker.http.routes": []}):
+        return LocalCluster(
+            n_workers=n,
+            threads_per_worker=1,
+            processes=True,
+            host="127.0.0.1",
+            protocol="tls://",
+            security=Security.temporary(),
+            dashboard_address="127.0.0.1:8787" if dashboard else "127.0.0.1:0",
+            silence_logs=40,  # logging.ERROR: a restarted worker is reported by the scan itself
+        )
+
+
+def open_local_client(workers: int | None = None, dashboard: bool = False):
+    """A :func:`local_cluster` and a client of it, with the HTTP servers stopped (the
+    scheduler's kept with ``dashboard``) and the workers' signal handlers installed.
+
+    Returns
+    -------
+    cluster, client
+        Close both when done.
+    """
+    from distributed import Client
+
+    cluster = local_cluster(workers, dashboard)
+    try:
+        client = Client(cluster, set_as_default=False)
+        try:
+            if not dashboard:
+                client.run_on_scheduler(_stop_scheduler_http)
+            client.register_plugin(_worker_setup(stop_http=True), name="tdse1d-stop-on-signals")
+        except BaseException:
+            client.close()
+            raise
+    except BaseException:
+        cluster.close()
+        raise
+    return cluster, client
+
+
+def connect(address: str, timeout: float = 10.0):
+    """A Dask client of the scheduler at ``address``; :class:`SchedulerUnreachable` if none answers."""
+    from distributed import Client
+
+    try:
+        return Client(address, timeout=timeout, set_as_default=False)
+    except (OSError, TimeoutError) as exc:
+        raise SchedulerUnreachable(f"no Dask scheduler answered at {address} within {timeout:g} s ({exc})") from None
+
+
+class _Progress:
+    """Points done / total and time left, as a tqdm bar on a terminal, else one line per point."""
+
+    def __init__(self, total, cost_total, enabled, stream=sys.stderr):
+        self.total, self.cost_total = total, cost_total
+        self.enabled, self.stream = enabled, stream
+        self.started = time.perf_counter()
+        self.cost_done = 0.0
+        self.count = 0
+        self.bar = None
+        if enabled and stream.isatty() and total:
+            from tqdm import tqdm
+
+            self.bar = tqdm(total=total, unit="point", desc="scan", file=stream, dynamic_ncols=True)
+
+    def left(self) -> float:
+        if self.cost_done <= 0:
+            return math.nan
+        elapsed = time.perf_counter() - self.started
+        return elapsed * (self.cost_total - self.cost_done) / self.cost_done
+
+    def update(self, point: ScanPoint, record: dict):
+        self.count += 1
+        self.cost_done += point.cost if math.isfinite(point.cost) else 0.0
+        if not self.enabled:
+            return
+        status = record.get("status", "failed")
+        left = self.left()
+        left_text = f"~{left:.0f} s left" if math.isfinite(left) else "time left unknown"
+        if self.bar is not None:
+            self.bar.update(1)
+            self.bar.set_postfix_str(f"{left_text}, last: point {point.index} {status}", refresh=True)
+        else:
+            print(f"scan: {self.count}/{self.total} points, point {point.index} {status} "
+                  f"({record.get('seconds', math.nan):.1f} s), {left_text}", file=self.stream, flush=True)
+
+    def close(self):
+        if self.bar is not None:
+            self.bar.close()
+
+
+def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, timeout: float = 10.0, workers: int | None = None,
+             dashboard: bool = False, fresh: bool = False, retry_failed: bool = False,
+             progress: bool = True, client=None) -> ScanReport:
+    """Run every point of ``plan`` that has no finished result in ``directory``, on Dask.
+
+    Parameters
+    ----------
+    plan : ScanPlan
+    directory : path
+        The scan directory (created).
+    scheduler : str, optional
+        Address of an existing Dask scheduler, e.g. ``tcp://10.0.0.5:8786``; default a
+        :func:`local_cluster`.
+    timeout : float
+        Seconds to wait for that scheduler.
+    workers : int, optional
+        Workers of the local cluster (default: the cores).
+    dashboard : bool
+        Serve the dashboard of the local cluster.
+    fresh : bool
+        Delete another plan's points instead of refusing the directory.
+    retry_failed : bool
+        Run again the points that failed before (otherwise they are reported).
+    progress : bool
+        Report progress on stderr.
+    client : distributed.Client, optional
+        Use this client (and leave it open).
+
+    Returns
+    -------
+    ScanReport
+
+    Raises
+    ------
+    PlanMismatch, SchedulerUnreachable
+    tdse1d.errors.OutputBusy
+        Another scan holds the directory (the message names it).
+    """
+    directory = ScanDirectory(directory)
+    report = ScanReport(total=len(plan.points))
+    with directory.lock():  # a second scan of this directory is refused here, naming this one
+        return _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard, fresh,
+                           retry_failed, progress, client)
+
+
+def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard, fresh, retry_failed,
+                progress, client):
+    from distributed import as_completed
+
+    todo = _prepare(plan, directory, fresh, retry_failed, report)
+    started = time.perf_counter()
+    if not todo:
+        return report
+    own_cluster = own_client = None
+    try:
+        if client is None:
+            if scheduler is not None:
+                client = own_client = connect(scheduler, timeout)
+            else:
+                own_cluster, client = open_local_client(workers, dashboard)
+                own_client = client
+        if own_cluster is None:
+            # workers stop their runs with a checkpoint on SIGTERM/SIGINT (also workers that join later)
+            client.register_plugin(_worker_setup(stop_http=False), name="tdse1d-stop-on-signals")
+        by_key = {}
+        futures = []
+        for rank, p in enumerate(todo):
+            # priority keeps the longest-first order when workers free up
+            fut = client.submit(run_point, *_args(plan, directory, p), key=f"tdse1d-point-{p.hash}",
+                                pure=False, priority=len(todo) - rank, retries=0)
+            by_key[fut.key] = p
+            futures.append(fut)
+        bar = _Progress(len(todo), sum(p.cost for p in todo if math.isfinite(p.cost)), progress)
+        try:
+            for fut in as_completed(futures, loop=client.loop):
+                p = by_key[fut.key]
+                try:
+                    record = fut.result()
+                except Exception as exc:
+                    # the worker died (KilledWorker) or the task was lost: not the point's
+                    # own fault, so no .error file and a plain rerun runs it again
+                    record = {"status": "lost", "error": f"worker lost: {type(exc).__name__}: {exc}"}
+                report.records[p.index] = record
+                done = record["status"] == "done" and result_matches(directory.result(p), p.hash)
+                _file_record(report, p.index, record, done)
+                bar.update(p, record)
+        finally:
+            bar.close()
+    finally:
+        if own_client is not None:
+            own_client.close()
+        if own_cluster is not None:
+            own_cluster.close()
+    report.wall = time.perf_counter() - started
+    return report

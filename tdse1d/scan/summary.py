@@ -1,0 +1,307 @@
+"""``summary.h5`` of a scan: per-point spectra on one photon-energy grid, cutoffs, yields, fit.
+
+:func:`write_summary` reads the finished point files of a :class:`~tdse1d.scan.plan.ScanPlan`
+and writes ``SCAN_DIR/summary.h5`` (root attribute ``kind = "scan-summary"``); the
+layout is listed in ``docs/scans.md``. Points without a finished file are kept as rows
+of NaN with ``/points/complete`` False, so a partial scan can be looked at.
+
+The fit of the cutoff energy read off each spectrum against Up (least squares, points
+with a resolved cutoff only) is set beside the semiclassical law ``Ip + 3.17 Up``
+(Krause, Schafer and Kulander, Phys. Rev. Lett. 68, 3535 (1992); Corkum, Phys. Rev.
+Lett. 71, 1994 (1993)) and the quantum-corrected intercept ``1.32 Ip`` (Lewenstein et
+al., Phys. Rev. A 49, 2117 (1994)).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from .. import __version__, units
+from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
+from ..io.guarded_file import new_hdf5
+from ..io.result_file import write_dataset
+
+__all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
+
+SUMMARY_KIND = "scan-summary"
+#: the common grid reaches this multiple of the largest semiclassical cutoff
+GRID_REACH = 2.0
+#: and has at most this many energies
+MAX_GRID = 20000
+
+
+@dataclass
+class Summary:
+    """Where the summary went and the cutoff-vs-Up fit (None with fewer than 2 usable points)."""
+
+    path: Path
+    fit: dict | None
+
+
+@dataclass
+class _PointData:
+    energy_ev: np.ndarray
+    power: np.ndarray
+    amplitude: np.ndarray
+    attrs: dict
+
+
+def _read_point(path) -> _PointData:
+    from ..spectra.harmonic import harmonic_spectrum
+
+    with h5py.File(path, "r") as f:
+        h = f["spectra/harmonic"]
+        est = dict(f["estimates"].attrs)
+        omega0 = float(est.get("photon_energy", 1.0))
+        # the complex amplitude is not stored: recompute it as the run did
+        spec = harmonic_spectrum(f["observables/time"][()], f["observables/acceleration"][()], omega0,
+                                 window=str(h.attrs.get("window", "hann")))
+        attrs = {
+            "estimates": est,
+            "cutoff_frequency": float(h.attrs.get("cutoff_frequency", math.nan)),
+            "cutoff_resolved": bool(h.attrs.get("cutoff_resolved", False)),
+            "ionization": float(f["ionization/probability"][()]),
+            "photoelectron": photoelectron_cutoff(f, omega0),
+            # edges read off by the run's own analysis, when it stored them
+            "direct_edge": _scalar(f, "spectra/photoelectron/edges/direct"),
+            "backscattered_edge": _scalar(f, "spectra/photoelectron/edges/backscattered"),
+            "tunnelling": _last(f, "classical/tunnelling/probability"),
+        }
+        stored_w, stored = f["spectra/harmonic/frequency"][()], f["spectra/harmonic/power"][()]
+    if stored.shape != spec.power.shape or not np.allclose(stored, spec.power, rtol=1e-8, atol=0):
+        # the run computed its spectrum differently: keep its power, no phase
+        return _PointData(stored_w * units.HARTREE_EV, stored, np.full(stored.shape, np.nan + 0j), attrs)
+    return _PointData(spec.frequency * units.HARTREE_EV, spec.power, spec.amplitude, attrs)
+
+
+def _scalar(f, key) -> float:
+    return float(f[key][()]) if key in f else math.nan
+
+
+def _last(f, key) -> float:
+    return float(f[key][-1]) if key in f and f[key].size else math.nan
+
+
+def photoelectron_cutoff(f: h5py.File, omega0: float) -> float:
+    """Highest photoelectron energy of the spectrum's last plateau (Hartree), NaN if none.
+
+    A cutoff stored by the run (attribute ``cutoff_energy`` of a
+    ``/spectra/photoelectron/<method>`` group) is used as is. Otherwise a rough rule
+    of ours: :func:`tdse1d.spectra.read_cutoff` applied to the energy density summed over
+    both directions, from the surface flux (or, in older files, mask) method if there, else from the plane-wave projection,
+    with the plateau region starting at half a photon energy and a drop of 2 decades.
+    """
+    from ..spectra.cutoff import read_cutoff
+
+    for method in ("surface_flux", "mask", "plane_wave"):
+        key = f"spectra/photoelectron/{method}"
+        if key not in f:
+            continue
+        g = f[key]
+        if "cutoff_energy" in g.attrs:
+            return float(g.attrs["cutoff_energy"])
+        energy = g["energy"][()]
+        density = g["energy_density_left"][()] + g["energy_density_right"][()]
+        keep = np.isfinite(density) & (density >= 0)
+        energy, density = energy[keep], density[keep]
+        order = np.argsort(energy)
+        energy, density = energy[order], density[order]
+        unique = np.concatenate(([True], np.diff(energy) > 0))
+        try:
+            return float(read_cutoff(energy[unique], density[unique], omega0, 1e-12, start_orders=0.5, drop=2.0).frequency)
+        except ValueError:
+            return math.nan
+    return math.nan
+
+
+def common_energy_grid(steps_ev, tops_ev, reach_ev) -> np.ndarray:
+    """Photon energies (eV) from 0 with the finest of the points' steps, up to ``reach_ev``
+    but not beyond the lowest Nyquist energy among the points."""
+    step = float(np.min(steps_ev))
+    top = min(float(reach_ev), float(np.min(tops_ev)))
+    n = min(int(math.floor(top / step)) + 1, MAX_GRID)
+    return np.linspace(0.0, (n - 1) * step if n < MAX_GRID else top, n)
+
+
+def cutoff_fit(up_ev, cutoff_ev, ip_ev) -> dict | None:
+    """Least-squares line ``cutoff = slope * Up + intercept`` (eV) over the finite points.
+
+    Returns None with fewer than two distinct Up values. The semiclassical reference is
+    slope 3.17 and intercept Ip (Krause, Schafer and Kulander 1992), or 1.32 Ip
+    (Lewenstein et al. 1994).
+    """
+    from scipy.stats import linregress
+
+    up, cut = np.asarray(up_ev, float), np.asarray(cutoff_ev, float)
+    ok = np.isfinite(up) & np.isfinite(cut)
+    if ok.sum() < 2 or np.ptp(up[ok]) == 0:
+        return None
+    if ok.sum() == 2:
+        slope = (cut[ok][1] - cut[ok][0]) / (up[ok][1] - up[ok][0])
+        fit = dict(slope=float(slope), intercept_ev=float(cut[ok][0] - slope * up[ok][0]),
+                   slope_stderr=math.nan, intercept_stderr=math.nan)
+    else:
+        r = linregress(up[ok], cut[ok])
+        fit = dict(slope=float(r.slope), intercept_ev=float(r.intercept), slope_stderr=float(r.stderr),
+                   intercept_stderr=float(r.intercept_stderr))
+    ip = float(np.nanmean(np.asarray(ip_ev, float)[ok]))
+    fit.update(points=int(ok.sum()), ip_ev=ip, reference_slope=CUTOFF_UP,
+               reference_intercept_ev=ip, lewenstein_intercept_ev=LEWENSTEIN_IP * ip)
+    return fit
+
+
+
+def write_summary(plan, directory) -> Summary:
+    """Assemble ``summary.h5`` in the scan directory from its finished point files.
+
+    Parameters
+    ----------
+    plan : tdse1d.scan.plan.ScanPlan
+    directory : path
+        The scan directory.
+
+    Returns
+    -------
+    Summary
+    """
+    from .directory import ScanDirectory
+
+    sd = ScanDirectory(directory)
+    n = len(plan.points)
+    data: list[_PointData | None] = []
+    records = []
+    for p in plan.points:
+        path = sd.result(p)
+        data.append(_read_point(path) if sd.state(p) == "done" else None)
+        try:
+            records.append(json.loads(sd.record(p).read_text(encoding="utf-8")))
+        except (OSError, ValueError):
+            records.append({})
+    present = [d for d in data if d is not None]
+
+    def column(get):
+        return np.array([get(d, r) if d is not None else math.nan for d, r in zip(data, records)], float)
+
+    ev = units.HARTREE_EV
+    est = lambda name: column(lambda d, r: d.attrs["estimates"].get(name, math.nan) * ev)  # noqa: E731
+    up_ev, ip_ev = est("ponderomotive_energy"), est("ionization_potential")
+    cutoff_ev = column(lambda d, r: d.attrs["cutoff_frequency"] * ev)
+    resolved = np.array([bool(d.attrs["cutoff_resolved"]) if d is not None else False for d in data])
+
+    if present:
+        steps = [d.energy_ev[1] - d.energy_ev[0] for d in present]
+        tops = [d.energy_ev[-1] for d in present]
+        reach = GRID_REACH * float(np.nanmax(est("cutoff_energy")))
+        energy = common_energy_grid(steps, tops, reach)
+    else:
+        energy = np.zeros(0)
+    power = np.full((n, energy.size), np.nan)
+    amplitude = np.full((n, energy.size), np.nan + 0j)
+    for k, d in enumerate(data):
+        if d is not None:
+            power[k] = np.interp(energy, d.energy_ev, d.power)
+            amplitude[k] = np.interp(energy, d.energy_ev, d.amplitude.real) + 1j * np.interp(
+                energy, d.energy_ev, d.amplitude.imag)
+    fit = cutoff_fit(up_ev[resolved], cutoff_ev[resolved], ip_ev[resolved])
+
+    tmp = sd.summary.with_name(f"{sd.summary.name}.{os.getpid()}.tmp")
+    with new_hdf5(tmp) as f:  # a full disk: one OSError, tmp removed, the earlier summary kept
+        f.attrs["kind"] = SUMMARY_KIND
+        f.attrs["complete"] = True  # a finished file (written under a temporary name, then renamed)
+        f.attrs["tdse1d_version"] = __version__
+        f.attrs["plan"] = plan.text
+        f.attrs["plan_source"] = plan.source
+        f.attrs["plan_identity"] = plan.identity
+        f.attrs["mode"] = plan.mode
+        f.attrs["shape"] = np.array(plan.shape, dtype=np.int64)
+        f.attrs["points"] = n
+        f.attrs["complete_points"] = len(present)
+        axes = f.create_group("axes")
+        axes.attrs["count"] = len(plan.axes)
+        for i, a in enumerate(plan.axes):
+            g = axes.create_group(str(i))
+            g.attrs["key"] = a.key
+            g.attrs["unit"] = a.unit
+            write_dataset(g, "values", a.display(), a.unit or "atomic_units", description="values as written in the plan")
+            write_dataset(g, "values_au", np.array(a.atomic, float), "atomic_units")
+            g.create_dataset("labels", data=np.array([str(v) for v in a.values], dtype=h5py.string_dtype()))
+        pts = f.create_group("points")
+        pts.create_dataset("hash", data=np.array([p.hash for p in plan.points], dtype=h5py.string_dtype()))
+        write_dataset(pts, "index", np.arange(n), "1")
+        write_dataset(pts, "grid_index", np.array([p.grid_index for p in plan.points], dtype=np.int64).reshape(n, -1), "1",
+            description="index along each axis")
+        write_dataset(pts, "values_au", np.array([[a.atomic[i] for a, i in zip(plan.axes, p.grid_index)]
+                                        for p in plan.points], float).reshape(n, -1), "atomic_units")
+        write_dataset(pts, "complete", np.array([d is not None for d in data]), "1")
+        write_dataset(pts, "cost", np.array([p.cost for p in plan.points]), "1", description="grid points x time steps")
+        write_dataset(pts, "run_seconds", column(lambda d, r: r.get("seconds", math.nan)), "s")
+        sp = f.create_group("spectra")
+        write_dataset(sp, "photon_energy", energy, "eV")
+        write_dataset(sp, "power", power, "atomic_units", description="harmonic power |a|^2 interpolated onto photon_energy")
+        write_dataset(sp, "amplitude", amplitude, "atomic_units",
+            description="complex harmonic amplitude (acceleration form, phase referred to t = 0), "
+                        "real and imaginary parts interpolated onto photon_energy")
+        c = f.create_group("cutoff")
+        write_dataset(c, "spectrum", cutoff_ev, "eV", description="read off each spectrum (tdse1d.spectra.read_cutoff)")
+        write_dataset(c, "resolved", resolved, "1")
+        write_dataset(c, "semiclassical", est("cutoff_energy"), "eV", description="Ip + 3.17 Up")
+        write_dataset(c, "lewenstein", est("cutoff_energy_lewenstein"), "eV", description="1.32 Ip + 3.17 Up")
+        e = f.create_group("estimates")
+        write_dataset(e, "ponderomotive_energy", up_ev, "eV")
+        write_dataset(e, "ionization_potential", ip_ev, "eV")
+        write_dataset(e, "keldysh_parameter", column(lambda d, r: d.attrs["estimates"].get("keldysh_parameter", math.nan)), "1")
+        write_dataset(e, "peak_intensity", column(lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)),
+            "W/cm^2")
+        write_dataset(e, "photon_energy", est("photon_energy"), "eV")
+        ion = f.create_group("ionization")
+        write_dataset(ion, "probability", column(lambda d, r: d.attrs["ionization"]), "1",
+            description="1 - final bound population")
+        write_dataset(ion, "tunnelling_estimate", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
+            d.attrs["tunnelling"]) else r.get("tunnelling_yield", math.nan)), "1",
+            description="quasi-static tunnelling yield over the run's field (tdse1d.semiclassical.tunnelling.tunnelling_yield)")
+        pe = f.create_group("photoelectron")
+        write_dataset(pe, "cutoff", column(lambda d, r: d.attrs["photoelectron"] * ev), "eV",
+            description="rough end of the last plateau (tdse1d.scan.summary.photoelectron_cutoff)")
+        write_dataset(pe, "direct_edge", column(lambda d, r: d.attrs["direct_edge"] * ev), "eV",
+            description="direct-electron edge read off by the run (/spectra/photoelectron/edges), NaN if absent")
+        write_dataset(pe, "backscattered_edge", column(lambda d, r: d.attrs["backscattered_edge"] * ev), "eV",
+            description="backscattered-electron edge read off by the run, NaN if absent")
+        write_dataset(pe, "direct_drift", est("direct_drift_energy"), "eV", description="2 Up")
+        write_dataset(pe, "backscattered_drift", est("backscattered_drift_energy"), "eV", description="10 Up")
+        g = f.create_group("fit")
+        g.attrs["description"] = ("least-squares line cutoff = slope * Up + intercept (eV) over points with a "
+                                  "resolved cutoff; semiclassical: slope 3.17, intercept Ip (or 1.32 Ip)")
+        for k, v in (fit or {}).items():
+            g.attrs[k] = v
+        _write_focal(f, plan, energy, power, amplitude)
+    os.replace(tmp, sd.summary)
+    return Summary(sd.summary, fit)
+
+
+def _write_focal(f, plan, energy, power, amplitude):
+    """Focal-volume averages when the plan scans one intensity axis (see :mod:`tdse1d.scan.focal`)."""
+    from .focal import GEOMETRIES, focal_average
+
+    if len(plan.axes) != 1 or not plan.axes[0].key.endswith("peak_intensity"):
+        return
+    intensity = np.array(plan.axes[0].atomic, float)
+    ok = np.isfinite(power).all(axis=1) if power.size else np.zeros(0, bool)
+    if ok.sum() < 2:
+        return
+    g = f.create_group("focal")
+    g.attrs["peak_intensity_au"] = float(intensity[ok].max())
+    g.attrs["description"] = ("averages over the peak intensities of a Gaussian focus whose peak is the "
+                              "largest scanned intensity; see docs/scans.md")
+    for name in GEOMETRIES:
+        sub = g.create_group(name)
+        inc = focal_average(intensity[ok], power[ok], geometry=name)
+        coh = focal_average(intensity[ok], amplitude[ok], geometry=name, coherent=True)
+        write_dataset(sub, "incoherent", inc, "atomic_units", description="sum of w_k |a_k|^2")
+        write_dataset(sub, "coherent", coh, "atomic_units", description="|sum of w_k a_k|^2")
