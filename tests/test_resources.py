@@ -50,7 +50,7 @@ def test_estimate_bounds_the_memory_a_run_allocates(tmp_path):
     it must not be below what the run allocates (a run it lets start must not die for
     memory), and should not be above twice that (or it refuses runs that fit in half the
     machine). Both bounds are set from that use, before measuring; checked where the
-    per-step series matter: 9e3 steps in the mask method at 4th order (the most arrays
+    per-step series matter: 9e3 steps with the surface flux method at 4th order (the most arrays
     per step), 1.8e4 steps at 2nd order without it (the fewest)."""
     _measured_peak(_problem("laser.0.cycles=1"), tmp_path / "warm.h5")  # compile once, outside the count
     for step, extra in (("0.05", "propagation.order=4"), ("0.025", 'spectra.photoelectrons="none"')):

@@ -11,7 +11,7 @@ Where the memory goes (``docs/performance.md`` has the measurements):
 * time series, kept for every time step: the observables (norm, dipole, momentum,
   acceleration, initial population, field and vector potential at t_n), the field
   at the midpoint of every kinetic sub-step (1 for the second-order splitting, 3 for
-  the fourth), and the vector-potential integrals of the mask method. About 150 bytes
+  the fourth), and the per-step integrals of A and A^2 that the surface flux method's Volkov phases use. About 150 bytes
   per step at second order, 270 at fourth;
 * the semiclassical analysis after the run: splines of A(t) over every step, and
   work blocks of the three-step model (64 births per cycle times the steps of a cycle,
@@ -44,8 +44,9 @@ SERIES_BYTES_PER_STEP = 8 * 12
 #: bytes per step and kinetic sub-step: midpoint times, E and A there, and the field
 #: evaluation's temporaries (measured 58 B per extra sub-step)
 MIDPOINT_BYTES_PER_STEP = 8 * 7
-#: bytes per step of the mask method: A(t_n) and its two running integrals
-MASK_BYTES_PER_STEP = 8 * 3
+#: bytes per step of the surface flux method: the integrals of A and A^2 over each
+#: step (tdse1d.physics.propagation, the Volkov phases of tdse1d.spectra.surface_flux)
+FLUX_BYTES_PER_STEP = 8 * 2
 #: bytes per step of the analysis beyond its bounded blocks: splines of A(t) and its
 #: antiderivative, the tunnelling yield, the Gabor map's sample rows (measured 200-300)
 ANALYSIS_BYTES_PER_STEP = 300
@@ -128,12 +129,12 @@ def estimate_resources(problem) -> ResourceEstimate:
     samples = steps + 1
     points = int(problem.grid.points)
     sub_steps = len(scheme_for_order(cfg.propagation.order).weights)
-    mask = cfg.spectra.photoelectrons == "mask" and bool(problem.field.pulses)
+    flux = cfg.spectra.photoelectrons == "surface_flux" and bool(problem.field.pulses)
     states = len(problem.states)
     n_snap = min(int(cfg.output.snapshots), samples)
     snap_points = -(-points // int(cfg.output.snapshot_stride))
 
-    per_step = SERIES_BYTES_PER_STEP + MIDPOINT_BYTES_PER_STEP * sub_steps + (MASK_BYTES_PER_STEP if mask else 0)
+    per_step = SERIES_BYTES_PER_STEP + MIDPOINT_BYTES_PER_STEP * sub_steps + (FLUX_BYTES_PER_STEP if flux else 0)
     series = per_step * samples
     grid = GRID_BYTES_PER_POINT * points + 8 * states * points + 16 * snap_points
     # three-step model: births (64 per cycle) times the steps of a cycle, i.e. 64 per

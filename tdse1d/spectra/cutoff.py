@@ -135,7 +135,9 @@ def unresolved_reason(headroom: float) -> str:
     headroom : float
         Decades by which the reading level stands above the noise floor (may be < 0).
     """
-    return f"unresolved (within {max(headroom, 0.0):.1f} decades of the noise floor)"
+    if not headroom > 0:
+        return "unresolved (at or below the noise floor)"
+    return f"unresolved (within {headroom:.1f} decades of the noise floor)"
 
 
 def running_mean(axis, values, half_width):
