@@ -66,7 +66,7 @@ class ScanOutcome:
 
 def scan(plan, directory=None, *, point: int | None = None, gather: bool = False, listing: bool = False,
          scheduler: str | None = None, timeout: float = 10.0, workers: int | None = None, dashboard: bool = False,
-         fresh: bool = False, retry_failed: bool = False, progress: bool = False) -> ScanOutcome:
+         fresh: bool = False, retry_failed: bool = False, progress: bool = False, client=None) -> ScanOutcome:
     """Run the points of a scan plan and write its summary (``tdse1d scan``).
 
     Parameters
@@ -93,6 +93,8 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
         Delete the points already in the directory first; run failed points again.
     progress : bool
         Show a progress bar.
+    client : distributed.Client, optional
+        A Dask client to run on (e.g. of a dask-jobqueue cluster); replaces ``scheduler``.
 
     Returns
     -------
@@ -138,7 +140,8 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
             from ..scan.execute import run_scan
 
             execution = run_scan(plan, directory.root, scheduler=scheduler, timeout=timeout, workers=workers,
-                                 dashboard=dashboard, fresh=fresh, retry_failed=retry_failed, progress=progress)
+                                 dashboard=dashboard, fresh=fresh, retry_failed=retry_failed, progress=progress,
+                                 client=client)
             with directory.lock():
                 summary = write_summary(plan, directory.root)
         else:
