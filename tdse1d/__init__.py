@@ -3,18 +3,26 @@ strong laser fields, with the semiclassical picture laid beside the quantum resu
 
 Everything inside is in Hartree atomic units; :mod:`tdse1d.units` converts.
 
-The functions below (:mod:`tdse1d.api`) are imported on first use: the command line
-imports this package before it can catch a Ctrl-C, so the package itself stays light.
+The library functions (:mod:`tdse1d.api`: run, states, estimate, report, plot, export,
+scan, compare, validate) are imported on first use: the command line imports this
+package before it can catch a Ctrl-C, so the package itself stays light. ``tdse1d.run``,
+``tdse1d.scan`` and ``tdse1d.validate`` are also the names of subpackages (once one of
+them is imported, the name is the subpackage), so call those three as ``tdse1d.api.run``,
+``tdse1d.api.scan`` and ``tdse1d.api.validate``.
 """
 
 __version__ = "0.1.0"
 
-__all__ = ["__version__", "load_input", "find_states", "estimate", "run"]
+_API = ("load_input", "find_states", "states", "estimate", "run", "report", "plot", "export", "compare")
 
-_API = ("load_input", "find_states", "estimate", "run")
+__all__ = ["__version__", "api", *_API]
 
 
 def __getattr__(name):
+    if name == "api":
+        import importlib
+
+        return importlib.import_module(".api", __name__)
     if name in _API:
         from . import api
 
@@ -23,4 +31,4 @@ def __getattr__(name):
 
 
 def __dir__():
-    return sorted(list(globals()) + list(_API))
+    return sorted(set(globals()) | set(__all__))

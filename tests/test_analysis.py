@@ -16,8 +16,6 @@ Each physics check names its source beside it:
 The runs are small (512 points, a few thousand steps) and shared by module fixtures.
 """
 
-import argparse
-import json
 import math
 from pathlib import Path
 
@@ -28,7 +26,7 @@ import scipy.constants as sc
 
 from tdse1d import analysis, api
 from tdse1d.io import analysis_file
-from tdse1d.cli import export, plot, report
+from tdse1d.api import figures, results
 from tdse1d.input.schema import load_input
 
 INPUTS = Path(__file__).resolve().parent.parent / "inputs"
@@ -335,12 +333,6 @@ def test_photoelectron_edges_of_a_synthetic_spectrum():
     assert 0.3 < edges.direct < 2 * up + w
 
 
-def _args(module, argv):
-    parser = argparse.ArgumentParser()
-    module.add_arguments(parser)
-    return parser.parse_args(argv)
-
-
 #: short variants of the shipped examples
 EXAMPLE_OVERRIDES = {
     "argon_800nm": ["laser.0.cycles=2"],
@@ -363,23 +355,23 @@ def example_runs(tmp_path_factory):
 
 
 @pytest.mark.parametrize("name", sorted(EXAMPLE_OVERRIDES))
-def test_report_plot_export_on_every_example(example_runs, name, tmp_path, capsys):
+def test_report_plot_export_on_every_example(example_runs, name, tmp_path):
     path = example_runs[name]
-    assert report.main(_args(report, [str(path), "--json"])) == 0
-    data = json.loads(capsys.readouterr().out)
+    report = api.report(path)
+    data = report.to_json()
     quantities = {r["quantity"] for r in data["rows"]}
     assert {"ground-state energy", "ionization potential Ip", "harmonic cutoff", "ionization probability"} <= quantities
     assert ("streaking shift" in quantities) == (name == "hydrogen_streaking")
-    assert report.main(_args(report, [str(path)])) == 0
-    text = capsys.readouterr().out
+    text = report.table()
     assert "semiclassical prediction" in text and "quantum result" in text
     out = tmp_path / f"{name}.png"
-    assert plot.main(_args(plot, [str(path), "--what", "all", "-o", str(out)])) == 0
-    for what in plot.KINDS["run"]:
+    drawn = api.plot(path, "all", out)
+    assert list(drawn.files) == list(figures.KINDS["run"])
+    for what in figures.KINDS["run"]:
         figure = tmp_path / f"{name}-{what}.png"
         assert figure.stat().st_size > 20_000, what  # a drawn figure, not an empty canvas
     csv = tmp_path / f"{name}.csv"
-    assert export.main(_args(export, [str(path), "--what", "harmonic", "--units", "eV", "-o", str(csv)])) == 0
+    assert api.export(path, "harmonic", "eV", csv).path == csv
     header = csv.read_text().splitlines()[0]
     assert header == "photon_energy [eV],harmonic_order [1],power [a.u.]"
     table = np.loadtxt(csv, delimiter=",", skiprows=1)
@@ -393,21 +385,21 @@ def test_plot_writes_pdf_and_svg_and_rejects_other_formats(example_runs, tmp_pat
     path = example_runs["argon_800nm"]
     for suffix in (".pdf", ".svg"):
         out = tmp_path / f"fig{suffix}"
-        assert plot.main(_args(plot, [str(path), "--what", "photoelectron", "-o", str(out)])) == 0
+        assert api.plot(path, "photoelectron", out).paths == [out]
         assert out.stat().st_size > 5_000
     from tdse1d.input.spec import InputError
 
     with pytest.raises(InputError, match="format"):
-        plot.main(_args(plot, [str(path), "--what", "field", "-o", str(tmp_path / "fig.jpg")]))
+        api.plot(path, "field", tmp_path / "fig.jpg")
 
 
 def test_export_units_convert_consistently(example_runs, tmp_path):
     path = example_runs["argon_800nm"]
     with h5py.File(path) as f:
-        names_ev, ev = export.columns(f, "photoelectron", "eV")
-        names_au, au = export.columns(f, "photoelectron", "au")
-        names_nm, nm = export.columns(f, "harmonic", "nm")
-        _, ev_harmonic = export.columns(f, "harmonic", "eV")
+        names_ev, ev = results.columns(f, "photoelectron", "eV")
+        names_au, au = results.columns(f, "photoelectron", "au")
+        names_nm, nm = results.columns(f, "harmonic", "nm")
+        _, ev_harmonic = results.columns(f, "harmonic", "eV")
     from tdse1d.units import HARTREE_EV
 
     assert names_ev[0] == "kinetic_energy [eV]" and names_au[0] == "kinetic_energy [hartree]"

@@ -29,12 +29,15 @@ LAYERS = (
     # of a run is written through the same guarded HDF5 file
     ("io", ("tdse1d.io",)),
     ("run", ("tdse1d.run",)),
-    # the library functions the commands call; below scan and validate, which run
-    # their points and cases through it
-    ("api", ("tdse1d.api",)),
+    # the library functions of one input (run, find_states, estimate); below scan and
+    # validate, which run their points and cases through it
+    ("api", ("tdse1d.api.single_run",)),
     ("scan", ("tdse1d.scan",)),
     ("plots", ("tdse1d.plots",)),
     ("validate", ("tdse1d.validate",)),
+    # the rest of the library the commands call (report, plot, export, scan, compare,
+    # validate) and the package tdse1d.api that names them all
+    ("library", ("tdse1d.api",)),
     ("cli", ("tdse1d.cli",)),
     # the package's own __init__ loads the api lazily; what it holds itself (the
     # version) is imported as foundation (see layer_violations)
@@ -176,6 +179,8 @@ def test_every_package_is_shipped():
     ("tdse1d.physics.grid", "def f():\n    from tdse1d.io import result_file\n"),
     # spectra importing the package api (the facade above everything)
     ("tdse1d.spectra.harmonic", "from .. import api\n"),
+    # the scan reaching up into the library functions on result files
+    ("tdse1d.scan.worker", "from ..api import results\n"),
     # analysis importing a writer of files
     ("tdse1d.analysis.report", "import tdse1d.io.result_file\n"),
     # the core importing a file library, lazily
@@ -190,6 +195,7 @@ def test_the_checker_flags_a_planted_bad_import(module, source):
 
 @pytest.mark.parametrize("module, source", [
     ("tdse1d.physics.grid", "from .. import units\nfrom ..registry import registrar\nimport numpy\n"),
+    ("tdse1d.scan.worker", "from ..api import single_run as api\n"),
     ("tdse1d.cli.run", "def f():\n    from .. import api\n    from ..io import result_file\n    import h5py\n"),
     ("tdse1d.io.result_file", "import h5py\nfrom ..physics import grid\nfrom .. import __version__\n"),
 ])

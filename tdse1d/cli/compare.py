@@ -4,17 +4,8 @@ import json
 import math
 
 from .program import nonnegative_float, nonnegative_int
-from ..input.spec import InputError
 
 HELP = "broaden and weight a computed harmonic spectrum like a measured one, and compare their cutoffs"
-
-
-#: what compare.computed_spectrum reads, by kind of file
-NEEDS = {
-    "run": ("estimates", "spectra/harmonic/frequency", "spectra/harmonic/power"),
-    "scan-summary": ("spectra/photon_energy", "spectra/power", "estimates/photon_energy",
-                     "estimates/ionization_potential"),
-}
 
 
 def add_arguments(parser):
@@ -34,24 +25,11 @@ def add_arguments(parser):
 
 
 def main(args):
-    from ..scan import compare
+    from ..api.campaigns import compare
 
-    from ..io.checked_open import check_result
-
-    check_result(args.computed, kinds=("run", "scan-summary"), needs=NEEDS)
-    try:
-        measured = compare.read_spectrum_csv(args.measured, args.x_unit)
-        response = compare.read_spectrum_csv(args.response, args.x_unit) if args.response else None
-        energy, power, omega0, ip, label = compare.computed_spectrum(args.computed, args.point, args.average)
-        floor = compare.computed_floor(args.computed, args.point, args.average)
-        result = compare.compare_spectra(energy, power, measured, omega0, ip,
-                                         resolution_fwhm_ev=args.resolution, response=response, floor_power=floor)
-    except KeyError as exc:  # an attribute or dataset the checks above do not list
-        raise InputError(f"missing data ({exc})", source=args.computed) from None
-    except (ValueError, OSError) as exc:
-        raise InputError(str(exc)) from None
-    if args.plot:
-        compare.plot_comparison(result, args.plot, label)
+    result = compare(args.computed, args.measured, x_unit=args.x_unit, response=args.response,
+                     resolution=args.resolution, point=args.point, average=args.average, plot=args.plot)
+    label = result.label
     if args.json:
         print(json.dumps(result.to_json(), indent=1))
     else:

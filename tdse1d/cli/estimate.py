@@ -2,7 +2,8 @@
 
 import json
 
-from .. import api, units
+from .. import units
+from ..api import single_run as api
 from .program import add_input_arguments
 from ..input.schema import load_input
 
@@ -48,13 +49,9 @@ def _resource_rows(est):
 
 
 def main(args):
-    from ..run.resources import estimate_resources
-
-    config = load_input(args.input, args.overrides)
-    result = api.estimate(config)
-    resources = estimate_resources(result.problem)
+    result = api.estimate(load_input(args.input, args.overrides))
     if args.json:
-        print(json.dumps({**result.to_json(), "resources": resources.to_json()}, indent=1))
+        print(json.dumps(result.to_json(), indent=1))
         return 0
     for i, p in enumerate(result.pulses):
         print(f"pulse {i}")
@@ -69,6 +66,6 @@ def main(args):
     for reason in a.reasons:
         print(f"    - {reason}")
     print("resources of the run as given (checked before `tdse1d run` propagates)")
-    for name, value, note in _resource_rows(resources):
+    for name, value, note in _resource_rows(result.resources):
         print(f"  {name:<30} {value:>20}   {note}")
     return 0

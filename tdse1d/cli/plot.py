@@ -1,161 +1,28 @@
 """``tdse1d plot RESULT.h5 [--what ...] [-o FILE]``: figures of a result file.
 
-The file's kind is read from the root attribute ``kind`` (a run file written before
-the attribute existed has none and is a run) and looked up in :data:`KINDS`, which
-maps it to the figures that kind offers. Each figure is a function of the open file
-returning a matplotlib Figure; the drawing itself is in :mod:`tdse1d.plots.run_figures`. Adding a
-kind of file is adding one entry to :data:`KINDS`.
-
 With ``--what all`` (or without ``-o``) every figure goes to its own file,
-``STEM-WHAT.EXT`` beside ``-o`` (default: beside the result file, PNG).
+``STEM-WHAT.EXT`` beside ``-o`` (default: beside the result file, PNG). The figures
+and their choice by kind of file are :func:`tdse1d.api.plot`'s; this module only
+parses and prints the files written.
 """
 
 from __future__ import annotations
 
-import math
-from pathlib import Path
-
-import numpy as np
-
-from ..plots import run_figures, scan_figures
-from ..input.spec import InputError
-from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
-
 HELP = "draw the figures of a result file (field, density, spectra, time-frequency map, populations)"
-
-FORMATS = (".png", ".pdf", ".svg")
-DPI = 200
-
-
-def _analysis(f, cache):
-    if "analysis" not in cache:
-        from ..io.analysis_file import analyse_file
-
-        cache["analysis"] = analyse_file(f)
-    return cache["analysis"]
-
-
-def _field(f, cache):
-    return run_figures.field_figure(f["field/time"][()], f["field/electric"][()], f["field/vector_potential"][()])
-
-
-def _density(f, cache):
-    if "snapshots/psi" not in f or f["snapshots/psi"].shape[0] == 0:
-        raise InputError("the file holds no wavefunction snapshots ([output] snapshots = 0)", "--what")
-    psi = f["snapshots/psi"][()]
-    return run_figures.density_figure(f["snapshots/time"][()], f["snapshots/x"][()], np.abs(psi) ** 2,
-                                f["field/time"][()], f["field/electric"][()])
-
-
-def _harmonic(f, cache):
-    a = _analysis(f, cache)
-    g = f["spectra/harmonic"]
-    cutoffs = [("Ip + 3.17 Up", a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
-               ("1.32 Ip + 3.17 Up", LEWENSTEIN_IP * a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy)]
-    if a.three_step is not None:
-        cutoffs.append(("three-step model", a.three_step.cutoff_energy))
-    cutoffs.append(("read off", a.harmonic_cutoff))
-    return run_figures.harmonic_figure(g["frequency"][()], g["power"][()], a.omega0, cutoffs)
-
-
-def _time_frequency(f, cache):
-    a = _analysis(f, cache)
-    tf = a.time_frequency
-    if tf is None:
-        raise InputError("no time-frequency map: the run has no field", "--what")
-    s = a.three_step
-    branches = [("short", s.short_branch), ("long", s.long_branch)] if s is not None else []
-    return run_figures.time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
-                                       s.cutoff_energy if s is not None else math.nan,
-                                       f["field/time"][()], f["field/electric"][()])
-
-
-def _photoelectron(f, cache):
-    a = _analysis(f, cache)
-    method = a.photoelectron_method
-    if method is None:
-        raise InputError("the file holds no photoelectron spectrum", "--what")
-    g = f[f"spectra/photoelectron/{method}"]
-    up = a.ponderomotive_energy
-    if a.streaking is not None:
-        st = a.streaking
-        marks = [("hbar w_XUV - Ip", st.xuv_photon_energy - a.ionization_potential),
-                 ("streaked right, (p0 - A_IR)^2/2", 0.5 * (st.initial_momentum - st.vector_potential) ** 2),
-                 ("streaked left, (p0 + A_IR)^2/2", 0.5 * (st.initial_momentum + st.vector_potential) ** 2)]
-    else:
-        marks = [("2 Up", 2 * up), ("10 Up", 10 * up)]
-        if a.edges is not None:
-            marks += [("direct edge read off", a.edges.direct), ("backscattered edge read off", a.edges.backscattered)]
-    return run_figures.photoelectron_figure(g["energy"][()], g["energy_density_left"][()], g["energy_density_right"][()],
-                                      marks, title=f"photoelectron spectrum ({method.replace('_', ' ')})")
-
-
-def _populations(f, cache):
-    return run_figures.populations_figure(f["observables/time"][()], f["observables/norm"][()],
-                                    f["observables/population_time"][()], f["observables/bound_population"][()])
-
-
-#: file kind -> figure name -> function(open file, cache) -> Figure
-KINDS = {
-    "run": {
-        "field": _field,
-        "density": _density,
-        "harmonic": _harmonic,
-        "time-frequency": _time_frequency,
-        "photoelectron": _photoelectron,
-        "populations": _populations,
-    },
-    "scan-summary": scan_figures.FIGURES,
-}
-
-
-def _all_figures():
-    return sorted({name for figures in KINDS.values() for name in figures})
 
 
 def add_arguments(parser):
+    from ..api.figures import all_figures
+
     parser.add_argument("result", metavar="RESULT.h5", help="result file")
-    parser.add_argument("--what", default="all", choices=[*_all_figures(), "all"],
+    parser.add_argument("--what", default="all", choices=[*all_figures(), "all"],
                         help="which figure (default: all, one file each)")
     parser.add_argument("-o", "--output", metavar="FILE", default=None,
                         help="output file (.png, .pdf or .svg); with --what all, a stem for one file per figure")
 
 
-def file_kind(h5file) -> str:
-    """The ``kind`` root attribute; absent means a run file."""
-    kind = h5file.attrs.get("kind", "run")
-    return kind.decode() if isinstance(kind, bytes) else str(kind)
-
-
-def output_files(result, what, names, output=None) -> dict:
-    """Figure name -> output path."""
-    if output is not None:
-        out = Path(output)
-        if out.suffix.lower() not in FORMATS:
-            raise InputError(f"unknown figure format {out.suffix!r}; use one of {', '.join(FORMATS)}", "--output")
-    else:
-        out = Path(result).with_suffix(".png")
-    if what != "all" and output is not None:
-        return {what: out}
-    chosen = names if what == "all" else [what]
-    return {name: out.with_name(f"{out.stem}-{name}{out.suffix}") for name in chosen}
-
-
 def main(args):
-    import matplotlib
+    from ..api.figures import plot
 
-    matplotlib.use("Agg")
-    from ..io.checked_open import open_result
-
-    with open_result(args.result, kinds=KINDS) as f:
-        kind = f.kind
-        figures = KINDS[kind]
-        if args.what != "all" and args.what not in figures:
-            raise InputError(f"{args.what!r} is not a figure of a {kind} file; choose from {', '.join(figures)}", "--what")
-        cache = {}
-        for name, path in output_files(args.result, args.what, list(figures), args.output).items():
-            fig = figures[name](f, cache)
-            path.parent.mkdir(parents=True, exist_ok=True)
-            fig.savefig(path, dpi=DPI)
-            print(f"wrote {path}")
+    plot(args.result, args.what, args.output, on_written=lambda path: print(f"wrote {path}"))
     return 0

@@ -10,7 +10,8 @@ import signal
 import sys
 import time
 
-from .. import api, units
+from .. import units
+from ..api import single_run as api
 from .program import add_input_arguments
 from ..input.schema import load_input
 from ..io.wisdom import fftw_wisdom
@@ -73,7 +74,7 @@ def main(args):
     previous = {sig: signal.signal(sig, control.request_stop) for sig in (signal.SIGTERM, signal.SIGINT)}
     try:
         with fftw_wisdom():
-            outcome = api.run_problem(problem, args.output, progress=bar, resume=args.resume,
+            outcome = api.run(problem, args.output, progress=bar, resume=args.resume,
                                       control=control, strict=args.strict)
     except RunInterrupted as exc:
         bar.close()

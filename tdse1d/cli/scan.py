@@ -8,7 +8,6 @@ checkpoint and exits with status 75, like ``tdse1d run``.
 """
 
 import sys
-from pathlib import Path
 
 from .program import CommandError, nonnegative_int, positive_float, scheduler_address, worker_count
 
@@ -35,85 +34,51 @@ def add_arguments(parser):
     mode.add_argument("--list", action="store_true", help="list the points, their hashes and costs, and run nothing")
 
 
-def _scan_dir(args):
-    return Path(args.output) if args.output else Path(Path(args.plan).stem)
-
-
 def main(args):
-    from ..scan.directory import PlanMismatch, ScanDirectory
-    from ..scan.execute import SchedulerUnreachable, run_one, run_scan
-    from ..scan.plan import load_plan
-    from ..scan.worker import install_stop_handlers, remove_stop_handlers
-    from ..scan.summary import write_summary
+    from ..api.campaigns import scan
+    from ..scan.directory import PlanMismatch
+    from ..scan.execute import SchedulerUnreachable
 
-    plan = load_plan(args.plan)  # PlanError (exit 2) lists every bad point
-    directory = ScanDirectory(_scan_dir(args))
     say = (lambda *a: None) if args.quiet else (lambda *a: print(*a))
-    if args.list:
-        for p in plan.points:
-            values = ", ".join(f"{a.key} = {a.values[i]}" for a, i in zip(plan.axes, p.grid_index))
-            print(f"{p.index:4d}  {p.hash}  cost {p.cost:.3g}  {values}  [{directory.state(p)}]")
-        return 0
+    options = dict(scheduler=args.scheduler, timeout=args.timeout, workers=args.workers, dashboard=args.dashboard,
+                   fresh=args.fresh, retry_failed=args.retry_failed, progress=not args.quiet)
     try:
         if args.point is not None:
-            if args.fresh:
-                from ..input.spec import InputError
+            from ..scan.worker import install_stop_handlers, remove_stop_handlers
 
-                raise InputError("--fresh with --point would delete the points of the other array tasks; "
-                                 "clear the directory once before submitting the array", "--fresh", args.plan)
             # the run is in this (main) thread: SIGTERM/SIGINT stop it with a checkpoint
             install_stop_handlers(redeliver=False)
             try:
-                report = run_one(plan, directory.root, args.point, fresh=args.fresh,
-                                      retry_failed=True)
-            except IndexError as exc:
-                from ..input.spec import InputError
-
-                raise InputError(str(exc), "--point", args.plan) from None
+                outcome = scan(args.plan, args.output, point=args.point, **options)
             finally:
                 remove_stop_handlers()
-            for k, err in report.failed.items():
-                print(f"tdse1d: point {k} failed: {err}", file=sys.stderr)
-            for k, err in report.busy.items():
-                print(f"tdse1d: point {k} not run: {err}", file=sys.stderr)
-            if report.interrupted:
-                from .run import EXIT_INTERRUPTED
-
-                print(f"tdse1d: point {args.point} {report.records[args.point]['error']}; "
-                      "run the same task again to continue", file=sys.stderr)
-                return EXIT_INTERRUPTED
-            if report.skipped:
-                say(f"point {args.point} already finished in {directory.root}")
-            elif report.done:
-                say(f"point {args.point} done in {report.wall:.1f} s -> {directory.result(plan.points[args.point])}")
-            return 0 if report.ok else 1
-        if not args.gather:
-            report = run_scan(plan, directory.root, scheduler=args.scheduler, timeout=args.timeout,
-                                   workers=args.workers,
-                                   dashboard=args.dashboard, fresh=args.fresh, retry_failed=args.retry_failed,
-                                   progress=not args.quiet)
-            say(f"scan: {len(report.done)} points run, {len(report.skipped)} already finished, "
-                f"{len(report.failed)} failed, of {report.total} (wall {report.wall:.1f} s)")
-            for k, err in sorted(report.failed.items()):
-                print(f"tdse1d: point {k} ({plan.points[k].hash}) failed: {err}", file=sys.stderr)
-            for k, err in sorted(report.busy.items()):
-                print(f"tdse1d: point {k} ({plan.points[k].hash}) not run: {err}", file=sys.stderr)
-            for k in sorted(report.interrupted):
-                print(f"tdse1d: point {k} ({plan.points[k].hash}) stopped by a signal; its checkpoint is kept "
-                      "and the next run of the scan continues it", file=sys.stderr)
-            if report.failed and not args.retry_failed:
-                print("tdse1d: rerun with --retry-failed to run the failed points again", file=sys.stderr)
-            with directory.lock():
-                summary = write_summary(plan, directory.root)
         else:
-            with directory.lock():  # not while a scan is writing into the directory
-                directory.claim(plan, fresh=False)
-                summary = write_summary(plan, directory.root)
+            outcome = scan(args.plan, args.output, gather=args.gather, listing=args.list, **options)
     except PlanMismatch as exc:
         raise CommandError(str(exc)) from None
     except SchedulerUnreachable as exc:
         raise CommandError(f"{exc}; nothing was run") from None
-    missing = [p.index for p in plan.points if directory.state(p) != "done"]
+    plan, report = outcome.plan, outcome.execution
+    if outcome.mode == "list":
+        for p in plan.points:
+            values = ", ".join(f"{a.key} = {a.values[i]}" for a, i in zip(plan.axes, p.grid_index))
+            print(f"{p.index:4d}  {p.hash}  cost {p.cost:.3g}  {values}  [{outcome.states[p.index]}]")
+        return 0
+    if outcome.mode == "point":
+        return _render_point(args, outcome, say)
+    if report is not None:
+        say(f"scan: {len(report.done)} points run, {len(report.skipped)} already finished, "
+            f"{len(report.failed)} failed, of {report.total} (wall {report.wall:.1f} s)")
+        for k, err in sorted(report.failed.items()):
+            print(f"tdse1d: point {k} ({plan.points[k].hash}) failed: {err}", file=sys.stderr)
+        for k, err in sorted(report.busy.items()):
+            print(f"tdse1d: point {k} ({plan.points[k].hash}) not run: {err}", file=sys.stderr)
+        for k in sorted(report.interrupted):
+            print(f"tdse1d: point {k} ({plan.points[k].hash}) stopped by a signal; its checkpoint is kept "
+                  "and the next run of the scan continues it", file=sys.stderr)
+        if report.failed and not args.retry_failed:
+            print("tdse1d: rerun with --retry-failed to run the failed points again", file=sys.stderr)
+    summary, missing = outcome.summary, list(outcome.missing)
     say(f"wrote {summary.path} ({len(plan.points) - len(missing)} of {len(plan.points)} points)")
     if summary.fit is not None and not args.quiet:
         f = summary.fit
@@ -123,3 +88,22 @@ def main(args):
         print(f"tdse1d: {len(missing)} points have no result yet: {missing}", file=sys.stderr)
         return 1
     return 0
+
+
+def _render_point(args, outcome, say):
+    """The lines of one job-array task (``--point K``)."""
+    report, k = outcome.execution, args.point
+    for i, err in report.failed.items():
+        print(f"tdse1d: point {i} failed: {err}", file=sys.stderr)
+    for i, err in report.busy.items():
+        print(f"tdse1d: point {i} not run: {err}", file=sys.stderr)
+    if report.interrupted:
+        from .run import EXIT_INTERRUPTED
+
+        print(f"tdse1d: point {k} {report.records[k]['error']}; run the same task again to continue", file=sys.stderr)
+        return EXIT_INTERRUPTED
+    if report.skipped:
+        say(f"point {k} already finished in {outcome.directory}")
+    elif report.done:
+        say(f"point {k} done in {report.wall:.1f} s -> {outcome.result(k)}")
+    return 0 if report.ok else 1

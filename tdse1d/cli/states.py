@@ -2,7 +2,8 @@
 
 import json
 
-from .. import api, units
+from .. import units
+from ..api import single_run as api
 from .program import add_input_arguments, positive_int
 from ..input.schema import load_input
 
@@ -16,8 +17,7 @@ def add_arguments(parser):
 
 
 def main(args):
-    config = load_input(args.input, args.overrides)
-    result = api.find_states(config, count=args.count)
+    result = api.find_states(load_input(args.input, args.overrides), count=args.count)
     if args.json:
         print(json.dumps(result.to_json()))
         return 0
@@ -26,7 +26,6 @@ def main(args):
     print(f"model: {problem.potential.describe()}")
     print(f"grid: {grid.points} points, spacing {grid.spacing:.6g} bohr, box +-{grid.half_width:.1f} bohr")
     print(f"{'n':>3}  {'energy (Hartree)':>18}  {'energy (eV)':>14}  {'<x^2>^1/2 (bohr)':>16}")
-    x2 = (result.states.wavefunctions**2 * grid.x**2).sum(axis=1) * grid.spacing
-    for n, (e, r) in enumerate(zip(result.states.energies, x2**0.5)):
+    for n, (e, r) in enumerate(zip(result.states.energies, result.rms_extent)):
         print(f"{n:>3}  {e:>18.12f}  {units.au_to_ev(e):>14.6f}  {r:>16.3f}")
     return 0

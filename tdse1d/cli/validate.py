@@ -1,13 +1,6 @@
 """``tdse1d validate``: run the validation cases and write a report."""
 
-import platform
-import subprocess
 import sys
-import time
-from datetime import datetime, timezone
-
-from .. import __version__
-from .. import validate
 
 HELP = "run the validation suite (validation/*/case.toml) and write REPORT_DIR/report.md"
 
@@ -20,33 +13,12 @@ def add_arguments(parser):
     parser.add_argument("--only", action="append", default=[], metavar="CASE", help="run only this case (repeatable)")
 
 
-def _cpu_model():
-    try:
-        out = subprocess.run(["lscpu"], capture_output=True, text=True, timeout=10).stdout
-        for line in out.splitlines():
-            if line.startswith("Model name:"):
-                return line.split(":", 1)[1].strip()
-    except (OSError, subprocess.SubprocessError):
-        pass
-    return platform.processor() or "unknown"
-
-
 def main(args):
-    import os
+    from ..api.campaigns import validate
 
-    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
-    cases = validate.discover(args.cases, quick=args.quick, names=set(args.only) or None)
-    started = time.perf_counter()
-    reports = validate.run_suite(cases, args.output, log=lambda m: print(m, file=sys.stderr, flush=True))
-    seconds = time.perf_counter() - started
-    header = {
-        "date": datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
-        "machine": f"{_cpu_model()}, {os.cpu_count()} cores",
-        "tdse1d": __version__,
-        "suite": "quick" if args.quick else "full",
-        "run time": f"{seconds:.0f} s (load average {load:.1f} at the start: other work on the machine slows it)",
-    }
-    path = validate.write_report(reports, args.output, header)
-    failed = [r.case.name for r in reports if not r.passed]
-    print(f"{len(reports) - len(failed)} passed, {len(failed)} failed in {seconds:.0f} s; report: {path}")
-    return 1 if failed or not reports else 0
+    result = validate(args.output, cases=args.cases, quick=args.quick, only=args.only,
+                      log=lambda m: print(m, file=sys.stderr, flush=True))
+    failed = result.failed
+    print(f"{len(result.reports) - len(failed)} passed, {len(failed)} failed in {result.seconds:.0f} s; "
+          f"report: {result.path}")
+    return 1 if failed or not result.reports else 0

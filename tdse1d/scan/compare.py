@@ -159,6 +159,18 @@ class Comparison:
     #: empty when the cutoff was read; else why not ("unresolved (within X decades of the noise floor)")
     computed_reason: str = ""
     measured_reason: str = ""
+    label: str = "computed"
+    """What the computed spectrum is (a run, a scan point, a focal average)."""
+    plot: object = None
+    """The overlay figure written, if any (path)."""
+
+    def __repr__(self) -> str:
+        def cut(x):
+            return f"{x:.2f} eV" if math.isfinite(x) else "unresolved"
+
+        return (f"<Comparison {self.label}: cutoff computed {cut(self.cutoff_computed_ev)}, "
+                f"measured {cut(self.cutoff_measured_ev)}, "
+                f"resolution {self.resolution_fwhm_ev:g} eV>")
 
     @property
     def difference_ev(self) -> float:

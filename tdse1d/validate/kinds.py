@@ -105,7 +105,7 @@ class BoundEnergy(CaseKind):
     """Energy of bound state ``params.state`` of the input's model on its grid."""
 
     def run(self):
-        from ..api import find_states as states
+        from ..api.single_run import find_states as states
 
         result = states(self.case.input())
         n = int(self.case.get("params.state", 0))
@@ -119,7 +119,7 @@ class ExactLevels(CaseKind):
     """Every bound level of a model with exact levels (``potential.exact_levels()``)."""
 
     def run(self):
-        from ..api import find_states as states
+        from ..api.single_run import find_states as states
 
         result = states(self.case.input())
         exact = result.problem.potential.exact_levels()
@@ -142,7 +142,7 @@ class SofteningFit(CaseKind):
     """
 
     def run(self):
-        from ..api import find_states as states
+        from ..api.single_run import find_states as states
 
         rows = []
         for atom in self.case.get("params.atoms"):

@@ -1,11 +1,14 @@
-"""What the commands do, as functions for notebooks and scripts.
+"""One input: its bound states, its estimates, and its run (the library functions of
+``tdse1d states``, ``tdse1d estimate`` and ``tdse1d run``)::
 
-Each command of the ``tdse1d`` program is a thin layer over one of these::
+    from tdse1d import api
+    config = api.load_input("inputs/argon_800nm.toml", overrides=["laser.0.peak_intensity=\\"2e14 W/cm^2\\""])
+    found = api.find_states(config)        # bound states on the run's grid
+    numbers = api.estimate(config)         # semiclassical numbers, advised grid, resources
 
-    import tdse1d
-    config = tdse1d.load_input("inputs/argon_800nm.toml", overrides=["laser.0.peak_intensity=\\"2e14 W/cm^2\\""])
-    found = tdse1d.find_states(config)        # bound states on the run's grid
-    report = tdse1d.estimate(config)          # semiclassical numbers and advised grid
+This module sits below the scan and the validation suite, which run their points and
+cases through :func:`run_problem`; the functions on result files are in
+:mod:`tdse1d.api.results` and :mod:`tdse1d.api.campaigns`.
 """
 
 from __future__ import annotations
@@ -16,12 +19,12 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .input.schema import RunConfig, load_input
-from .semiclassical.estimates import GridAdvice, PulseEstimate, estimates_json
-from .input.problem import Problem, build_problem
-from .physics.states import BoundStates
+from ..input.schema import RunConfig, load_input
+from ..semiclassical.estimates import GridAdvice, PulseEstimate, estimates_json
+from ..input.problem import Problem, build_problem
+from ..physics.states import BoundStates
 
-__all__ = ["load_input", "find_states", "estimate", "run", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
+__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
 
 
 @dataclass(frozen=True)
@@ -40,15 +43,31 @@ class StatesResult:
         centres = getattr(self.problem.potential, "centres", None)
         return float(centres[0].softening) if centres else None
 
+    @property
+    def rms_extent(self):
+        """Root-mean-square extent <x^2>^1/2 of each state (bohr)."""
+        import numpy as np
+
+        grid = self.problem.grid
+        return np.sqrt((self.states.wavefunctions**2 * grid.x**2).sum(axis=1) * grid.spacing)
+
     def to_json(self) -> dict:
+        """``{"softening": a, "energies": [...]}`` in atomic units (bohr, hartree)."""
         return {"softening": self.softening, "energies": [float(e) for e in self.states.energies]}
+
+    def __repr__(self) -> str:
+        e = self.states.energies
+        first = f", E0 {e[0]:.6f} Eh" if len(e) else ""
+        return f"<StatesResult {len(e)} states on {self.problem.grid.points} points{first}>"
 
 
 @dataclass(frozen=True)
 class EstimateResult:
-    """Semiclassical estimates of an input's pulses and the advised grid."""
+    """Semiclassical estimates of an input's pulses, the advised grid, and the memory and
+    disk the run as given needs (:class:`tdse1d.run.resources.ResourceEstimate`, bytes)."""
 
     problem: Problem
+    resources: object = None
 
     @property
     def pulses(self) -> tuple[PulseEstimate, ...]:
@@ -59,17 +78,37 @@ class EstimateResult:
         return self.problem.advice
 
     def to_json(self) -> dict:
-        return estimates_json(list(self.pulses), self.advice)
+        """The estimates (and the resources, when estimated) for machines, atomic units."""
+        out = estimates_json(list(self.pulses), self.advice)
+        return out if self.resources is None else {**out, "resources": self.resources.to_json()}
+
+    def __repr__(self) -> str:
+        from .. import units
+
+        parts = [f"{len(self.pulses)} pulse(s)"]
+        if self.pulses:
+            p = self.pulses[0]
+            parts.append(f"Up {p.ponderomotive_energy * units.HARTREE_EV:.3g} eV, "
+                         f"gamma {p.keldysh_parameter:.3g}, cutoff H{p.cutoff_order:.1f}")
+        parts.append(f"advised {self.advice.points} points")
+        return f"<EstimateResult {', '.join(parts)}>"
 
 
 def find_states(config: RunConfig | str, count: int | None = None) -> StatesResult:
-    """Bound states of the model on the run's own grid.
+    """Bound states of the model on the run's own grid (``tdse1d states``).
 
     Parameters
     ----------
     config : RunConfig or path
+        The input, or the path of its TOML file.
     count : int, optional
         Number of states (overrides ``atom.bound_states``).
+
+    Returns
+    -------
+    StatesResult
+        Energies (hartree), wavefunctions, the fitted softening (bohr) and the
+        states' extent (bohr).
     """
     if not isinstance(config, RunConfig):
         config = load_input(config)
@@ -80,11 +119,35 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
     return StatesResult(build_problem(config))
 
 
-def estimate(config: RunConfig | str) -> EstimateResult:
-    """Semiclassical estimates for the input's pulses (see :mod:`tdse1d.semiclassical.estimates`)."""
+def estimate(config: RunConfig | str, resources: bool = True) -> EstimateResult:
+    """Semiclassical estimates for the input's pulses (``tdse1d estimate``; see
+    :mod:`tdse1d.semiclassical.estimates`).
+
+    Parameters
+    ----------
+    config : RunConfig or path
+        The input, or the path of its TOML file.
+    resources : bool
+        Also estimate the memory and disk (bytes) of the run as given.
+
+    Returns
+    -------
+    EstimateResult
+        Per pulse: photon energy, Up, Keldysh parameter, cutoffs (atomic units); the
+        advised grid (bohr, a.u. of time); the resources (bytes) or None.
+    """
     if not isinstance(config, RunConfig):
         config = load_input(config)
-    return EstimateResult(build_problem(config, with_states=False))
+    problem = build_problem(config, with_states=False)
+    if not resources:
+        return EstimateResult(problem)
+    from ..run.resources import estimate_resources
+
+    return EstimateResult(problem, estimate_resources(problem))
+
+
+#: the name of the command (``tdse1d states``) for the same function
+states = find_states
 
 
 @dataclass(frozen=True)
@@ -98,6 +161,19 @@ class RunOutcome:
     """Remarks for the user, e.g. a stale lock of a dead writer taken over."""
     stopped_late: bool = False
     """A stop was requested after the last step: the run finished its analysis and wrote its result."""
+
+    def __repr__(self) -> str:
+        r = self.result
+        ion = getattr(r, "ionization", None)
+        band = "" if ion is None else f" (band {ion.lower:.3g}-{ion.upper:.3g}" + \
+            ("" if ion.converged else ", not converged") + ")"
+        parts = [f"{self.problem.time.steps} steps", f"P_ion {r.ionization_probability:.3g}{band}"]
+        cut = r.cutoff
+        if cut is not None and cut.frequency == cut.frequency:
+            parts.append(f"cutoff H{cut.order:.1f}" + ("" if cut.resolved else " (not resolved)"))
+        if r.warnings:
+            parts.append(f"{len(r.warnings)} warning(s)")
+        return f"<RunOutcome {self.path.name}: {', '.join(parts)}>"
 
 
 def output_path(config: RunConfig, output=None) -> Path:
@@ -155,13 +231,14 @@ class _HoldingProgress:
             _hold("propagation", self.control, step=int(step), steps=int(steps), resumed_from=self.resumed_from)
 
 
-def run(config: RunConfig | str, output=None, progress=None, overrides=(), resume=False, control=None,
+def run(config: RunConfig | Problem | str, output=None, progress=None, overrides=(), resume=False, control=None,
         strict=False) -> RunOutcome:
-    """Run the full quantum simulation of an input and write its HDF5 result.
+    """Run the full quantum simulation of an input and write its HDF5 result (``tdse1d run``).
 
     Parameters
     ----------
-    config : RunConfig or path
+    config : RunConfig, Problem or path
+        The input (a path is read with ``overrides``), or an already assembled problem.
     output : path, optional
         Result file (see :func:`output_path`).
     progress : callable, optional
@@ -179,12 +256,16 @@ def run(config: RunConfig | str, output=None, progress=None, overrides=(), resum
     Returns
     -------
     RunOutcome
+        The result file's path, the problem and the :class:`~tdse1d.run.runner.RunResult`
+        (ionization probability, cutoff, observables; atomic units).
 
     Raises
     ------
     tdse1d.run.runner.RunInterrupted
         When ``control`` asked to stop; the checkpoint is written, the partial file removed.
     """
+    if isinstance(config, Problem):
+        return run_problem(config, output, progress, resume=resume, control=control, strict=strict)
     if not isinstance(config, RunConfig):
         config = load_input(config, overrides)
     return run_problem(build_problem(config), output, progress, resume=resume, control=control, strict=strict)
@@ -192,8 +273,8 @@ def run(config: RunConfig | str, output=None, progress=None, overrides=(), resum
 
 def default_control(config: RunConfig):
     """A :class:`~tdse1d.run.runner.RunControl` with the input's checkpoint interval (in s)."""
-    from . import units
-    from .run.runner import RunControl
+    from .. import units
+    from ..run.runner import RunControl
 
     interval = config.output.checkpoint_interval
     return RunControl(None if interval is None else interval * units.AU_TIME_S)
@@ -202,19 +283,19 @@ def default_control(config: RunConfig):
 def run_problem(problem: Problem, output=None, progress=None, resume=False, control=None,
                 strict=False) -> RunOutcome:
     """:func:`run` for an already assembled :class:`~tdse1d.input.problem.Problem`."""
-    from .run.checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
-    from .physics.propagation import NumericalError
-    from .input.problem import check_absorber
-    from .run.resources import check_resources
-    from .run.runner import simulate, snapshot_steps
-    from .io.result_file import ResultWriter
+    from ..run.checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
+    from ..physics.propagation import NumericalError
+    from ..input.problem import check_absorber
+    from ..run.resources import check_resources
+    from ..run.runner import simulate, snapshot_steps
+    from ..io.result_file import ResultWriter
 
     if strict and problem.warnings:
         raise NumericalError(f"before the run: {problem.warnings[0]}", 0, problem.time.start)
-    from .input.spec import InputError
-    from .errors import OutputError
-    from .io.guarded_file import describe_os_error
-    from .io.result_file import refuse_reason
+    from ..input.spec import InputError
+    from ..errors import OutputError
+    from ..io.guarded_file import describe_os_error
+    from ..io.result_file import refuse_reason
 
     path = output_path(problem.config, output)
     reason = refuse_reason(path)
@@ -242,8 +323,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
             # a stop request from here on comes after the last step: the analysis and the
             # writing take a small fraction of the run, so the run finishes (docs/checkpoints.md)
             _hold("analysis", control)
-            from .analysis.run_analysis import analyse_run
-            from .io.analysis_file import write_analysis
+            from ..analysis.run_analysis import analyse_run
+            from ..io.analysis_file import write_analysis
 
             try:  # the comparison must never cost the run itself
                 analysis = analyse_run(problem, result)

@@ -1,0 +1,53 @@
+"""The library functions: every command of the ``tdse1d`` program is a thin layer over
+one of these, which return objects with a short ``repr`` (a notebook cell stays short)::
+
+    from tdse1d import api
+    outcome = api.run("inputs/argon_800nm.toml")              # RunOutcome
+    table = api.report(outcome.path)                           # Report: rows, to_json()
+    api.plot(outcome.path, "harmonic", "harmonic.png")         # Figures: the written files
+
+=====================  ==========================  ===========================================
+command                function                    returns
+=====================  ==========================  ===========================================
+``tdse1d run``         :func:`run`                 :class:`~.single_run.RunOutcome`
+``tdse1d states``      :func:`find_states`         :class:`~.single_run.StatesResult`
+``tdse1d estimate``    :func:`estimate`            :class:`~.single_run.EstimateResult`
+``tdse1d report``      :func:`report`              :class:`~.results.Report`
+``tdse1d plot``        :func:`plot`                :class:`~.figures.Figures`
+``tdse1d export``      :func:`export`              :class:`~.results.Table`
+``tdse1d scan``        :func:`scan`                :class:`~.campaigns.ScanOutcome`
+``tdse1d compare``     :func:`compare`             :class:`~tdse1d.scan.compare.Comparison`
+``tdse1d validate``    :func:`validate`            :class:`~.campaigns.ValidationReport`
+=====================  ==========================  ===========================================
+
+The modules are loaded on first use, so importing this package is cheap: the command
+line imports only the module its command needs. :mod:`~tdse1d.api.single_run` (one
+input) sits below the scan and the validation suite, which run through it;
+:mod:`~tdse1d.api.results`, :mod:`~tdse1d.api.figures` and :mod:`~tdse1d.api.campaigns` sit above them.
+"""
+
+import importlib
+
+#: name -> module of this package that defines it
+_WHERE = {
+    **dict.fromkeys(("report", "export", "Report", "Table"), "results"),
+    **dict.fromkeys(("plot", "Figures"), "figures"),
+    **dict.fromkeys(("scan", "compare", "validate", "ScanOutcome", "ValidationReport"), "campaigns"),
+}
+
+__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "report", "plot",
+           "export", "scan", "compare", "validate"]
+
+
+def __getattr__(name):
+    if name.startswith("__"):
+        raise AttributeError(name)
+    module = importlib.import_module(f"{__name__}.{_WHERE.get(name, 'single_run')}")
+    try:
+        return getattr(module, name)
+    except AttributeError:
+        raise AttributeError(f"module 'tdse1d.api' has no attribute {name!r}") from None
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

@@ -1,0 +1,234 @@
+"""The library functions on a run file: :func:`report` (the semiclassical prediction
+beside the quantum result) and :func:`export` (a spectrum as a table with units); the
+figures are in :mod:`tdse1d.api.figures`. The commands ``tdse1d report`` and ``tdse1d
+export`` parse their arguments, call one of these, and render what it returns.
+
+Tables: each spectrum is a small function in :data:`SPECTRA` that returns named columns
+in atomic units; the unit choice converts the energy column (``au``: hartree, ``eV``,
+or ``nm``: photon wavelength, for photon spectra only).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .. import units
+from ..input.spec import InputError
+
+__all__ = ["report", "export", "Report", "Table", "SPECTRA", "columns"]
+
+
+# ------------------------------------------------------------------------ report
+
+
+@dataclass(frozen=True)
+class Report:
+    """The semiclassical prediction beside the quantum result of one run file.
+
+    ``rows`` are :class:`tdse1d.analysis.report.Row` (values in atomic units);
+    ``str(report)`` is the table ``tdse1d report`` prints, :meth:`to_json` what
+    ``tdse1d report --json`` prints.
+    """
+
+    path: Path
+    analysis: object = field(repr=False)
+    target_ionization_potential: float = math.nan
+    """The ionization potential the input asked for (hartree); NaN if none."""
+    ionization_note: str = ""
+
+    @property
+    def rows(self) -> list:
+        from ..analysis.report import rows
+
+        return rows(self.analysis, self.target_ionization_potential, self.ionization_note)
+
+    def to_json(self) -> dict:
+        """The rows for machines: energies in a.u. and eV, photons also as orders."""
+        from ..analysis.report import to_json
+
+        return to_json(self.analysis, self.target_ionization_potential, self.ionization_note)
+
+    def table(self) -> str:
+        """The rows as plain text for people."""
+        from ..analysis.report import format_table
+
+        return format_table(self.analysis, self.target_ionization_potential, self.ionization_note)
+
+    __str__ = table
+
+    def __repr__(self) -> str:
+        return f"<Report {Path(self.path).name}: {len(self.rows)} rows>"
+
+
+def report(path) -> Report:
+    """The semiclassical prediction beside the quantum result of a run (``tdse1d report``).
+
+    Parameters
+    ----------
+    path : path
+        Result file of a run.
+
+    Returns
+    -------
+    Report
+        Rows of quantity, prediction, quantum result and their ratio or difference
+        (atomic units inside; the table and JSON show eV and harmonic orders too).
+    """
+    from ..io.analysis_file import analyse_file, ionization_note, target_ionization_potential
+    from ..io.checked_open import open_result
+
+    with open_result(path, kinds=("run",)) as f:
+        analysis = analyse_file(f)
+        target = target_ionization_potential(f.attrs.get("input", ""))
+        note = ionization_note(f["ionization"]) if "ionization" in f else ""
+    return Report(Path(path), analysis, target, note)
+
+
+# ------------------------------------------------------------------------ tables
+
+
+def _harmonic_columns(f):
+    g = f["spectra/harmonic"]
+    return "photon", [("photon_energy", g["frequency"][()], "energy"), ("harmonic_order", g["order"][()], "1"),
+                      ("power", g["power"][()], "a.u.")]
+
+
+def _photoelectron_columns(f):
+    for method in ("surface_flux", "mask", "plane_wave"):
+        key = f"spectra/photoelectron/{method}"
+        if key in f:
+            g = f[key]
+            return "electron", [
+                ("kinetic_energy", g["energy"][()], "energy"),
+                ("momentum", g["momentum"][()], "a.u."),
+                ("dP/dE_left", g["energy_density_left"][()], "1/energy"),
+                ("dP/dE_right", g["energy_density_right"][()], "1/energy"),
+                ("dP/dp_left", g["density_left"][()], "a.u."),
+                ("dP/dp_right", g["density_right"][()], "a.u."),
+            ]
+    raise InputError("the file holds no photoelectron spectrum", "--what")
+
+
+def _time_frequency_columns(f):
+    if "spectra/time_frequency" not in f:
+        raise InputError("the file holds no time-frequency map (written by runs of this version on)", "--what")
+    g = f["spectra/time_frequency"]
+    t, w, p = g["time"][()], g["frequency"][()], g["power"][()]
+    tt, ww = np.meshgrid(t, w, indexing="ij")
+    return "photon", [("time", tt.ravel(), "time"), ("photon_energy", ww.ravel(), "energy"),
+                      ("power", p.ravel(), "a.u.")]
+
+
+#: spectrum name -> function(open file) -> (kind of energy, [(column, values in a.u., dimension)])
+SPECTRA = {"harmonic": _harmonic_columns, "photoelectron": _photoelectron_columns,
+           "time-frequency": _time_frequency_columns}
+
+
+def _energy_unit(choice, kind):
+    """(label, converter of an energy in hartree, converter of a density per hartree)."""
+    if choice == "au":
+        return "hartree", (lambda e: e), (lambda d: d)
+    if choice == "eV":
+        ev = units.HARTREE_EV
+        return "eV", (lambda e: e * ev), (lambda d: d / ev)
+    if choice == "nm":
+        if kind != "photon":
+            raise InputError("nm (photon wavelength) applies to photon spectra only", "--units")
+
+        def wavelength(e):
+            with np.errstate(divide="ignore"):
+                return np.where(e > 0, units.omega_to_nm(np.where(e > 0, e, 1.0)), math.inf)
+
+        return "nm", wavelength, None
+    raise InputError(f"unknown units {choice!r}", "--units")
+
+
+def columns(f, what, unit_choice):
+    """Header names (``"column [unit]"``) and data columns of a spectrum of the open run
+    file ``f``, converted to the chosen units (``eV``, ``au`` or ``nm``)."""
+    kind, raw = SPECTRA[what](f)
+    label, energy, per_energy = _energy_unit(unit_choice, kind)
+    names, data = [], []
+    for name, values, dim in raw:
+        values = np.asarray(values, dtype=float)
+        if dim == "energy":
+            values, unit = energy(values), label
+            if unit_choice == "nm":
+                name = name.replace("photon_energy", "wavelength")
+        elif dim == "1/energy":
+            if per_energy is None:
+                raise InputError("densities per energy cannot be given per nm", "--units")
+            values, unit = per_energy(values), f"1/{label}"
+        elif dim == "time":
+            values, unit = units.au_to_fs(values), "fs"
+        else:
+            unit = dim
+        names.append(f"{name} [{unit}]")
+        data.append(values)
+    return names, np.column_stack(data)
+
+
+@dataclass(frozen=True)
+class Table:
+    """A spectrum as columns with units: ``names`` are ``"column [unit]"``, ``data`` has
+    one row per sample. :meth:`write` writes the CSV ``tdse1d export`` writes."""
+
+    what: str
+    names: list
+    data: np.ndarray = field(repr=False)
+    path: Path | None = None
+    """The CSV file written, if any."""
+
+    @property
+    def header(self) -> str:
+        return ",".join(self.names)
+
+    def column(self, name: str) -> np.ndarray:
+        """The column whose name (without its unit) is ``name``."""
+        bare = [n.split(" [")[0] for n in self.names]
+        return self.data[:, bare.index(name)]
+
+    def write(self, file) -> None:
+        """Write the CSV (header line, then comma-separated rows) to a path or an open text file."""
+        np.savetxt(file, self.data, delimiter=",", header=self.header, comments="", fmt="%.10g")
+
+    def __repr__(self) -> str:
+        where = f" -> {self.path}" if self.path is not None else ""
+        return f"<Table {self.what}: {self.data.shape[0]} rows, {self.header}{where}>"[:300]
+
+
+def export(path, what: str = "harmonic", units: str = "eV", output=None) -> Table:
+    """A spectrum of a run file as a table with units, written as CSV if asked (``tdse1d export``).
+
+    Parameters
+    ----------
+    path : path
+        Result file of a run.
+    what : str
+        A spectrum of :data:`SPECTRA`: harmonic, photoelectron or time-frequency.
+    units : str
+        Unit of the energy column: ``eV``, ``au`` (hartree) or ``nm`` (photon wavelength;
+        photon spectra only). Times are in fs, other columns in atomic units.
+    output : path, optional
+        CSV file to write.
+
+    Returns
+    -------
+    Table
+        Column names with units and the data; ``path`` is the written file or None.
+    """
+    from ..io.checked_open import open_result
+
+    if what not in SPECTRA:
+        raise InputError(f"unknown spectrum {what!r}; choose from {', '.join(sorted(SPECTRA))}", "--what")
+    with open_result(path, kinds=("run",)) as f:
+        names, data = columns(f, what, units)
+    table = Table(what, names, data)
+    if output is None:
+        return table
+    table.write(output)
+    return Table(what, names, data, Path(output))
