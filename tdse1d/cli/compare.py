@@ -12,8 +12,8 @@ HELP = "broaden and weight a computed harmonic spectrum like a measured one, and
 #: what compare.computed_spectrum reads, by kind of file
 NEEDS = {
     "run": ("estimates", "spectra/harmonic/frequency", "spectra/harmonic/power"),
-    "scan-summary": ("spectra/photon_energy", "spectra/power", "estimates/photon_energy",
-                     "estimates/ionization_potential"),
+    "scan-summary": ("spectra/photon_energy_eV", "spectra/power", "estimates/photon_energy_eV",
+                     "estimates/ionization_potential_eV"),
 }
 
 
