@@ -20,6 +20,7 @@ import numpy as np
 
 from .. import units
 from ..analysis.run_analysis import PHOTOELECTRON_METHOD_ORDER, RunAnalysis, _Inputs, _analyse, _pulse_rows
+from .layout import group_of, path
 from .result_file import write_dataset
 
 
@@ -42,10 +43,10 @@ def _file_pulses(h5file):
 
 def _stored_floor(f):
     """The field-free companion stored by :func:`write_analysis`, None if absent."""
-    key = "spectra/photoelectron/field_free"
-    if key not in f:
+    if group_of("spectra/photoelectron/field_free/energy") not in f:
         return None
-    return f[f"{key}/energy"][()], f[f"{key}/energy_density"][()]
+    return f[path("spectra/photoelectron/field_free/energy")][()], \
+        f[path("spectra/photoelectron/field_free/energy_density")][()]
 
 
 def analyse_file(h5file) -> RunAnalysis:
@@ -67,27 +68,28 @@ def analyse_file(h5file) -> RunAnalysis:
     pulses, initial = _file_pulses(f)
     photo = {}
     for name in PHOTOELECTRON_METHOD_ORDER:
-        key = f"spectra/photoelectron/{name}"
+        key = group_of("spectra/photoelectron/{method}/energy", method=name)
         if key in f:
             g = f[key]
             photo[name] = (g["momentum"][()], g["density_left"][()], g["density_right"][()], g["energy"][()],
                            g["energy_density_left"][()] + g["energy_density_right"][()])
-    h = f["spectra/harmonic"] if "spectra/harmonic" in f else None
+    harmonic = group_of("spectra/harmonic/power")
+    h = f[harmonic] if harmonic in f else None
     analysis = _analyse(_Inputs(
-        time=f["field/time"][()], electric=f["field/electric"][()],
-        vector_potential=f["field/vector_potential"][()], acceleration=f["observables/acceleration"][()],
-        energies=f["states/energy"][()], initial_state=initial,
-        ionization_probability=float(f["ionization/probability"][()]),
+        time=f[path("field/time")][()], electric=f[path("field/electric")][()],
+        vector_potential=f[path("field/vector_potential")][()], acceleration=f[path("observables/acceleration")][()],
+        energies=f[path("states/energy")][()], initial_state=initial,
+        ionization_probability=float(f[path("ionization/probability")][()]),
         harmonic_frequency=h["frequency"][()] if h is not None else np.zeros(0),
         harmonic_power=h["power"][()] if h is not None else np.zeros(0),
         window=str(h.attrs.get("window", "hann")) if h is not None else "hann",
         pulses=pulses, photoelectrons=photo,
-        estimate={k: float(v) for k, v in f["estimates"].attrs.items() if k != "units"},
+        estimate={k: float(v) for k, v in f[group_of("estimates@photon_energy")].attrs.items() if k != "units"},
         photoelectron_floor=_stored_floor(f),
     ))
-    if "classical/tunnelling" in f:
-        analysis = replace(analysis, tunnelling_time=f["classical/tunnelling/time"][()],
-                           tunnelling_probability=f["classical/tunnelling/probability"][()])
+    if group_of("classical/tunnelling/time") in f:
+        analysis = replace(analysis, tunnelling_time=f[path("classical/tunnelling/time")][()],
+                           tunnelling_probability=f[path("classical/tunnelling/probability")][()])
     return analysis
 
 

@@ -26,7 +26,7 @@ import numpy as np
 from .. import __version__, units
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from ..io.guarded_file import new_hdf5
-from ..io.layout import SUMMARY_LAYOUT, find
+from ..io.layout import SUMMARY_LAYOUT, find, group_of, path as layout_path
 from ..io.result_file import write_dataset
 
 __all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
@@ -58,24 +58,24 @@ def _read_point(path) -> _PointData:
     from ..spectra.harmonic import harmonic_spectrum
 
     with h5py.File(path, "r") as f:
-        h = f["spectra/harmonic"]
-        est = dict(f["estimates"].attrs)
+        h = f[group_of("spectra/harmonic@window")]
+        est = dict(f[group_of("estimates@photon_energy")].attrs)
         omega0 = float(est.get("photon_energy", 1.0))
         # the complex amplitude is not stored: recompute it as the run did
-        spec = harmonic_spectrum(f["observables/time"][()], f["observables/acceleration"][()], omega0,
+        spec = harmonic_spectrum(f[layout_path("observables/time")][()], f[layout_path("observables/acceleration")][()], omega0,
                                  window=str(h.attrs.get("window", "hann")))
         attrs = {
             "estimates": est,
             "cutoff_energy": float(_or_nan(find(f, "spectra/harmonic@cutoff_energy"))),
             "cutoff_resolved": bool(h.attrs.get("cutoff_resolved", False)),
-            "ionization": float(f["ionization/probability"][()]),
+            "ionization": float(f[layout_path("ionization/probability")][()]),
             "photoelectron": photoelectron_cutoff(f, omega0),
             # edges read off by the run's own analysis, when it stored them
-            "direct_edge": _scalar(f, "spectra/photoelectron/edges/direct"),
-            "backscattered_edge": _scalar(f, "spectra/photoelectron/edges/backscattered"),
-            "tunnelling": _last(f, "classical/tunnelling/probability"),
+            "direct_edge": _scalar(f, layout_path("spectra/photoelectron/edges/direct")),
+            "backscattered_edge": _scalar(f, layout_path("spectra/photoelectron/edges/backscattered")),
+            "tunnelling": _last(f, layout_path("classical/tunnelling/probability")),
         }
-        stored_w, stored = f["spectra/harmonic/frequency"][()], f["spectra/harmonic/power"][()]
+        stored_w, stored = f[layout_path("spectra/harmonic/frequency")][()], f[layout_path("spectra/harmonic/power")][()]
     if stored.shape != spec.power.shape or not np.allclose(stored, spec.power, rtol=1e-8, atol=0):
         # the run computed its spectrum differently: keep its power, no phase
         return _PointData(stored_w * units.HARTREE_EV, stored, np.full(stored.shape, np.nan + 0j), attrs)
@@ -105,8 +105,10 @@ def photoelectron_cutoff(f: h5py.File, omega0: float) -> float:
     """
     from ..spectra.cutoff import read_cutoff
 
-    for method in ("surface_flux", "mask", "plane_wave"):
-        key = f"spectra/photoelectron/{method}"
+    from ..analysis.run_analysis import PHOTOELECTRON_METHOD_ORDER
+
+    for method in PHOTOELECTRON_METHOD_ORDER:
+        key = group_of("spectra/photoelectron/{method}/energy", method=method)
         if key not in f:
             continue
         g = f[key]
