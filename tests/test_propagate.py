@@ -450,7 +450,7 @@ def test_argon_cutoff_between_classical_and_quantum_rules(argon):
     _, _, path = argon
     with result_file.read_result(path) as r:
         est = r.attrs("estimates")
-        cutoff = r.attrs("spectra/harmonic")["cutoff_frequency"]
+        cutoff = r.attrs("spectra/harmonic")["cutoff_energy"]
         ground = r["states/energy"][0]
         e_ret = float(r["classical/max_return_energy"][()])
     ip, w = est["ionization_potential"], est["photon_energy"]
@@ -469,7 +469,7 @@ CONTRACT = [
     "spectra/harmonic/frequency", "spectra/harmonic/order", "spectra/harmonic/power",
     "ionization/probability", "ionization/absorbed", "final/psi",
 ]
-ROOT_ATTRS = ["input", "tdse1d_version", "grid_points", "grid_spacing", "time_step", "steps", "gauge", "order",
+ROOT_ATTRS = ["input", "tdse1d_version", "grid_points", "grid_spacing", "time_step", "steps", "gauge", "splitting_order",
               "absorber", "complete"]
 
 

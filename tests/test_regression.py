@@ -15,8 +15,13 @@ from regression.fingerprint import REFERENCE, differences, fingerprint, run_case
 
 
 @pytest.fixture(scope="module")
-def current(tmp_path_factory):
-    return run_cases(tmp_path_factory.mktemp("regression"))
+def workdir(tmp_path_factory):
+    return tmp_path_factory.mktemp("regression")
+
+
+@pytest.fixture(scope="module")
+def current(workdir):
+    return run_cases(workdir)
 
 
 def test_results_equal_the_stored_reference(current):
@@ -53,3 +58,20 @@ def test_fingerprint_keeps_what_it_promises(tmp_path):
     assert set(fp) == {"a", "big#strided", "big#sum", "@x"}
     assert fp["big#sum"][2] == 10_000
     assert fp["big#sum"][0] == pytest.approx(np.arange(10_000.0).sum())
+
+
+def test_every_written_file_follows_the_declared_layout(current, workdir):
+    """The shipped examples (shortened), the scan's point files and its summary hold
+    exactly what tdse1d.io.layout declares: every dataset and attribute declared, with
+    the declared unit, and every entry declared for all files present."""
+    import h5py
+
+    from tdse1d.io.layout import RESULT_LAYOUT, SUMMARY_LAYOUT
+    from tdse1d.io.layout_check import layout_problems
+
+    files = sorted(workdir.rglob("*.h5"))
+    assert len(files) >= 4 + 2 + 1  # four examples, two scan points, one summary
+    for path in files:
+        with h5py.File(path, "r") as f:
+            layout = SUMMARY_LAYOUT if f.attrs.get("kind") == "scan-summary" else RESULT_LAYOUT
+            assert layout_problems(f, layout) == [], path.name

@@ -120,8 +120,8 @@ def test_batch_array_mode_equals_dask_scan(local_scan, tmp_path, capsys):
     with h5py.File(out / "summary.h5", "r") as fa, h5py.File(array_dir / "summary.h5", "r") as fb:
         assert fb.attrs["kind"] == "scan-summary"
         assert list(fb["points/hash"].asstr()[()]) == [p.hash for p in plan.points]
-        for key in ("spectra/photon_energy", "spectra/power", "cutoff/spectrum", "ionization/probability",
-                    "estimates/ponderomotive_energy", "axes/0/values"):
+        for key in ("spectra/photon_energy_eV", "spectra/power", "cutoff/cutoff_energy_eV", "ionization/probability",
+                    "estimates/ponderomotive_energy_eV", "axes/0/values"):
             x = fa[key][()]
             np.testing.assert_allclose(x, fb[key][()], rtol=1e-12, atol=1e-12 * np.max(np.abs(x)), err_msg=key)
         assert fb["points/complete"][()].all()
@@ -139,19 +139,19 @@ def test_batch_array_mode_equals_dask_scan(local_scan, tmp_path, capsys):
 def test_summary_contents(local_scan):
     plan, out, _ = local_scan
     with h5py.File(out / "summary.h5", "r") as f:
-        up = f["estimates/ponderomotive_energy"][()]
+        up = f["estimates/ponderomotive_energy_eV"][()]
         # Up = e^2 E0^2 / (4 m w^2) in SI units, from CODATA (scipy.constants)
         e0 = np.sqrt(2 * np.array([1.0e18, 1.5e18, 2.0e18]) / (constants.c * constants.epsilon_0))
         w = 2 * np.pi * constants.c / 800e-9
         up_si = constants.e**2 * e0**2 / (4 * constants.m_e * w**2) / constants.e
         np.testing.assert_allclose(up, up_si, rtol=1e-6)
-        np.testing.assert_allclose(f["cutoff/semiclassical"][()], f["estimates/ionization_potential"][()] + 3.17 * up,
+        np.testing.assert_allclose(f["cutoff/semiclassical_eV"][()], f["estimates/ionization_potential_eV"][()] + 3.17 * up,
                                    rtol=1e-12)
-        assert f["spectra/power"].shape == (3, f["spectra/photon_energy"].size)
+        assert f["spectra/power"].shape == (3, f["spectra/photon_energy_eV"].size)
         assert np.all(np.isfinite(f["spectra/power"][()]))
         p = f["ionization/probability"][()]
         assert np.all((p >= 0) & (p <= 1)) and p[2] > p[0]  # more ionization at higher intensity
-        assert "focal" in f and f["focal/volume/incoherent"].shape == f["spectra/photon_energy"].shape
+        assert "focal" in f and f["focal/volume/incoherent"].shape == f["spectra/photon_energy_eV"].shape
         # the coherent sum of complex amplitudes never exceeds the incoherent sum of powers (Cauchy-Schwarz)
         assert np.all(f["focal/thin_jet/coherent"][()] <= f["focal/thin_jet/incoherent"][()] * (1 + 1e-9) + 1e-300)
 

@@ -158,8 +158,8 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
 #: what tdse1d.scan.compare.computed_spectrum reads, by kind of file
 COMPARE_NEEDS = {
     "run": ("estimates", "spectra/harmonic/frequency", "spectra/harmonic/power"),
-    "scan-summary": ("spectra/photon_energy", "spectra/power", "estimates/photon_energy",
-                     "estimates/ionization_potential"),
+    "scan-summary": ("spectra/photon_energy_eV", "spectra/power", "estimates/photon_energy_eV",
+                     "estimates/ionization_potential_eV"),
 }
 
 

@@ -20,6 +20,7 @@ import numpy as np
 
 from .. import units
 from ..analysis.run_analysis import PHOTOELECTRON_METHOD_ORDER, RunAnalysis, _Inputs, _analyse, _pulse_rows
+from .layout import group_of, path
 from .result_file import write_dataset
 
 
@@ -42,10 +43,10 @@ def _file_pulses(h5file):
 
 def _stored_floor(f):
     """The field-free companion stored by :func:`write_analysis`, None if absent."""
-    key = "spectra/photoelectron/field_free"
-    if key not in f:
+    if group_of("spectra/photoelectron/field_free/energy") not in f:
         return None
-    return f[f"{key}/energy"][()], f[f"{key}/energy_density"][()]
+    return f[path("spectra/photoelectron/field_free/energy")][()], \
+        f[path("spectra/photoelectron/field_free/energy_density")][()]
 
 
 def analyse_file(h5file) -> RunAnalysis:
@@ -67,27 +68,28 @@ def analyse_file(h5file) -> RunAnalysis:
     pulses, initial = _file_pulses(f)
     photo = {}
     for name in PHOTOELECTRON_METHOD_ORDER:
-        key = f"spectra/photoelectron/{name}"
+        key = group_of("spectra/photoelectron/{method}/energy", method=name)
         if key in f:
             g = f[key]
             photo[name] = (g["momentum"][()], g["density_left"][()], g["density_right"][()], g["energy"][()],
                            g["energy_density_left"][()] + g["energy_density_right"][()])
-    h = f["spectra/harmonic"] if "spectra/harmonic" in f else None
+    harmonic = group_of("spectra/harmonic/power")
+    h = f[harmonic] if harmonic in f else None
     analysis = _analyse(_Inputs(
-        time=f["field/time"][()], electric=f["field/electric"][()],
-        vector_potential=f["field/vector_potential"][()], acceleration=f["observables/acceleration"][()],
-        energies=f["states/energy"][()], initial_state=initial,
-        ionization_probability=float(f["ionization/probability"][()]),
+        time=f[path("field/time")][()], electric=f[path("field/electric")][()],
+        vector_potential=f[path("field/vector_potential")][()], acceleration=f[path("observables/acceleration")][()],
+        energies=f[path("states/energy")][()], initial_state=initial,
+        ionization_probability=float(f[path("ionization/probability")][()]),
         harmonic_frequency=h["frequency"][()] if h is not None else np.zeros(0),
         harmonic_power=h["power"][()] if h is not None else np.zeros(0),
         window=str(h.attrs.get("window", "hann")) if h is not None else "hann",
         pulses=pulses, photoelectrons=photo,
-        estimate={k: float(v) for k, v in f["estimates"].attrs.items() if k != "units"},
+        estimate={k: float(v) for k, v in f[group_of("estimates@photon_energy")].attrs.items() if k != "units"},
         photoelectron_floor=_stored_floor(f),
     ))
-    if "classical/tunnelling" in f:
-        analysis = replace(analysis, tunnelling_time=f["classical/tunnelling/time"][()],
-                           tunnelling_probability=f["classical/tunnelling/probability"][()])
+    if group_of("classical/tunnelling/time") in f:
+        analysis = replace(analysis, tunnelling_time=f[path("classical/tunnelling/time")][()],
+                           tunnelling_probability=f[path("classical/tunnelling/probability")][()])
     return analysis
 
 
@@ -121,91 +123,79 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
     c = f.create_group("classical")
     c.attrs["notes"] = "\n".join(analysis.notes)
     for name, (units, text) in _CLASSICAL_SCALARS.items():
-        write_dataset(c, name, float(getattr(analysis, name)), units, description=text)
+        write_dataset(c, name, float(getattr(analysis, name)))
     s = analysis.three_step
     if s is not None:
         for name, (units, text) in _SUMMARY_SCALARS.items():
-            write_dataset(c, name, float(getattr(s, name)), units, description=text)
+            write_dataset(c, name, float(getattr(s, name)))
         tr = analysis.trajectories
         g = c.create_group("trajectories")
-        write_dataset(g, "birth_time", tr.birth_time, "atomic_unit_of_time")
-        write_dataset(g, "return_time", tr.return_time, "atomic_unit_of_time", description="shape (birth, return)")
-        write_dataset(g, "return_energy", tr.return_energy, "hartree")
-        write_dataset(g, "drift_momentum", tr.drift_momentum, "atomic_unit_of_momentum", description="-A(t0)")
-        write_dataset(g, "backscattered_momentum", tr.backscattered_momentum, "atomic_unit_of_momentum",
-             description="A(t0) - 2 A(t_r)")
+        write_dataset(g, "birth_time", tr.birth_time)
+        write_dataset(g, "return_time", tr.return_time)
+        write_dataset(g, "return_energy", tr.return_energy)
+        write_dataset(g, "drift_momentum", tr.drift_momentum)
+        write_dataset(g, "backscattered_momentum", tr.backscattered_momentum)
         b = c.create_group("branches")
         for branch in ("short", "long"):
             tables = getattr(s, f"{branch}_branch")
             stacked = np.concatenate(tables) if tables else np.zeros((0, 2))
             labels = np.concatenate([np.full(len(t), k) for k, t in enumerate(tables)]) if tables else np.zeros(0)
-            write_dataset(b, f"{branch}_time", stacked[:, 0], "atomic_unit_of_time", description="emission (first return) time")
-            write_dataset(b, f"{branch}_energy", stacked[:, 1], "hartree", description="photon energy Ip + E_return")
-            write_dataset(b, f"{branch}_half_cycle", labels.astype(int), "1", description="field half cycle index")
+            write_dataset(b, f"{branch}_time", stacked[:, 0])
+            write_dataset(b, f"{branch}_energy", stacked[:, 1])
+            write_dataset(b, f"{branch}_half_cycle", labels.astype(int))
     if analysis.tunnelling_time.size:
         g = c.create_group("tunnelling")
-        write_dataset(g, "time", analysis.tunnelling_time, "atomic_unit_of_time")
-        write_dataset(g, "probability", analysis.tunnelling_probability, "1")
+        write_dataset(g, "time", analysis.tunnelling_time)
+        write_dataset(g, "probability", analysis.tunnelling_probability)
     cut = analysis.cutoff
     if cut is not None and analysis.harmonic_floor_log10 is not None:
         h = f.require_group("spectra/harmonic")
-        write_dataset(h, "noise_floor_log10", analysis.harmonic_floor_log10, "log10(atomic_units)",
-                      description="log10 of the noise floor of power: the larger of the median of the top half "
-                                  "of the axis and the field's own spectrum through the same window")
-        write_dataset(h, "cutoff_headroom", cut.headroom, "decades",
-                      description="reading level (plateau - drop) above the noise floor at the cutoff",
-                      resolved=bool(cut.resolved), reason=cut.reason)
+        write_dataset(h, "noise_floor_log10", analysis.harmonic_floor_log10)
+        write_dataset(h, "cutoff_headroom", cut.headroom, resolved=bool(cut.resolved), reason=cut.reason)
     tf = analysis.time_frequency
     if tf is not None:
         g = f.create_group("spectra/time_frequency")
         g.attrs["window"] = "gaussian"
-        write_dataset(g, "time", tf.time, "atomic_unit_of_time")
-        write_dataset(g, "frequency", tf.frequency, "hartree", description="photon energy")
-        write_dataset(g, "power", tf.power, "atomic_units", description="|Gabor transform of the acceleration|^2")
-        write_dataset(g, "width", tf.width, "atomic_unit_of_time", description="Gaussian window sigma")
+        write_dataset(g, "time", tf.time)
+        write_dataset(g, "frequency", tf.frequency)
+        write_dataset(g, "power", tf.power)
+        write_dataset(g, "width", tf.width)
         em = analysis.emission
         if em is not None:
             e = g.create_group("emission")
-            write_dataset(e, "half_cycle", em.half_cycle, "1")
-            write_dataset(e, "frequency", em.frequency, "hartree")
-            write_dataset(e, "quantum", em.quantum, "atomic_unit_of_time", description="time of the Gabor maximum")
-            write_dataset(e, "short", em.short, "atomic_unit_of_time", description="classical short trajectory")
-            write_dataset(e, "long", em.long, "atomic_unit_of_time", description="classical long trajectory")
-            write_dataset(e, "period", em.period, "atomic_unit_of_time")
+            write_dataset(e, "half_cycle", em.half_cycle)
+            write_dataset(e, "frequency", em.frequency)
+            write_dataset(e, "quantum", em.quantum)
+            write_dataset(e, "short", em.short)
+            write_dataset(e, "long", em.long)
+            write_dataset(e, "period", em.period)
     if analysis.edges is not None or analysis.ponderomotive is not None:
         g = f.create_group("spectra/photoelectron/edges")
         g.attrs["method"] = analysis.photoelectron_method or ""
         if analysis.edges is not None:
             ed = analysis.edges
-            write_dataset(g, "direct", ed.direct, "hartree", description="direct-electron edge read off (NaN: see reason)",
-                          reason=ed.direct_reason)
-            write_dataset(g, "backscattered", ed.backscattered, "hartree",
-                          description="backscattered-electron edge read off (NaN: see reason)",
-                          reason=ed.backscattered_reason)
-            write_dataset(g, "plateau_log10", ed.plateau_log10, "log10(1/hartree)")
-            write_dataset(g, "noise_floor_log10", ed.noise_floor_log10, "log10(1/hartree)",
-                          description="noise floor of dP/dE on the energy axis of the spectrum read "
-                                      f"({analysis.photoelectron_method}): the larger of the median of log10 over the "
-                                      "top half of the axis and the field-free companion (docs/analysis.md)")
+            write_dataset(g, "direct", ed.direct, reason=ed.direct_reason)
+            write_dataset(g, "backscattered", ed.backscattered, reason=ed.backscattered_reason)
+            write_dataset(g, "plateau_log10", ed.plateau_log10)
+            write_dataset(g, "noise_floor_log10", ed.noise_floor_log10)
         pond = analysis.ponderomotive
         if pond is not None:
-            write_dataset(g, "ponderomotive_shift", pond.measured, "hartree", measurable=pond.measurable, reason=pond.reason)
+            write_dataset(g, "ponderomotive_shift", pond.measured, measurable=pond.measurable, reason=pond.reason)
     if analysis.photoelectron_floor is not None:
         g = f.create_group("spectra/photoelectron/field_free")
         g.attrs["description"] = ("the same numerics with no field for one optical period: the method's floor "
                                   "(tdse1d.analysis.field_free_floor)")
-        write_dataset(g, "energy", analysis.photoelectron_floor[0], "hartree")
-        write_dataset(g, "energy_density", analysis.photoelectron_floor[1], "1/hartree", description="both sides")
+        write_dataset(g, "energy", analysis.photoelectron_floor[0])
+        write_dataset(g, "energy_density", analysis.photoelectron_floor[1])
     st = analysis.streaking
     if st is not None:
         g = f.create_group("streaking")
         for name in ("xuv_time",):
-            write_dataset(g, name, st.xuv_time, "atomic_unit_of_time")
-        write_dataset(g, "xuv_photon_energy", st.xuv_photon_energy, "hartree")
-        write_dataset(g, "photoelectric_energy", st.photoelectric_energy, "hartree",
-             description="peak energy without the streaking shift")
+            write_dataset(g, name, st.xuv_time)
+        write_dataset(g, "xuv_photon_energy", st.xuv_photon_energy)
+        write_dataset(g, "photoelectric_energy", st.photoelectric_energy)
         for name in ("initial_momentum", "vector_potential", "peak_right", "peak_left", "measured"):
-            write_dataset(g, name, getattr(st, name), "atomic_unit_of_momentum")
+            write_dataset(g, name, getattr(st, name))
         g.attrs["reason"] = st.reason
 
 

@@ -59,6 +59,7 @@ def check_result(path, kinds=None, needs=None) -> str:
     import h5py
 
     from .guarded_file import COMPLETE_ATTR
+    from .layout import find
 
     source = str(path)
     p = Path(path)
@@ -72,7 +73,7 @@ def check_result(path, kinds=None, needs=None) -> str:
         with h5py.File(p, "r") as f:
             complete = bool(f.attrs.get(COMPLETE_ATTR, False))
             kind = _kind(f)
-            missing = [name for name in (needs or {}).get(kind, ()) if name not in f]
+            missing = [name for name in (needs or {}).get(kind, ()) if find(f, name) is None]
     except OSError as exc:
         raise InputError(f"cannot read the file ({exc})", source=source) from None
     if not complete:

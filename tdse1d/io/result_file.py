@@ -29,6 +29,7 @@ import numpy as np
 from .. import __version__
 from ..errors import OutputError
 from ..semiclassical.estimates import as_attributes
+from .layout import DESCRIPTION_ATTR, RESULT_LAYOUT, UNITS_ATTR, VARIABLE_UNIT, entry as layout_entry
 from .guarded_file import COMPLETE_ATTR, GuardedFile, HDF5_SIGNATURE, PART_SUFFIX, WRITER_ATTR, WriterLock, lock_path
 
 
@@ -113,10 +114,44 @@ def content_problems(f, token: str | None = None) -> list[str]:
     return problems
 
 
-def write_dataset(group, name, data, units, **attrs):
-    """Create ``group[name]`` holding ``data`` with its ``units`` attribute (and others)."""
-    ds = group.create_dataset(name, data=data)
-    ds.attrs["units"] = units
+def write_dataset(group, name, data=None, *, layout=RESULT_LAYOUT, units=None, create=None, **attrs):
+    """Create ``group[name]`` with the unit and description its entry in the layout declares.
+
+    Parameters
+    ----------
+    group : h5py.Group
+    name : str
+    data : array_like, optional
+        The values (or None with ``create``, for a dataset filled later).
+    layout : tuple of tdse1d.io.layout.Entry
+        The file's layout (:data:`~tdse1d.io.layout.RESULT_LAYOUT` or ``SUMMARY_LAYOUT``).
+    units : str, optional
+        Only for an entry whose unit the writer states per file (``VARIABLE_UNIT``).
+    create : dict, optional
+        Keywords of ``create_dataset`` (shape, dtype, chunks) when ``data`` is None.
+    **attrs
+        Further attributes; each must be declared as ``path@name``.
+
+    Returns
+    -------
+    h5py.Dataset
+
+    Raises
+    ------
+    KeyError
+        The dataset or one of the attributes is not declared in the layout.
+    ValueError
+        ``units`` given for an entry whose unit the layout fixes, or missing where it does not.
+    """
+    path = f"{group.name.strip('/')}/{name}".lstrip("/")
+    e = layout_entry(path, layout)
+    for k in attrs:
+        layout_entry(f"{path}@{k}", layout)
+    if (e.unit == VARIABLE_UNIT) != (units is not None):
+        raise ValueError(f"{path}: the unit is {'stated by the writer' if e.unit == VARIABLE_UNIT else e.unit!r}")
+    ds = group.create_dataset(name, data=data) if create is None else group.create_dataset(name, **create)
+    ds.attrs[UNITS_ATTR] = units if units is not None else e.unit
+    ds.attrs[DESCRIPTION_ATTR] = e.description
     for k, v in attrs.items():
         ds.attrs[k] = v
     return ds
@@ -190,17 +225,17 @@ class ResultWriter:
         f.attrs["time_step"] = p.time.step
         f.attrs["steps"] = p.time.steps
         f.attrs["gauge"] = cfg.propagation.gauge
-        f.attrs["order"] = cfg.propagation.order
+        f.attrs["splitting_order"] = cfg.propagation.order
         f.attrs["absorber"] = cfg.absorber.type
         f.attrs["absorber_width"] = p.absorber_width
         f.attrs["potential"] = p.potential.describe()
         f.attrs["warnings"] = "\n".join(p.warnings)
         f.attrs[COMPLETE_ATTR] = False
-        write_dataset(f.create_group("grid"), "x", p.grid.x, "bohr")
+        write_dataset(f.create_group("grid"), "x", p.grid.x)
         f["grid"].attrs["spacing"] = p.grid.spacing
         states = f.create_group("states")
-        write_dataset(states, "energy", p.states.energies, "hartree")
-        write_dataset(states, "wavefunction", p.states.wavefunctions, "bohr^-1/2")
+        write_dataset(states, "energy", p.states.energies)
+        write_dataset(states, "wavefunction", p.states.wavefunctions)
         est = f.create_group("estimates")
         if p.pulse_estimates:
             for k, v in as_attributes(p.pulse_estimates[0]).items():
@@ -213,16 +248,13 @@ class ResultWriter:
         stride = cfg.output.snapshot_stride
         n_snap = len(snapshot_times)
         snaps = f.create_group("snapshots")
-        self._snap_time = write_dataset(snaps, "time", np.asarray(snapshot_times, float), "atomic_unit_of_time")
+        self._snap_time = write_dataset(snaps, "time", np.asarray(snapshot_times, float))
         x = p.grid.x[::stride]
-        write_dataset(snaps, "x", x, "bohr")
+        write_dataset(snaps, "x", x)
         self._stride = stride
-        self._snap = snaps.create_dataset(
-            "psi", shape=(n_snap, len(x)), dtype=np.complex128,
-            chunks=(1, len(x)) if n_snap else None,
-        )
-        self._snap.attrs["units"] = "bohr^-1/2"
-        self._snap.attrs["gauge"] = "length"
+        self._snap = write_dataset(snaps, "psi", create=dict(shape=(n_snap, len(x)), dtype=np.complex128,
+                                                             chunks=(1, len(x)) if n_snap else None),
+                                   gauge="length")
 
     # ---------------------------------------------------------------- sink
     def snapshot(self, index, time, psi):
@@ -238,66 +270,58 @@ class ResultWriter:
         f = self.file
         obs = result.observables
         fld = f.create_group("field")
-        write_dataset(fld, "time", obs.time, "atomic_unit_of_time")
-        write_dataset(fld, "electric", obs.electric, "atomic_unit_of_electric_field")
-        write_dataset(fld, "vector_potential", obs.vector_potential, "atomic_unit_of_vector_potential")
+        write_dataset(fld, "time", obs.time)
+        write_dataset(fld, "electric", obs.electric)
+        write_dataset(fld, "vector_potential", obs.vector_potential)
         o = f.create_group("observables")
-        write_dataset(o, "time", obs.time, "atomic_unit_of_time")
-        write_dataset(o, "dipole", obs.dipole, "bohr", description="<x>, dipole moment per electron charge")
-        write_dataset(o, "momentum", obs.momentum, "atomic_unit_of_momentum", description="kinetic momentum <p>")
-        write_dataset(o, "acceleration", obs.acceleration, "atomic_unit_of_acceleration",
-                 description="Ehrenfest dipole acceleration -<dV/dx> - E(t) N(t)")
-        write_dataset(o, "norm", obs.norm, "1")
-        write_dataset(o, "initial_population", obs.initial_population, "1")
-        write_dataset(o, "population_time", result.population_time, "atomic_unit_of_time")
-        write_dataset(o, "bound_population", result.bound_population, "1",
-                 description="|<phi_n|psi>|^2 at population_time, shape (time, state)")
-        write_dataset(o, "absorbed", obs.norm[0] - obs.norm, "1", description="norm removed by the absorber so far")
+        write_dataset(o, "time", obs.time)
+        write_dataset(o, "dipole", obs.dipole)
+        write_dataset(o, "momentum", obs.momentum)
+        write_dataset(o, "acceleration", obs.acceleration)
+        write_dataset(o, "norm", obs.norm)
+        write_dataset(o, "initial_population", obs.initial_population)
+        write_dataset(o, "population_time", result.population_time)
+        write_dataset(o, "bound_population", result.bound_population)
+        write_dataset(o, "absorbed", obs.norm[0] - obs.norm)
         h = f.create_group("spectra/harmonic")
         hs = result.harmonic
-        write_dataset(h, "frequency", hs.frequency, "hartree", description="angular frequency = photon energy")
-        write_dataset(h, "order", hs.order, "1", description="frequency / carrier frequency of the first pulse")
-        write_dataset(h, "power", hs.power, "atomic_units", description="|FFT of windowed acceleration|^2")
+        write_dataset(h, "frequency", hs.frequency)
+        write_dataset(h, "order", hs.order)
+        write_dataset(h, "power", hs.power)
         h.attrs["window"] = self.problem.config.spectra.window
         if result.cutoff is not None:
-            h.attrs["cutoff_frequency"] = result.cutoff.frequency
+            h.attrs["cutoff_energy"] = result.cutoff.frequency
             h.attrs["cutoff_order"] = result.cutoff.order
             h.attrs["cutoff_resolved"] = bool(result.cutoff.resolved)
         for method, spec in result.photoelectrons.items():
             g = f.create_group(f"spectra/photoelectron/{method}")
             g.attrs["method"] = method
             g.attrs["split"] = spec.split
-            write_dataset(g, "momentum", spec.momentum, "atomic_unit_of_momentum", description="|p|")
-            write_dataset(g, "density_left", spec.density_left, "1/atomic_unit_of_momentum")
-            write_dataset(g, "density_right", spec.density_right, "1/atomic_unit_of_momentum")
-            write_dataset(g, "energy", spec.energy, "hartree")
-            write_dataset(g, "energy_density_left", spec.energy_density_left, "1/hartree")
-            write_dataset(g, "energy_density_right", spec.energy_density_right, "1/hartree")
+            write_dataset(g, "momentum", spec.momentum)
+            write_dataset(g, "density_left", spec.density_left)
+            write_dataset(g, "density_right", spec.density_right)
+            write_dataset(g, "energy", spec.energy)
+            write_dataset(g, "energy_density_left", spec.energy_density_left)
+            write_dataset(g, "energy_density_right", spec.energy_density_right)
         ion = f.create_group("ionization")
-        write_dataset(ion, "probability", result.ionization_probability, "1",
-                      description="1 - population of all bound states (held + edge + beyond), docs/analysis.md")
+        write_dataset(ion, "probability", result.ionization_probability)
         est = getattr(result, "ionization", None)
         if est is not None:
-            write_dataset(ion, "probability_band", np.array([est.lower, est.upper]), "1",
-                          description="lower and upper ends of the band covering the estimate's error")
-            write_dataset(ion, "bound_held", est.held, "1", description="population of the bound states the box holds")
-            write_dataset(ion, "bound_edge", est.edge, "1",
-                          description="population of the grid's E < 0 states reaching into the absorber")
-            write_dataset(ion, "bound_beyond", est.beyond, "1",
-                          description="estimated population of Rydberg states above the grid's highest level")
-            write_dataset(ion, "bound_unheld", est.unheld, "1",
-                          description="bound_edge + bound_beyond: population in bound states the box cannot hold")
-            write_dataset(ion, "time", est.time, "atomic_unit_of_time",
-                          description="when the populations were read: first record at or after the field's end")
+            write_dataset(ion, "probability_band", np.array([est.lower, est.upper]))
+            write_dataset(ion, "bound_held", est.held)
+            write_dataset(ion, "bound_edge", est.edge)
+            write_dataset(ion, "bound_beyond", est.beyond)
+            write_dataset(ion, "bound_unheld", est.unheld)
+            write_dataset(ion, "time", est.time)
             ion.attrs["states_found"] = est.states_found
             ion.attrs["states_held"] = est.states_held
             ion.attrs["states_complete"] = est.complete
             ion.attrs["top_held_energy"] = est.top_held_energy
             ion.attrs["edge_loss_rate"] = est.edge_loss_rate
             ion.attrs["converged"] = est.converged
-        write_dataset(ion, "absorbed", result.absorbed, "1", description="norm removed by the absorber")
+        write_dataset(ion, "absorbed", result.absorbed)
         final = f.create_group("final")
-        write_dataset(final, "psi", result.final_state, "bohr^-1/2", gauge="length")
+        write_dataset(final, "psi", result.final_state, gauge="length")
         f.attrs["warnings"] = "\n".join(result.warnings)
         if extra is not None:
             extra(f)

@@ -20,6 +20,7 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.colors import LogNorm
 
+from ..io.layout import find
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from .run_figures import DENSITY_CMAP, LOG_RANGE_SPECTROGRAM, _figure
 
@@ -51,7 +52,7 @@ def _edges(values):
 
 def map_figure(f, cache=None):
     """Spectrum versus photon energy and the scanned parameter, with the cutoff lines."""
-    energy = f["spectra/photon_energy"][()]
+    energy = find(f, "spectra/photon_energy_eV")[()]
     power = f["spectra/power"][()]
     values, label = _scan_axis(f)
     if energy.size == 0 or not np.isfinite(power).any():
@@ -68,8 +69,8 @@ def map_figure(f, cache=None):
     mesh = ax.pcolormesh(_edges(energy), _edges(values), np.clip(np.nan_to_num(rel, nan=floor), floor, 1.0),
                          norm=LogNorm(floor, 1.0), cmap=DENSITY_CMAP, shading="flat", rasterized=True)
     fig.colorbar(mesh, ax=ax, label="power / row maximum")
-    semi = f["cutoff/semiclassical"][()][order]
-    read = f["cutoff/spectrum"][()][order]
+    semi = find(f, "cutoff/semiclassical_eV")[()][order]
+    read = find(f, "cutoff/cutoff_energy_eV")[()][order]
     resolved = f["cutoff/resolved"][()][order]
     ax.plot(semi, values, color="white", lw=1.4, label="Ip + 3.17 Up")
     ax.plot(read[resolved], values[resolved], "o", mfc="none", mec="tab:red", ms=6, label="read off the spectrum")
@@ -83,10 +84,10 @@ def map_figure(f, cache=None):
 
 def cutoff_fit_figure(f, cache=None):
     """Cutoff read off each spectrum against Up, with the fitted and semiclassical lines."""
-    up = f["estimates/ponderomotive_energy"][()]
-    read = f["cutoff/spectrum"][()]
+    up = find(f, "estimates/ponderomotive_energy_eV")[()]
+    read = find(f, "cutoff/cutoff_energy_eV")[()]
     resolved = f["cutoff/resolved"][()]
-    ip = np.nanmean(f["estimates/ionization_potential"][()])
+    ip = np.nanmean(find(f, "estimates/ionization_potential_eV")[()])
     fig, (ax,) = _figure(1)
     ax.plot(up[resolved], read[resolved], "o", color="black", label="read off the spectrum")
     if np.any(~resolved):

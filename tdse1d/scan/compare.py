@@ -275,12 +275,14 @@ def computed_spectrum(path, point: int | None = None, average: str | None = None
     """
     import h5py
 
+    from ..io.layout import find
+
     with h5py.File(path, "r") as f:
         if f.attrs.get("kind", "") == "scan-summary":
-            energy = f["spectra/photon_energy"][()]
+            energy = find(f, "spectra/photon_energy_eV")[()]
             pick = 0 if point is None else int(point)
-            omega0 = float(f["estimates/photon_energy"][pick])
-            ip = float(f["estimates/ionization_potential"][pick])
+            omega0 = float(find(f, "estimates/photon_energy_eV")[pick])
+            ip = float(find(f, "estimates/ionization_potential_eV")[pick])
             if average is not None:
                 key = f"focal/{average}"
                 if key not in f:

@@ -26,6 +26,7 @@ import numpy as np
 from .. import __version__, units
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from ..io.guarded_file import new_hdf5
+from ..io.layout import SUMMARY_LAYOUT, find, group_of, path as layout_path
 from ..io.result_file import write_dataset
 
 __all__ = ["write_summary", "Summary", "common_energy_grid", "photoelectron_cutoff", "cutoff_fit", "SUMMARY_KIND"]
@@ -57,28 +58,32 @@ def _read_point(path) -> _PointData:
     from ..spectra.harmonic import harmonic_spectrum
 
     with h5py.File(path, "r") as f:
-        h = f["spectra/harmonic"]
-        est = dict(f["estimates"].attrs)
+        h = f[group_of("spectra/harmonic@window")]
+        est = dict(f[group_of("estimates@photon_energy")].attrs)
         omega0 = float(est.get("photon_energy", 1.0))
         # the complex amplitude is not stored: recompute it as the run did
-        spec = harmonic_spectrum(f["observables/time"][()], f["observables/acceleration"][()], omega0,
+        spec = harmonic_spectrum(f[layout_path("observables/time")][()], f[layout_path("observables/acceleration")][()], omega0,
                                  window=str(h.attrs.get("window", "hann")))
         attrs = {
             "estimates": est,
-            "cutoff_frequency": float(h.attrs.get("cutoff_frequency", math.nan)),
+            "cutoff_energy": float(_or_nan(find(f, "spectra/harmonic@cutoff_energy"))),
             "cutoff_resolved": bool(h.attrs.get("cutoff_resolved", False)),
-            "ionization": float(f["ionization/probability"][()]),
+            "ionization": float(f[layout_path("ionization/probability")][()]),
             "photoelectron": photoelectron_cutoff(f, omega0),
             # edges read off by the run's own analysis, when it stored them
-            "direct_edge": _scalar(f, "spectra/photoelectron/edges/direct"),
-            "backscattered_edge": _scalar(f, "spectra/photoelectron/edges/backscattered"),
-            "tunnelling": _last(f, "classical/tunnelling/probability"),
+            "direct_edge": _scalar(f, layout_path("spectra/photoelectron/edges/direct")),
+            "backscattered_edge": _scalar(f, layout_path("spectra/photoelectron/edges/backscattered")),
+            "tunnelling": _last(f, layout_path("classical/tunnelling/probability")),
         }
-        stored_w, stored = f["spectra/harmonic/frequency"][()], f["spectra/harmonic/power"][()]
+        stored_w, stored = f[layout_path("spectra/harmonic/frequency")][()], f[layout_path("spectra/harmonic/power")][()]
     if stored.shape != spec.power.shape or not np.allclose(stored, spec.power, rtol=1e-8, atol=0):
         # the run computed its spectrum differently: keep its power, no phase
         return _PointData(stored_w * units.HARTREE_EV, stored, np.full(stored.shape, np.nan + 0j), attrs)
     return _PointData(spec.frequency * units.HARTREE_EV, spec.power, spec.amplitude, attrs)
+
+
+def _or_nan(value) -> float:
+    return math.nan if value is None else float(value)
 
 
 def _scalar(f, key) -> float:
@@ -100,8 +105,10 @@ def photoelectron_cutoff(f: h5py.File, omega0: float) -> float:
     """
     from ..spectra.cutoff import read_cutoff
 
-    for method in ("surface_flux", "mask", "plane_wave"):
-        key = f"spectra/photoelectron/{method}"
+    from ..analysis.run_analysis import PHOTOELECTRON_METHOD_ORDER
+
+    for method in PHOTOELECTRON_METHOD_ORDER:
+        key = group_of("spectra/photoelectron/{method}/energy", method=method)
         if key not in f:
             continue
         g = f[key]
@@ -192,7 +199,7 @@ def write_summary(plan, directory) -> Summary:
     ev = units.HARTREE_EV
     est = lambda name: column(lambda d, r: d.attrs["estimates"].get(name, math.nan) * ev)  # noqa: E731
     up_ev, ip_ev = est("ponderomotive_energy"), est("ionization_potential")
-    cutoff_ev = column(lambda d, r: d.attrs["cutoff_frequency"] * ev)
+    cutoff_ev = column(lambda d, r: d.attrs["cutoff_energy"] * ev)
     resolved = np.array([bool(d.attrs["cutoff_resolved"]) if d is not None else False for d in data])
 
     if present:
@@ -229,52 +236,43 @@ def write_summary(plan, directory) -> Summary:
             g = axes.create_group(str(i))
             g.attrs["key"] = a.key
             g.attrs["unit"] = a.unit
-            write_dataset(g, "values", a.display(), a.unit or "atomic_units", description="values as written in the plan")
-            write_dataset(g, "values_au", np.array(a.atomic, float), "atomic_units")
-            g.create_dataset("labels", data=np.array([str(v) for v in a.values], dtype=h5py.string_dtype()))
+            write_dataset(g, "values", a.display(), units=a.unit or "atomic_units", layout=SUMMARY_LAYOUT)
+            write_dataset(g, "values_au", np.array(a.atomic, float), layout=SUMMARY_LAYOUT)
+            write_dataset(g, "labels", np.array([str(v) for v in a.values], dtype=h5py.string_dtype()), layout=SUMMARY_LAYOUT)
         pts = f.create_group("points")
-        pts.create_dataset("hash", data=np.array([p.hash for p in plan.points], dtype=h5py.string_dtype()))
-        write_dataset(pts, "index", np.arange(n), "1")
-        write_dataset(pts, "grid_index", np.array([p.grid_index for p in plan.points], dtype=np.int64).reshape(n, -1), "1",
-            description="index along each axis")
+        write_dataset(pts, "hash", np.array([p.hash for p in plan.points], dtype=h5py.string_dtype()), layout=SUMMARY_LAYOUT)
+        write_dataset(pts, "index", np.arange(n), layout=SUMMARY_LAYOUT)
+        write_dataset(pts, "grid_index", np.array([p.grid_index for p in plan.points], dtype=np.int64).reshape(n, -1), layout=SUMMARY_LAYOUT)
         write_dataset(pts, "values_au", np.array([[a.atomic[i] for a, i in zip(plan.axes, p.grid_index)]
-                                        for p in plan.points], float).reshape(n, -1), "atomic_units")
-        write_dataset(pts, "complete", np.array([d is not None for d in data]), "1")
-        write_dataset(pts, "cost", np.array([p.cost for p in plan.points]), "1", description="grid points x time steps")
-        write_dataset(pts, "run_seconds", column(lambda d, r: r.get("seconds", math.nan)), "s")
+                                        for p in plan.points], float).reshape(n, -1), layout=SUMMARY_LAYOUT)
+        write_dataset(pts, "complete", np.array([d is not None for d in data]), layout=SUMMARY_LAYOUT)
+        write_dataset(pts, "cost", np.array([p.cost for p in plan.points]), layout=SUMMARY_LAYOUT)
+        write_dataset(pts, "run_seconds", column(lambda d, r: r.get("seconds", math.nan)), layout=SUMMARY_LAYOUT)
         sp = f.create_group("spectra")
-        write_dataset(sp, "photon_energy", energy, "eV")
-        write_dataset(sp, "power", power, "atomic_units", description="harmonic power |a|^2 interpolated onto photon_energy")
-        write_dataset(sp, "amplitude", amplitude, "atomic_units",
-            description="complex harmonic amplitude (acceleration form, phase referred to t = 0), "
-                        "real and imaginary parts interpolated onto photon_energy")
+        write_dataset(sp, "photon_energy_eV", energy, layout=SUMMARY_LAYOUT)
+        write_dataset(sp, "power", power, layout=SUMMARY_LAYOUT)
+        write_dataset(sp, "amplitude", amplitude, layout=SUMMARY_LAYOUT)
         c = f.create_group("cutoff")
-        write_dataset(c, "spectrum", cutoff_ev, "eV", description="read off each spectrum (tdse1d.spectra.read_cutoff)")
-        write_dataset(c, "resolved", resolved, "1")
-        write_dataset(c, "semiclassical", est("cutoff_energy"), "eV", description="Ip + 3.17 Up")
-        write_dataset(c, "lewenstein", est("cutoff_energy_lewenstein"), "eV", description="1.32 Ip + 3.17 Up")
+        write_dataset(c, "cutoff_energy_eV", cutoff_ev, layout=SUMMARY_LAYOUT)
+        write_dataset(c, "resolved", resolved, layout=SUMMARY_LAYOUT)
+        write_dataset(c, "semiclassical_eV", est("cutoff_energy"), layout=SUMMARY_LAYOUT)
+        write_dataset(c, "lewenstein_eV", est("cutoff_energy_lewenstein"), layout=SUMMARY_LAYOUT)
         e = f.create_group("estimates")
-        write_dataset(e, "ponderomotive_energy", up_ev, "eV")
-        write_dataset(e, "ionization_potential", ip_ev, "eV")
-        write_dataset(e, "keldysh_parameter", column(lambda d, r: d.attrs["estimates"].get("keldysh_parameter", math.nan)), "1")
-        write_dataset(e, "peak_intensity", column(lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)),
-            "W/cm^2")
-        write_dataset(e, "photon_energy", est("photon_energy"), "eV")
+        write_dataset(e, "ponderomotive_energy_eV", up_ev, layout=SUMMARY_LAYOUT)
+        write_dataset(e, "ionization_potential_eV", ip_ev, layout=SUMMARY_LAYOUT)
+        write_dataset(e, "keldysh_parameter", column(lambda d, r: d.attrs["estimates"].get("keldysh_parameter", math.nan)), layout=SUMMARY_LAYOUT)
+        write_dataset(e, "peak_intensity_W_cm2", column(lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)), layout=SUMMARY_LAYOUT)
+        write_dataset(e, "photon_energy_eV", est("photon_energy"), layout=SUMMARY_LAYOUT)
         ion = f.create_group("ionization")
-        write_dataset(ion, "probability", column(lambda d, r: d.attrs["ionization"]), "1",
-            description="1 - final bound population")
-        write_dataset(ion, "tunnelling_estimate", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
-            d.attrs["tunnelling"]) else r.get("tunnelling_yield", math.nan)), "1",
-            description="quasi-static tunnelling yield over the run's field (tdse1d.semiclassical.tunnelling.tunnelling_yield)")
+        write_dataset(ion, "probability", column(lambda d, r: d.attrs["ionization"]), layout=SUMMARY_LAYOUT)
+        write_dataset(ion, "tunnelling_yield", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
+            d.attrs["tunnelling"]) else r.get("tunnelling_yield", math.nan)), layout=SUMMARY_LAYOUT)
         pe = f.create_group("photoelectron")
-        write_dataset(pe, "cutoff", column(lambda d, r: d.attrs["photoelectron"] * ev), "eV",
-            description="rough end of the last plateau (tdse1d.scan.summary.photoelectron_cutoff)")
-        write_dataset(pe, "direct_edge", column(lambda d, r: d.attrs["direct_edge"] * ev), "eV",
-            description="direct-electron edge read off by the run (/spectra/photoelectron/edges), NaN if absent")
-        write_dataset(pe, "backscattered_edge", column(lambda d, r: d.attrs["backscattered_edge"] * ev), "eV",
-            description="backscattered-electron edge read off by the run, NaN if absent")
-        write_dataset(pe, "direct_drift", est("direct_drift_energy"), "eV", description="2 Up")
-        write_dataset(pe, "backscattered_drift", est("backscattered_drift_energy"), "eV", description="10 Up")
+        write_dataset(pe, "cutoff_energy_eV", column(lambda d, r: d.attrs["photoelectron"] * ev), layout=SUMMARY_LAYOUT)
+        write_dataset(pe, "direct_edge_eV", column(lambda d, r: d.attrs["direct_edge"] * ev), layout=SUMMARY_LAYOUT)
+        write_dataset(pe, "backscattered_edge_eV", column(lambda d, r: d.attrs["backscattered_edge"] * ev), layout=SUMMARY_LAYOUT)
+        write_dataset(pe, "direct_drift_eV", est("direct_drift_energy"), layout=SUMMARY_LAYOUT)
+        write_dataset(pe, "backscattered_drift_eV", est("backscattered_drift_energy"), layout=SUMMARY_LAYOUT)
         g = f.create_group("fit")
         g.attrs["description"] = ("least-squares line cutoff = slope * Up + intercept (eV) over points with a "
                                   "resolved cutoff; semiclassical: slope 3.17, intercept Ip (or 1.32 Ip)")
@@ -303,5 +301,5 @@ def _write_focal(f, plan, energy, power, amplitude):
         sub = g.create_group(name)
         inc = focal_average(intensity[ok], power[ok], geometry=name)
         coh = focal_average(intensity[ok], amplitude[ok], geometry=name, coherent=True)
-        write_dataset(sub, "incoherent", inc, "atomic_units", description="sum of w_k |a_k|^2")
-        write_dataset(sub, "coherent", coh, "atomic_units", description="|sum of w_k a_k|^2")
+        write_dataset(sub, "incoherent", inc, layout=SUMMARY_LAYOUT)
+        write_dataset(sub, "coherent", coh, layout=SUMMARY_LAYOUT)

@@ -213,10 +213,11 @@ def _tunnelling_yield(outcome) -> float:
     read from the file when the run's own analysis stored it."""
     import h5py
 
+    from ..io.layout import path as layout_path
     from ..semiclassical.tunnelling import tunnelling_yield
 
     with h5py.File(outcome.path, "r") as f:
-        key = "classical/tunnelling/probability"
+        key = layout_path("classical/tunnelling/probability")
         if key in f and f[key].size:
             return float(f[key][-1])
     obs = outcome.result.observables
