@@ -9,9 +9,10 @@ naming that model.
 from __future__ import annotations
 
 import dataclasses
+import difflib
 from dataclasses import dataclass
 
-from .spec import InputError, Spec, _join, _read_array, _read_table, key
+from .spec import InputError, Spec, _join, _read_array, _read_table, _read_value, key, parameter_spec
 
 __all__ = ["AtomConfig", "CentreConfig"]
 
@@ -41,13 +42,16 @@ class CentreConfig:
 
 @dataclass(frozen=True)
 class AtomConfig:
-    """The model atom or molecular ion (``[atom]``)."""
+    """The model atom or molecular ion (``[atom]``).
+
+    The fields are the keys every model has; the values of the chosen model's own
+    parameters (declared by its potential class) are in ``parameters`` and read as
+    attributes, e.g. ``atom.softening`` or ``atom.trap_frequency``.
+    """
 
     model: str = key(Spec("choice", choices=_potential_names, doc="model potential"), "soft-core")
-    charge: float = key(Spec("float", **_CHARGE, doc="nuclear charge Z (a.u.)"), 1.0)
-    softening: float | None = key(Spec("quantity", "length", **_SOFTENING, doc="softening a (bohr)"), None)
     ionization_potential: float | None = key(
-        Spec("quantity", "energy", **_POSITIVE, doc="ionization potential to fit (Hartree)"), None
+        Spec("quantity", "energy", **_POSITIVE, doc="ionization potential to fit the softening to (Hartree)"), None
     )
     initial_state: tuple[int, ...] = key(
         Spec("int_list", minimum=0, strict=False, doc="index or indices of the initial state"), (0,)
@@ -61,13 +65,28 @@ class AtomConfig:
     bound_states: int | None = key(
         Spec("int", auto=True, minimum=1, strict=False, doc="number of bound states to compute"), None
     )
-    depth_parameter: float = key(Spec("float", **_POSITIVE, doc="Poschl-Teller l"), 2.0)
-    trap_frequency: float = key(Spec("float", **_POSITIVE, doc="harmonic-oscillator frequency (a.u.)"), 1.0)
+    #: (name, value) of each parameter the model declares, in atomic units
+    parameters: tuple[tuple[str, object], ...] = ()
     centres: tuple[CentreConfig, ...] = ()
+
+    def __getattr__(self, name):
+        # only reached for names that are not fields: the model's own parameters
+        if name.startswith("__"):
+            raise AttributeError(name)
+        for k, value in self.__dict__.get("parameters", ()):
+            if k == name:
+                return value
+        raise AttributeError(f"the {self.__dict__.get('model', '?')} model has no parameter {name!r}")
 
     @property
     def fit_softening(self) -> bool:
         return self.ionization_potential is not None
+
+    def with_softening(self, softening: float) -> "AtomConfig":
+        """A copy with ``softening`` as the model's softening (and each centre's)."""
+        params = tuple((k, softening if k == "softening" else v) for k, v in self.parameters)
+        centres = tuple(dataclasses.replace(c, softening=softening) for c in self.centres)
+        return dataclasses.replace(self, parameters=params, centres=centres)
 
 
 def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
@@ -89,41 +108,58 @@ def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
 
 
 def _read_atom(table, path):
-    atom = _read_table(
-        AtomConfig, table, path, nested={"centre": ("centres", lambda t, p: _read_array(CentreConfig, t, p))}
-    )
+    from ..physics.potentials import POTENTIALS
+
+    if not isinstance(table, dict):
+        raise InputError(f"must be a table, got {type(table).__name__}", path)
+    # the keys every model has first (the model among them), then the model's own
+    parameter_names = {p.name for cls in POTENTIALS.values() for p in cls.parameters}
+    common = {k: v for k, v in table.items() if k not in parameter_names}
+    known = [f.name for f in dataclasses.fields(AtomConfig) if "spec" in f.metadata] + sorted(parameter_names)
+    for name in table:
+        if name not in known and name != "centre":
+            near = difflib.get_close_matches(name, known + ["centre"], n=1)
+            hint = f"; did you mean '{near[0]}'?" if near else f"; known keys: {', '.join(known + ['centre'])}"
+            raise InputError(f"unknown key{hint}", _join(path, name))
+    atom = _read_table(AtomConfig, common, path,
+                       nested={"centre": ("centres", lambda t, p: _read_array(CentreConfig, t, p))})
     _refuse_other_models_keys(atom.model, table, path)
+    cls = POTENTIALS[atom.model]
+    values = tuple((p.name, _read_value(table[p.name], parameter_spec(p), _join(path, p.name))
+                    if p.name in table else p.default) for p in cls.parameters)
+    atom = dataclasses.replace(atom, parameters=values)
+    if atom.fit_softening and not cls.fittable:
+        raise InputError(f"the {atom.model} model has no softening to fit (it is not fittable): give its own "
+                         "parameters instead", _join(path, "ionization_potential"))
     centres = atom.centres
-    if atom.model == "soft-core":
-        if centres:
-            for name in ("softening", "charge"):
-                if name in table:
-                    raise InputError(
-                        f"give '{name}' in each [[atom.centre]] table when centres are listed", _join(path, name)
-                    )
-            given = [c.softening is not None for c in centres]
-            if atom.fit_softening and any(given):
-                i = given.index(True)
+    if cls.centres_table and centres:
+        for name in ("softening", "charge"):
+            if name in table:
                 raise InputError(
-                    "give either the softening of each centre or atom.ionization_potential, not both",
-                    f"{path}.centre.{i}.softening",
+                    f"give '{name}' in each [[atom.centre]] table when centres are listed", _join(path, name)
                 )
-            if not atom.fit_softening and not all(given):
-                i = given.index(False)
-                raise InputError(
-                    "missing softening (or give atom.ionization_potential to fit it)", f"{path}.centre.{i}.softening"
-                )
-        else:
-            if (atom.softening is None) == (not atom.fit_softening):
-                which = "both" if atom.fit_softening else "neither"
-                raise InputError(
-                    f"give exactly one of 'softening' and 'ionization_potential' ({which} given)",
-                    _join(path, "softening"),
-                )
-            centres = (CentreConfig(0.0, atom.charge, atom.softening),)
+        given = [c.softening is not None for c in centres]
+        if atom.fit_softening and any(given):
+            i = given.index(True)
+            raise InputError(
+                "give either the softening of each centre or atom.ionization_potential, not both",
+                f"{path}.centre.{i}.softening",
+            )
+        if not atom.fit_softening and not all(given):
+            i = given.index(False)
+            raise InputError(
+                "missing softening (or give atom.ionization_potential to fit it)", f"{path}.centre.{i}.softening"
+            )
+    elif cls.fittable:
+        if (atom.softening is None) == (not atom.fit_softening):
+            which = "both" if atom.fit_softening else "neither"
+            raise InputError(
+                f"give exactly one of 'softening' and 'ionization_potential' ({which} given)",
+                _join(path, "softening"),
+            )
+    if cls.centres_table and not centres:
+        centres = (CentreConfig(0.0, atom.charge, atom.softening),)
         atom = dataclasses.replace(atom, centres=centres)
-    elif atom.fit_softening:
-        raise InputError(f"the {atom.model} model has no softening to fit", _join(path, "ionization_potential"))
     n = len(atom.initial_state)
     for name in ("initial_amplitudes", "initial_phases"):
         got = getattr(atom, name)
