@@ -83,3 +83,24 @@ def test_the_named_scheme_is_the_one_that_runs():
     assert np.array_equal(by_order, by_name)
     difference = float(np.max(np.abs(other - by_order)))
     assert difference > 1e-12, difference
+
+
+def test_a_key_of_another_envelope_is_refused_naming_it():
+    base = {"atom": {"softening": 1.4},
+            "laser": [{"wavelength": "800 nm", "peak_intensity": "1e14 W/cm^2", "cycles": 6}]}
+    parse_input(base)  # null case: without the key it is read
+    flat = {**base, "laser": [{**base["laser"][0], "envelope": "flat-top", "ramp_cycles": 2}]}
+    assert parse_input(flat).lasers[0].ramp_cycles == 2  # its own envelope reads it
+    sin2 = {**base, "laser": [{**base["laser"][0], "ramp_cycles": 2}]}
+    with pytest.raises(InputError, match="laser.0.ramp_cycles.*flat-top envelope.*sin2"):
+        parse_input(sin2)
+
+
+def test_a_key_of_another_absorber_is_refused_naming_it():
+    base = {"atom": {"softening": 1.4}}
+    assert parse_input({**base, "absorber": {"type": "complex-potential", "strength": 0.5}}).absorber.strength == 0.5
+    assert parse_input({**base, "absorber": {"exponent": 0.25}}).absorber.exponent == 0.25  # the mask's own
+    with pytest.raises(InputError, match="absorber.strength.*complex-potential absorber.*mask"):
+        parse_input({**base, "absorber": {"strength": 0.5}})
+    with pytest.raises(InputError, match="absorber.exponent.*mask absorber.*none"):
+        parse_input({**base, "absorber": {"type": "none", "exponent": 0.25}})

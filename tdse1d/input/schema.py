@@ -98,7 +98,7 @@ class LaserConfig:
     fwhm: float | None = key(
         Spec("quantity", "time", bare_allowed=False, **_POSITIVE, doc="intensity FWHM"), None
     )
-    ramp_cycles: float = key(Spec("float", **_POSITIVE, doc="flat-top ramp length in cycles"), 2.0)
+    ramp_cycles: float = key(Spec("float", **_POSITIVE, doc="ramp length in cycles (flat-top envelope only)"), 2.0)
     cep: float = key(Spec("quantity", "angle", doc="carrier-envelope phase (rad)"), 0.0)
     delay: float = key(Spec("quantity", "time", bare_allowed=False, doc="time of the envelope centre"), 0.0)
     chirp: float = key(Spec("quantity", "chirp_rate", doc="linear chirp rate d(omega)/dt (a.u.)"), 0.0)
@@ -176,6 +176,20 @@ class AbsorberConfig:
     strength: float | None = key(
         Spec("float", auto=True, **_POSITIVE, doc="peak of the complex absorbing potential (Hartree)"), None
     )
+
+
+def _read_absorber(table, path):
+    """[absorber], refusing the keys of another absorber than ``type`` names."""
+    from ..physics.absorbers import ABSORBERS
+
+    absorber = _read_table(AbsorberConfig, table, path)
+    mine = ABSORBERS[absorber.type].own_keys
+    for other, cls in ABSORBERS.items():
+        for name in cls.own_keys:
+            if name in table and name not in mine:
+                raise InputError(f"belongs to the {other} absorber, not to type = '{absorber.type}'",
+                                 _join(path, name))
+    return absorber
 
 
 @dataclass(frozen=True)
@@ -302,14 +316,17 @@ def _read_laser(table, path, base_dir: Path):
     if (laser.cycles is None) == (laser.fwhm is None):
         which = "both" if laser.cycles is not None else "neither"
         raise InputError(f"give exactly one of 'cycles' and 'fwhm' ({which} given)", _join(path, "cycles"))
-    if laser.envelope == "flat-top":
-        if laser.cycles is None:
-            raise InputError("a flat-top pulse is given by 'cycles' (total length)", _join(path, "cycles"))
-        if 2 * laser.ramp_cycles > laser.cycles:
-            raise InputError(
-                f"two ramps of {laser.ramp_cycles:g} cycles do not fit in {laser.cycles:g} cycles",
-                _join(path, "ramp_cycles"),
-            )
+    from ..physics.pulses import ENVELOPES
+
+    shape = ENVELOPES[laser.envelope]
+    for other, cls in ENVELOPES.items():
+        for name in cls.own_keys:
+            if name in table and name not in shape.own_keys:
+                raise InputError(f"belongs to the {other} envelope, not to envelope = '{laser.envelope}'",
+                                 _join(path, name))
+    problem = shape.check(laser)
+    if problem is not None:
+        raise InputError(problem[0], _join(path, problem[1]))
     return laser
 
 
@@ -351,7 +368,7 @@ def parse_input(raw: dict, source: str = "<string>", base_dir: Path | str = ".")
             if not isinstance(items, list):
                 raise InputError("must be an array of tables [[laser]]", "laser")
             lasers = tuple(_read_laser(t, f"laser.{i}", base_dir) for i, t in enumerate(items))
-        readers = {"propagation": _read_propagation}
+        readers = {"propagation": _read_propagation, "absorber": _read_absorber}
         sections = {name: readers.get(name, lambda t, p, cls=cls: _read_table(cls, t, p))(raw.get(name, {}), name)
                     for name, cls in _SECTIONS.items()}
         return RunConfig(atom=atom, lasers=lasers, raw=copy.deepcopy(raw), source=source, base_dir=base_dir, **sections)
