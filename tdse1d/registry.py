@@ -3,7 +3,7 @@ windows, validation cases, health checks): one decorator for all of them."""
 
 from __future__ import annotations
 
-__all__ = ["registrar"]
+__all__ = ["registrar", "Parameter"]
 
 
 def registrar(table: dict, attribute: str | None = "name"):
@@ -25,3 +25,42 @@ def registrar(table: dict, attribute: str | None = "name"):
 
     register.__doc__ = f"Decorator adding an entry to the table {attribute or 'of entries'} under ``name``."
     return register
+
+
+class Parameter:
+    """One input key that a registered part (a potential, an envelope, an absorber) owns.
+
+    The part declares its keys as a tuple of these; the input reader turns each into
+    the key's specification, refuses the keys of the other parts of the same table
+    naming the part they belong to, and documents them. Physics modules declare keys
+    this way because they may not import the input layer.
+
+    Parameters
+    ----------
+    name : str
+        The key, e.g. ``"depth_parameter"``.
+    kind : {"float", "int", "quantity"}
+        How the value is read (a quantity takes a unit, e.g. ``"1.4 bohr"``).
+    default : object
+        Value when the key is absent (None: required or chosen elsewhere).
+    doc : str
+        One line: what it is, with its unit.
+    dimension : str, optional
+        For quantities, a key of :data:`tdse1d.units.DIMENSIONS` (``"length"``...).
+    minimum, maximum : float, optional
+        Allowed range; ``strict`` makes the minimum exclusive.
+    """
+
+    def __init__(self, name, kind, default=None, doc="", dimension=None, minimum=None, maximum=None,
+                 strict=True):
+        self.name = name
+        self.kind = kind
+        self.default = default
+        self.doc = doc
+        self.dimension = dimension
+        self.minimum = minimum
+        self.maximum = maximum
+        self.strict = strict
+
+    def __repr__(self):
+        return f"Parameter({self.name!r}, {self.kind!r}, default={self.default!r})"

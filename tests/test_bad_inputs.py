@@ -36,6 +36,8 @@ def test_corpus_is_large_and_covers_every_key():
     assert len(CASES) >= 40 and len(SCANS) >= 10
     named = " ".join(_expected(p) for p in CASES)
     keys = [f"atom.{f.name}" for f in dataclasses.fields(AtomConfig) if "spec" in f.metadata]
+    from tdse1d.physics.potentials import POTENTIALS
+    keys += [f"atom.{p.name}" for cls in POTENTIALS.values() for p in cls.parameters]  # each model's own
     keys += [f"laser.0.{f.name}" for f in dataclasses.fields(LaserConfig) if "spec" in f.metadata]
     keys += [f"{s}.{f.name}" for s, cls in _SECTIONS.items() for f in dataclasses.fields(cls) if "spec" in f.metadata]
     missing = [k for k in keys if k not in named]

@@ -113,6 +113,29 @@ def test_checkpoint_of_another_input_is_refused(tmp_path):
     assert checkpoint_path(out).exists() and not out.exists()
 
 
+def test_checkpoint_format_version_and_observables_are_checked_on_read(tmp_path):
+    # a checkpoint of another format version, or one missing a per-step observable of
+    # this program's table, is refused in one line; the untouched one reads back
+    out = tmp_path / "r.h5"
+    problem = build_problem(load_input(_input(tmp_path)))
+    control = RunControl()
+    with pytest.raises(RunInterrupted):
+        api.run_problem(problem, out, progress=_StopAt(control, 10), control=control)
+    cp = checkpoint_path(out)
+    state, _ = read_checkpoint(cp)  # null case: the file as written is accepted
+    from tdse1d.physics.observables import per_step_names
+    assert sorted(state.observables) == sorted(per_step_names())
+    with h5py.File(cp, "r+") as f:
+        f.attrs["format_version"] = int(f.attrs["format_version"]) + 1
+    with pytest.raises(InputError, match="format version"):
+        read_checkpoint(cp)
+    with h5py.File(cp, "r+") as f:
+        f.attrs["format_version"] = int(f.attrs["format_version"]) - 1
+        del f["observables/dipole"]
+    with pytest.raises(InputError, match="no per-step dipole"):
+        read_checkpoint(cp)
+
+
 def _wait_for(found, proc, limit=120.0):
     """Poll (a handshake, no fixed delay) until ``found()`` is truthy; fail if ``proc`` ends."""
     deadline = time.monotonic() + limit

@@ -358,6 +358,9 @@ def test_every_input_key_is_documented():
         assert match, heading
         documented = set(re.findall(r"^\| `(\w+)` \|", match.group(1), flags=re.M))
         keys = {f.name for f in dataclasses.fields(cls) if "spec" in f.metadata}
+        if cls is config.AtomConfig:  # and each model's own parameters
+            from tdse1d.physics.potentials import POTENTIALS
+            keys |= {p.name for model in POTENTIALS.values() for p in model.parameters}
         assert documented >= keys, (heading, keys - documented)
 
 

@@ -276,7 +276,7 @@ def field_free_floor(problem, *, duration=None):
     tdse1d.spectra.PhotoelectronSpectrum
     """
     from ..physics.absorbers import ABSORBERS
-    from ..physics.propagation import Propagator, scheme_for_order
+    from ..physics.propagation import SCHEMES, Propagator
     from ..physics.pulses import Field
     from ..spectra.photoelectron import plane_wave_spectrum, project_out_bound
     from ..physics.states import initial_wavefunction
@@ -291,7 +291,7 @@ def field_free_floor(problem, *, duration=None):
     absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
     mask = absorber.step_factor(grid, problem.absorber_width, problem.time.step)
     prop = Propagator(grid, problem.potential, Field([]), times[: steps + 1],
-                      scheme=scheme_for_order(cfg.propagation.order), absorber_factor=mask, reference=psi0,
+                      scheme=SCHEMES[cfg.propagation.scheme_name], absorber_factor=mask, reference=psi0,
                       fft_effort="FFTW_ESTIMATE")
     prop.start(psi0)
     prop.advance(steps)

@@ -183,8 +183,11 @@ def _potential(config: RunConfig) -> Potential:
     atom = config.atom
     cls = POTENTIALS[atom.model]
     if atom.fit_softening:
+        if not cls.fittable:
+            raise InputError(f"the {atom.model} model has no softening to fit (it is not fittable)",
+                             "atom.ionization_potential", config.source)
         # a placeholder softening, replaced by the fit
-        atom = replace(atom, centres=tuple(replace(c, softening=1.0) for c in atom.centres))
+        atom = atom.with_softening(1.0)
     return cls.from_config(atom)
 
 

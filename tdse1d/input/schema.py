@@ -21,17 +21,12 @@ from pathlib import Path
 
 
 from .. import units
-from .spec import (InputError, Spec, _join, _read_array, _read_table, apply_override, dump_toml, key, parse_override,
+from .spec import (InputError, Spec, _join, _read_table, apply_override, dump_toml, key, parse_override,
                    tomllib)
+from .atom import AtomConfig, CentreConfig, _read_atom
 
 
 # ----------------------------------------------------------------------- sections
-
-
-def _potential_names():
-    from ..physics.potentials import POTENTIALS
-
-    return tuple(POTENTIALS)
 
 
 def _envelope_names():
@@ -46,6 +41,12 @@ def _absorber_names():
     return tuple(ABSORBERS)
 
 
+def _scheme_names():
+    from ..physics.propagation import SCHEMES
+
+    return tuple(SCHEMES)
+
+
 def _window_names():
     from ..spectra.windows import WINDOWS
 
@@ -53,11 +54,6 @@ def _window_names():
 
 
 _POSITIVE = dict(minimum=0.0)
-# Ranges of the model's parameters outside which no grid represents the model (the
-# numbers overflow or the core is far below any spacing); generous, not physical limits.
-_CHARGE = dict(minimum=0.0, maximum=100.0)
-_SOFTENING = dict(minimum=1e-3, strict=False, maximum=1e3)
-_POSITION = dict(minimum=-1e3, strict=False, maximum=1e3)
 
 
 # Ranges of a pulse's carrier and strength inside which this program's model holds:
@@ -73,46 +69,6 @@ MAX_NORMALISED_VECTOR_POTENTIAL = 1.0
 #: largest |delay| of a pulse (fs): 1 ns is 4.1e7 a.u., already more steps between two
 #: pulses than a run may take at a step of 0.04 a.u.
 MAX_DELAY_FS = 1e6
-
-
-@dataclass(frozen=True)
-class CentreConfig:
-    """One soft-core centre of a molecular ion (``[[atom.centre]]``)."""
-
-    position: float = key(Spec("quantity", "length", **_POSITION, doc="position of the centre (bohr)"), 0.0)
-    charge: float = key(Spec("float", **_CHARGE, doc="nuclear charge Z (a.u.)"), 1.0)
-    softening: float | None = key(Spec("quantity", "length", **_SOFTENING, doc="softening a (bohr)"), None)
-
-
-@dataclass(frozen=True)
-class AtomConfig:
-    """The model atom or molecular ion (``[atom]``)."""
-
-    model: str = key(Spec("choice", choices=_potential_names, doc="model potential"), "soft-core")
-    charge: float = key(Spec("float", **_CHARGE, doc="nuclear charge Z (a.u.)"), 1.0)
-    softening: float | None = key(Spec("quantity", "length", **_SOFTENING, doc="softening a (bohr)"), None)
-    ionization_potential: float | None = key(
-        Spec("quantity", "energy", **_POSITIVE, doc="ionization potential to fit (Hartree)"), None
-    )
-    initial_state: tuple[int, ...] = key(
-        Spec("int_list", minimum=0, strict=False, doc="index or indices of the initial state"), (0,)
-    )
-    initial_amplitudes: tuple[float, ...] | None = key(
-        Spec("float_list", doc="amplitudes of a superposition initial state"), None
-    )
-    initial_phases: tuple[float, ...] | None = key(
-        Spec("float_list", doc="phases (rad) of a superposition initial state"), None
-    )
-    bound_states: int | None = key(
-        Spec("int", auto=True, minimum=1, strict=False, doc="number of bound states to compute"), None
-    )
-    depth_parameter: float = key(Spec("float", **_POSITIVE, doc="Poschl-Teller l"), 2.0)
-    trap_frequency: float = key(Spec("float", **_POSITIVE, doc="harmonic-oscillator frequency (a.u.)"), 1.0)
-    centres: tuple[CentreConfig, ...] = ()
-
-    @property
-    def fit_softening(self) -> bool:
-        return self.ionization_potential is not None
 
 
 @dataclass(frozen=True)
@@ -142,7 +98,7 @@ class LaserConfig:
     fwhm: float | None = key(
         Spec("quantity", "time", bare_allowed=False, **_POSITIVE, doc="intensity FWHM"), None
     )
-    ramp_cycles: float = key(Spec("float", **_POSITIVE, doc="flat-top ramp length in cycles"), 2.0)
+    ramp_cycles: float = key(Spec("float", **_POSITIVE, doc="ramp length in cycles (flat-top envelope only)"), 2.0)
     cep: float = key(Spec("quantity", "angle", doc="carrier-envelope phase (rad)"), 0.0)
     delay: float = key(Spec("quantity", "time", bare_allowed=False, doc="time of the envelope centre"), 0.0)
     chirp: float = key(Spec("quantity", "chirp_rate", doc="linear chirp rate d(omega)/dt (a.u.)"), 0.0)
@@ -178,9 +134,36 @@ class PropagationConfig:
     )
     gauge: str = key(Spec("choice", choices=("length", "velocity"), doc="gauge"), "length")
     order: int = key(Spec("choice", choices=(2, 4), doc="order of the splitting"), 2)
+    scheme: str | None = key(
+        Spec("choice", choices=_scheme_names, doc="splitting scheme by name (default: the one for 'order')"), None
+    )
     after_pulse: float | None = key(
         Spec("quantity", "time", auto=True, minimum=0, strict=False, doc="field-free time after the pulses"), None
     )
+
+    @property
+    def scheme_name(self) -> str:
+        """The splitting scheme of the run: ``scheme`` if given, else the default for ``order``."""
+        if self.scheme is not None:
+            return self.scheme
+        from ..physics.propagation import DEFAULT_SCHEME_FOR_ORDER
+
+        return DEFAULT_SCHEME_FOR_ORDER[self.order]
+
+
+def _read_propagation(table, path):
+    """[propagation], with ``scheme`` and ``order`` made to agree: a named scheme sets
+    the order (so the result file states it); both given and different is refused."""
+    prop = _read_table(PropagationConfig, table, path)
+    if prop.scheme is None:
+        return prop
+    from ..physics.propagation import SCHEMES
+
+    order = SCHEMES[prop.scheme].order
+    if "order" in table and prop.order != order:
+        raise InputError(f"the scheme '{prop.scheme}' is of order {order}, not {prop.order}: "
+                         "give one of 'scheme' and 'order', or both agreeing", _join(path, "order"))
+    return dataclasses.replace(prop, order=order)
 
 
 @dataclass(frozen=True)
@@ -193,6 +176,20 @@ class AbsorberConfig:
     strength: float | None = key(
         Spec("float", auto=True, **_POSITIVE, doc="peak of the complex absorbing potential (Hartree)"), None
     )
+
+
+def _read_absorber(table, path):
+    """[absorber], refusing the keys of another absorber than ``type`` names."""
+    from ..physics.absorbers import ABSORBERS
+
+    absorber = _read_table(AbsorberConfig, table, path)
+    mine = ABSORBERS[absorber.type].own_keys
+    for other, cls in ABSORBERS.items():
+        for name in cls.own_keys:
+            if name in table and name not in mine:
+                raise InputError(f"belongs to the {other} absorber, not to type = '{absorber.type}'",
+                                 _join(path, name))
+    return absorber
 
 
 @dataclass(frozen=True)
@@ -272,72 +269,6 @@ _SECTIONS = {
 }
 
 
-def _refuse_other_models_keys(model: str, table: dict, path: str) -> None:
-    """Refuse a key of the [atom] table that another model reads and ``model`` does not
-    (e.g. ``trap_frequency`` with the soft-core model): it would be silently ignored."""
-    from ..physics.potentials import model_keys
-
-    keys = model_keys()
-    own = set(keys.get(model, ()))
-    for name in table:
-        owners = [m for m, ks in keys.items() if name in ks and m != model]
-        if owners and name not in own:
-            mine = ", ".join(sorted(own)) or "none"
-            raise InputError(
-                f"belongs to the {' and '.join(owners)} model, not to atom.model = '{model}' "
-                f"(whose own keys are: {mine})",
-                _join(path, name),
-            )
-
-
-def _read_atom(table, path):
-    atom = _read_table(
-        AtomConfig, table, path, nested={"centre": ("centres", lambda t, p: _read_array(CentreConfig, t, p))}
-    )
-    _refuse_other_models_keys(atom.model, table, path)
-    centres = atom.centres
-    if atom.model == "soft-core":
-        if centres:
-            for name in ("softening", "charge"):
-                if name in table:
-                    raise InputError(
-                        f"give '{name}' in each [[atom.centre]] table when centres are listed", _join(path, name)
-                    )
-            given = [c.softening is not None for c in centres]
-            if atom.fit_softening and any(given):
-                i = given.index(True)
-                raise InputError(
-                    "give either the softening of each centre or atom.ionization_potential, not both",
-                    f"{path}.centre.{i}.softening",
-                )
-            if not atom.fit_softening and not all(given):
-                i = given.index(False)
-                raise InputError(
-                    "missing softening (or give atom.ionization_potential to fit it)", f"{path}.centre.{i}.softening"
-                )
-        else:
-            if (atom.softening is None) == (not atom.fit_softening):
-                which = "both" if atom.fit_softening else "neither"
-                raise InputError(
-                    f"give exactly one of 'softening' and 'ionization_potential' ({which} given)",
-                    _join(path, "softening"),
-                )
-            centres = (CentreConfig(0.0, atom.charge, atom.softening),)
-        atom = dataclasses.replace(atom, centres=centres)
-    elif atom.fit_softening:
-        raise InputError(f"the {atom.model} model has no softening to fit", _join(path, "ionization_potential"))
-    n = len(atom.initial_state)
-    for name in ("initial_amplitudes", "initial_phases"):
-        got = getattr(atom, name)
-        if got is not None and len(got) != n:
-            raise InputError(f"needs {n} entries, one per initial_state, got {len(got)}", _join(path, name))
-    if atom.initial_amplitudes is not None and not any(a != 0 for a in atom.initial_amplitudes):
-        raise InputError("at least one amplitude must be non-zero", _join(path, "initial_amplitudes"))
-    if len(set(atom.initial_state)) != n:
-        raise InputError("lists a state twice", _join(path, "initial_state"))
-    return atom
-
-
 def _read_laser(table, path, base_dir: Path):
     laser = _read_table(LaserConfig, table, path)
     tabulated = laser.field_file is not None
@@ -385,14 +316,17 @@ def _read_laser(table, path, base_dir: Path):
     if (laser.cycles is None) == (laser.fwhm is None):
         which = "both" if laser.cycles is not None else "neither"
         raise InputError(f"give exactly one of 'cycles' and 'fwhm' ({which} given)", _join(path, "cycles"))
-    if laser.envelope == "flat-top":
-        if laser.cycles is None:
-            raise InputError("a flat-top pulse is given by 'cycles' (total length)", _join(path, "cycles"))
-        if 2 * laser.ramp_cycles > laser.cycles:
-            raise InputError(
-                f"two ramps of {laser.ramp_cycles:g} cycles do not fit in {laser.cycles:g} cycles",
-                _join(path, "ramp_cycles"),
-            )
+    from ..physics.pulses import ENVELOPES
+
+    shape = ENVELOPES[laser.envelope]
+    for other, cls in ENVELOPES.items():
+        for name in cls.own_keys:
+            if name in table and name not in shape.own_keys:
+                raise InputError(f"belongs to the {other} envelope, not to envelope = '{laser.envelope}'",
+                                 _join(path, name))
+    problem = shape.check(laser)
+    if problem is not None:
+        raise InputError(problem[0], _join(path, problem[1]))
     return laser
 
 
@@ -434,7 +368,9 @@ def parse_input(raw: dict, source: str = "<string>", base_dir: Path | str = ".")
             if not isinstance(items, list):
                 raise InputError("must be an array of tables [[laser]]", "laser")
             lasers = tuple(_read_laser(t, f"laser.{i}", base_dir) for i, t in enumerate(items))
-        sections = {name: _read_table(cls, raw.get(name, {}), name) for name, cls in _SECTIONS.items()}
+        readers = {"propagation": _read_propagation, "absorber": _read_absorber}
+        sections = {name: readers.get(name, lambda t, p, cls=cls: _read_table(cls, t, p))(raw.get(name, {}), name)
+                    for name, cls in _SECTIONS.items()}
         return RunConfig(atom=atom, lasers=lasers, raw=copy.deepcopy(raw), source=source, base_dir=base_dir, **sections)
     except InputError as exc:
         if exc.source is None:

@@ -110,6 +110,13 @@ def key(spec: Spec, default=_REQUIRED):
     return field(default=default, metadata={"spec": spec})
 
 
+def parameter_spec(parameter) -> Spec:
+    """The :class:`Spec` of a key declared by a registered part as a
+    :class:`tdse1d.registry.Parameter`."""
+    return Spec(parameter.kind, parameter.dimension, minimum=parameter.minimum, strict=parameter.strict,
+                maximum=parameter.maximum, doc=parameter.doc)
+
+
 def _check_range(value, spec: Spec, path: str):
     if isinstance(value, int) and not isinstance(value, bool):
         try:  # TOML integers may have any number of digits

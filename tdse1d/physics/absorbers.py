@@ -15,7 +15,9 @@ Absorbers are small classes registered in :data:`ABSORBERS` under the name used 
 ``absorber.type``. Contract for an implementer of :class:`Absorber`:
 
 * ``step_factor(grid, width, time_step)`` returns M(x) on the grid (float array,
-  values in (0, 1], exactly 1 outside the two absorbing layers of ``width`` bohr).
+  values in (0, 1], exactly 1 outside the two absorbing layers of ``width`` bohr);
+* ``own_keys`` names the ``[absorber]`` keys only this absorber reads (the input
+  reader refuses them with another absorber, naming this one).
 """
 
 from __future__ import annotations
@@ -52,6 +54,9 @@ class Absorber:
 
     name = "?"
 
+    #: [absorber] keys only this absorber reads (refused with another, naming this one)
+    own_keys: tuple[str, ...] = ()
+
     def __init__(self, exponent: float = 0.125, strength: float | None = None):
         self.exponent = exponent
         self.strength = strength
@@ -67,6 +72,8 @@ class CosineMask(Absorber):
     The mask of Krause, Schafer and Kulander, Phys. Rev. A 45, 4998 (1992), applied once
     per time step; ``exponent`` (default 1/8) sets how sharply it bites.
     """
+
+    own_keys = ("exponent",)
 
     def step_factor(self, grid, width, time_step):
         s = depth_into_layer(grid, width)
@@ -84,6 +91,8 @@ class ComplexPotential(Absorber):
     40-bohr layer with less than 1e-5 of it reflected back into the box, where a step
     of the same height reflects more than 1e-3 (tests/test_photoelectrons.py).
     """
+
+    own_keys = ("strength",)
 
     DEFAULT_STRENGTH = 1.0
 

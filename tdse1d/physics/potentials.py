@@ -8,11 +8,18 @@ Contract for an implementer of :class:`Potential`:
 * ``value(x)`` returns V(x) in Hartree for an array of positions in bohr;
 * ``gradient(x)`` returns dV/dx analytically (the propagator uses it for the
   Ehrenfest dipole acceleration, so it must not be a finite difference);
+* ``parameters`` declares the keys of the ``[atom]`` table the model owns (besides
+  the keys every model has), each a :class:`tdse1d.registry.Parameter` with its kind,
+  unit, range, default and doc: the input reader checks them, refuses the keys of
+  another model naming that model, and gives ``from_config`` their values as
+  attributes of the ``atom`` it is passed;
 * ``from_config(atom)`` builds the potential from the validated ``[atom]`` table;
-* ``with_softening(a)`` returns a copy with a new softening, for potentials whose
-  softening may be fitted to an ionization potential (others raise ``TypeError``);
-* ``input_keys`` names the keys of the ``[atom]`` table the model reads (besides the
-  keys every model has): the input reader refuses the keys of another model;
+* ``fittable = True`` (with a ``softening`` parameter and ``with_softening(a)``
+  returning a copy with a new softening) lets the input give
+  ``atom.ionization_potential`` instead of the softening; for a model that is not
+  fittable the input reader and the problem assembly refuse the fit naming the model;
+* ``centres = True`` makes the model read the ``[[atom.centre]]`` tables (several
+  soft-core centres of a molecular ion);
 * the constructor refuses parameters outside the model's domain (a non-positive
   softening, width or frequency, a non-finite number) with a ``ValueError`` naming
   the parameter.
@@ -25,7 +32,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from ..registry import registrar
+from ..registry import Parameter, registrar
 
 __all__ = [
     "Potential",
@@ -57,17 +64,31 @@ def _require(name: str, value, positive: bool = False, model: str = "") -> None:
 
 
 def model_keys() -> dict[str, tuple[str, ...]]:
-    """Model name -> the ``[atom]`` keys that only that model reads."""
-    return {name: tuple(cls.input_keys) for name, cls in POTENTIALS.items()}
+    """Model name -> the ``[atom]`` keys that only that model reads (its parameters,
+    ``ionization_potential`` if its softening is fittable, ``centre`` if it has centres)."""
+    return {name: cls.own_keys() for name, cls in POTENTIALS.items()}
 
 
 class Potential:
     """Base class of model potentials (see the module docstring for the contract)."""
 
     name = "?"
+    #: whether the softening may be fitted to atom.ionization_potential
     fittable = False
-    #: keys of the [atom] table this model reads, beyond those every model has
-    input_keys: tuple[str, ...] = ()
+    #: whether the model reads [[atom.centre]] tables
+    centres_table = False
+    #: keys of the [atom] table this model owns, beyond those every model has
+    parameters: tuple[Parameter, ...] = ()
+
+    @classmethod
+    def own_keys(cls) -> tuple[str, ...]:
+        """The ``[atom]`` keys this model reads and other models do not."""
+        keys = tuple(p.name for p in cls.parameters)
+        if cls.fittable:
+            keys += ("ionization_potential",)
+        if cls.centres_table:
+            keys += ("centre",)
+        return keys
 
     def value(self, x: np.ndarray) -> np.ndarray:  # pragma: no cover - abstract
         raise NotImplementedError
@@ -112,7 +133,14 @@ class SoftCore(Potential):
 
     centres: tuple[Centre, ...]
     fittable = True
-    input_keys = ("charge", "softening", "ionization_potential", "centre")
+    centres_table = True
+    # ranges outside which no grid represents the model (the numbers overflow or the
+    # core is far below any spacing): generous, not physical limits
+    parameters = (
+        Parameter("charge", "float", 1.0, "nuclear charge Z (a.u.)", minimum=0.0, maximum=100.0),
+        Parameter("softening", "quantity", None, "softening a (bohr)", dimension="length",
+                  minimum=1e-3, strict=False, maximum=1e3),
+    )
 
     def __post_init__(self):
         if not self.centres or not all(isinstance(c, Centre) for c in self.centres):
@@ -159,7 +187,7 @@ class PoschlTeller(Potential):
     """
 
     depth_parameter: float
-    input_keys = ("depth_parameter",)
+    parameters = (Parameter("depth_parameter", "float", 2.0, "Poschl-Teller l (dimensionless)", minimum=0.0),)
 
     def __post_init__(self):
         _require("depth_parameter", self.depth_parameter, positive=True, model="Poschl-Teller")
@@ -191,7 +219,7 @@ class HarmonicOscillator(Potential):
     """Harmonic oscillator V(x) = w^2 x^2 / 2, levels (n + 1/2) w. For validation."""
 
     frequency: float
-    input_keys = ("trap_frequency",)
+    parameters = (Parameter("trap_frequency", "float", 1.0, "harmonic-oscillator frequency w (a.u.)", minimum=0.0),)
 
     def __post_init__(self):
         _require("frequency", self.frequency, positive=True, model="harmonic oscillator")

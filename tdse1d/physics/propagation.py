@@ -36,7 +36,6 @@ point-wise work is done by the fused kernels of :mod:`tdse1d.physics.kernels`.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
 
@@ -44,6 +43,7 @@ from . import kernels
 from ..errors import NumericalError
 from .fft import InPlaceFFT
 from .grid import Grid
+from .observables import Observables, measured_entries
 from ..registry import registrar
 
 __all__ = [
@@ -53,7 +53,7 @@ __all__ = [
     "Suzuki4",
     "SCHEMES",
     "register_scheme",
-    "scheme_for_order",
+    "DEFAULT_SCHEME_FOR_ORDER",
     "Propagator",
     "Observables",
     "NumericalError",
@@ -119,32 +119,9 @@ class Suzuki4(SplittingScheme):
 for _cls in SCHEMES.values():
     _cls.check()
 
-#: scheme used for each ``propagation.order``
+#: scheme used for each ``propagation.order`` when ``propagation.scheme`` is not given
+#: (inputs written before that key existed give the same results)
 DEFAULT_SCHEME_FOR_ORDER = {2: "strang", 4: "yoshida4"}
-
-
-def scheme_for_order(order: int) -> type[SplittingScheme]:
-    return SCHEMES[DEFAULT_SCHEME_FOR_ORDER[order]]
-
-
-@dataclass
-class Observables:
-    """Observables at every time step (arrays of length steps + 1), atomic units."""
-
-    time: np.ndarray
-    electric: np.ndarray
-    vector_potential: np.ndarray
-    norm: np.ndarray
-    dipole: np.ndarray
-    momentum: np.ndarray
-    acceleration: np.ndarray
-    initial_population: np.ndarray
-
-    @classmethod
-    def empty(cls, times, electric, vector_potential):
-        n = len(times)
-        nan = lambda: np.full(n, np.nan)  # noqa: E731
-        return cls(times, electric, vector_potential, nan(), nan(), nan(), nan(), nan())
 
 
 class Propagator:
@@ -269,6 +246,8 @@ class Propagator:
         e_t = field.electric(times) if field.pulses else np.zeros(len(times))
         a_t = field.vector_potential(times) if field.pulses else np.zeros(len(times))
         self.observables = Observables.empty(times, np.asarray(e_t, float), np.asarray(a_t, float))
+        # per-step observables measured by a callable rather than by the kernels
+        self._measured = measured_entries()
         self.step_index = 0
         self._pending_momentum = 0.0  # <k> of the first kinetic sub-step, for <p>(t_n)
 
@@ -295,6 +274,7 @@ class Propagator:
         self.psi[:] = psi0
         self.step_index = step_index
         self._record_position(step_index, *self._position_moments(step_index))
+        self._record_measured(step_index)
         if self.surface_flux is not None and step_index == 0:
             self.surface_flux.add(self._v_psi, 0, float(self.observables.vector_potential[0]),
                                   0.5 * self.time_step, advance=False)
@@ -336,6 +316,10 @@ class Propagator:
         obs.acceleration[n] = -s2 * dx - obs.electric[n] * s0 * dx
         obs.initial_population[n] = abs(ov * dx) ** 2
         self._force = s2 * dx  # <V'>_n, for the momentum of step n
+
+    def _record_measured(self, n):
+        for entry in self._measured:
+            getattr(self.observables, entry.name)[n] = entry.measure(self)
 
     # ------------------------------------------------------------------- loop
     def advance(self, count: int) -> int:
@@ -394,6 +378,8 @@ class Propagator:
             self._record_momentum(n)
             self.step_index = n + 1
             self._record_position(n + 1, s0, s1, s2, complex(ovr, ovi))
+            if self._measured:
+                self._record_measured(n + 1)
             if not (obs.norm[n + 1] <= obs.norm[n] * (1 + 1e-9) + 1e-12):
                 what = "non-finite values in the wavefunction" if not np.isfinite(obs.norm[n + 1]) else (
                     f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")

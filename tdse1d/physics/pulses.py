@@ -24,7 +24,10 @@ input key ``envelope``. Contract for an implementer of :class:`Envelope`:
 * ``half_extent``: the envelope is exactly zero for |tau| >= half_extent (a.u.);
 * ``value(tau)`` and ``derivative(tau)`` are the field envelope f and df/dtau,
   analytic, for arrays of tau, with f(0) = 1 and f = 0 outside the support;
-* ``from_config(laser, omega)`` builds it from a validated ``[[laser]]`` table.
+* ``from_config(laser, omega)`` builds it from a validated ``[[laser]]`` table;
+* ``own_keys`` names the ``[[laser]]`` keys only this envelope reads (the input reader
+  refuses them with another envelope, naming this one), and ``check(laser)`` returns
+  ``(message, key)`` for a combination of keys the envelope cannot take, or None.
 """
 
 from __future__ import annotations
@@ -61,6 +64,13 @@ class Envelope:
 
     name = "?"
     half_extent: float
+    #: [[laser]] keys only this envelope reads
+    own_keys: tuple[str, ...] = ()
+
+    @classmethod
+    def check(cls, laser):
+        """``(message, key)`` if the validated ``laser`` table does not suit this envelope, else None."""
+        return None
 
     def value(self, tau):  # pragma: no cover - abstract
         raise NotImplementedError
@@ -165,6 +175,16 @@ class FlatTop(Envelope):
 
     total_length: float
     ramp: float
+    own_keys = ("ramp_cycles",)
+
+    @classmethod
+    def check(cls, laser):
+        if laser.cycles is None:
+            return "a flat-top pulse is given by 'cycles' (total length)", "cycles"
+        if 2 * laser.ramp_cycles > laser.cycles:
+            return (f"two ramps of {laser.ramp_cycles:g} cycles do not fit in {laser.cycles:g} cycles",
+                    "ramp_cycles")
+        return None
 
     @property
     def half_extent(self):

@@ -6,8 +6,9 @@ holding
 
 * the wavefunction in the propagation gauge and the step index it belongs to;
 * the index of the next analysis event (population or snapshot step) to handle;
-* every per-step observable recorded so far (norm, dipole, momentum, acceleration,
-  initial-state population) and the bound-state populations projected so far;
+* every per-step observable recorded so far (the entries of
+  :data:`tdse1d.physics.observables.PER_STEP_OBSERVABLES`) and the bound-state
+  populations projected so far;
 * the surface-flux accumulator (photoelectron amplitudes through each surface, Volkov
   phases, step);
 * the snapshots written so far (as stored, i.e. with the output's snapshot stride);
@@ -37,6 +38,7 @@ import numpy as np
 
 from .. import __version__
 from ..input.spec import InputError
+from ..physics.observables import per_step_names
 
 __all__ = [
     "CHECKPOINT_SUFFIX",
@@ -50,7 +52,6 @@ __all__ = [
 CHECKPOINT_SUFFIX = ".checkpoint"
 _FORMAT = "tdse1d-checkpoint"
 _FORMAT_VERSION = 2  # 2: surface-flux accumulator replaces the mask one
-_OBSERVABLES = ("norm", "dipole", "momentum", "acceleration", "initial_population")
 
 
 def checkpoint_path(output) -> Path:
@@ -105,7 +106,7 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
         f.attrs["written_unix_time"] = time.time()
         f.create_dataset("psi", data=state.psi)
         obs = f.create_group("observables")
-        for name in _OBSERVABLES:
+        for name in per_step_names():
             obs.create_dataset(name, data=state.observables[name])
         f.create_dataset("bound_population", data=state.bound_population)
         if state.surface_flux is not None:
@@ -165,13 +166,17 @@ def read_checkpoint(path, digest: str | None = None):
                 f"{f.attrs['input_hash'][:12]}..., this input {digest[:12]}...); remove it or run without --resume",
                 "--resume",
             )
+        missing = [name for name in per_step_names() if name not in f["observables"]]
+        if missing:
+            raise InputError(f"the checkpoint {str(path)!r} holds no per-step {', '.join(missing)} (written by a "
+                             "tdse1d recording other observables); run without --resume", "--resume")
         flux = {k: v[()] for k, v in f["surface_flux"].items()} if "surface_flux" in f else None
         state = RunState(
             step_index=int(f.attrs["step_index"]),
             next_event=int(f.attrs["next_event"]),
             snapshots_done=int(f.attrs["snapshots_done"]),
             psi=f["psi"][()],
-            observables={name: f["observables"][name][()] for name in _OBSERVABLES},
+            observables={name: f["observables"][name][()] for name in per_step_names()},
             bound_population=f["bound_population"][()],
             surface_flux=flux,
         )

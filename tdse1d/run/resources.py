@@ -122,13 +122,13 @@ def estimate_resources(problem) -> ResourceEstimate:
     ResourceEstimate
     """
     from ..semiclassical.three_step import _BLOCK_ELEMENTS, BIRTHS_PER_CYCLE
-    from ..physics.propagation import scheme_for_order
+    from ..physics.propagation import SCHEMES
 
     cfg = problem.config
     steps = int(problem.time.steps)
     samples = steps + 1
     points = int(problem.grid.points)
-    sub_steps = len(scheme_for_order(cfg.propagation.order).weights)
+    sub_steps = len(SCHEMES[cfg.propagation.scheme_name].weights)
     flux = cfg.spectra.photoelectrons == "surface_flux" and bool(problem.field.pulses)
     states = len(problem.states)
     n_snap = min(int(cfg.output.snapshots), samples)

@@ -30,7 +30,7 @@ from . import health as _health
 from .. import spectra
 from ..spectra import surface_flux as _flux
 from ..physics.absorbers import ABSORBERS
-from ..physics.propagation import Observables, Propagator, scheme_for_order
+from ..physics.propagation import SCHEMES, Observables, Propagator
 from ..input.problem import Problem
 from ..physics.ionization import ionization as _ionization
 from ..physics.states import initial_wavefunction
@@ -95,8 +95,8 @@ class RunState:
     psi : ndarray of complex
         Wavefunction in the propagation gauge at ``step_index``.
     observables : dict of str to ndarray
-        Per-step norm, dipole, momentum, acceleration, initial_population (NaN beyond
-        what was recorded).
+        Every per-step observable of :data:`tdse1d.physics.observables.PER_STEP_OBSERVABLES`
+        by name (NaN beyond what was recorded).
     bound_population : ndarray, shape (m, n_states)
         Populations projected so far (zero rows for later events).
     surface_flux : dict or None
@@ -156,9 +156,6 @@ class RunControl:
 
     def checkpoint_written(self):
         self._last = self.clock()
-
-
-_OBSERVABLE_NAMES = ("norm", "dipole", "momentum", "acceleration", "initial_population")
 
 
 def snapshot_steps(problem: Problem) -> np.ndarray:
@@ -243,7 +240,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     prop = Propagator(
         grid, problem.potential, problem.field, times,
         gauge=cfg.propagation.gauge,
-        scheme=scheme_for_order(cfg.propagation.order),
+        scheme=SCHEMES[cfg.propagation.scheme_name],
         absorber_factor=mask,
         reference=psi0,
         fft_effort=fft_effort,
@@ -274,7 +271,9 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
                              f"this run {bound.shape}")
         prop.start(resume.psi, resume.step_index)
         # the recorded history replaces what start() measured at the resumed step
-        for name in _OBSERVABLE_NAMES:
+        for name in prop.observables.names:
+            if name not in resume.observables:
+                raise ValueError(f"the state to resume holds no per-step {name!r}")
             getattr(prop.observables, name)[:] = resume.observables[name]
         bound[:] = resume.bound_population
         if flux is not None:
@@ -288,7 +287,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         return RunState(
             step_index=prop.step_index, next_event=next_event, snapshots_done=snapshots_done,
             psi=prop.psi.copy(),
-            observables={name: getattr(prop.observables, name).copy() for name in _OBSERVABLE_NAMES},
+            observables=prop.observables.as_dict(),
             bound_population=bound.copy(),
             surface_flux=flux.state() if flux is not None else None,
         )

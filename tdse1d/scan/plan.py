@@ -104,6 +104,14 @@ def key_spec(key: str):
         cls, rest = CentreConfig, rest[1:]
     if len(rest) != 1:
         return None
+    if cls is AtomConfig:  # a model's own parameter, declared by its potential
+        from ..input.spec import parameter_spec
+        from ..physics.potentials import POTENTIALS
+
+        for model in POTENTIALS.values():
+            for p in model.parameters:
+                if p.name == rest[0]:
+                    return parameter_spec(p)
     for f in dataclasses.fields(cls):
         if f.name == rest[0] and "spec" in f.metadata:
             return f.metadata["spec"]
