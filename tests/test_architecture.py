@@ -28,13 +28,13 @@ LAYERS = (
     # the result file's layout, readers and writers; below run because the checkpoint
     # of a run is written through the same guarded HDF5 file
     ("io", ("tdse1d.io",)),
-    ("run", ("tdse1d.run",)),
+    ("run", ("tdse1d.runs",)),
     # the library functions of one input (run, find_states, estimate); below scan and
     # validate, which run their points and cases through it
     ("api", ("tdse1d.api.single_run",)),
-    ("scan", ("tdse1d.scan",)),
+    ("scan", ("tdse1d.scans",)),
     ("plots", ("tdse1d.plots",)),
-    ("validate", ("tdse1d.validate",)),
+    ("validate", ("tdse1d.validation",)),
     # the rest of the library the commands call (report, plot, export, scan, compare,
     # validate) and the package tdse1d.api that names them all
     ("library", ("tdse1d.api",)),
@@ -175,12 +175,12 @@ def test_every_package_is_shipped():
 
 @pytest.mark.parametrize("module, source", [
     # physics reaching up into the run layer, at module level and inside a function
-    ("tdse1d.physics.grid", "from ..run.runner import simulate\n"),
+    ("tdse1d.physics.grid", "from ..runs.runner import simulate\n"),
     ("tdse1d.physics.grid", "def f():\n    from tdse1d.io import result_file\n"),
     # spectra importing the package api (the facade above everything)
     ("tdse1d.spectra.harmonic", "from .. import api\n"),
     # the scan reaching up into the library functions on result files
-    ("tdse1d.scan.worker", "from ..api import results\n"),
+    ("tdse1d.scans.worker", "from ..api import results\n"),
     # analysis importing a writer of files
     ("tdse1d.analysis.report", "import tdse1d.io.result_file\n"),
     # the core importing a file library, lazily
@@ -195,7 +195,7 @@ def test_the_checker_flags_a_planted_bad_import(module, source):
 
 @pytest.mark.parametrize("module, source", [
     ("tdse1d.physics.grid", "from .. import units\nfrom ..registry import registrar\nimport numpy\n"),
-    ("tdse1d.scan.worker", "from ..api import single_run as api\n"),
+    ("tdse1d.scans.worker", "from ..api import single_run as api\n"),
     ("tdse1d.cli.run", "def f():\n    from .. import api\n    from ..io import result_file\n    import h5py\n"),
     ("tdse1d.io.result_file", "import h5py\nfrom ..physics import grid\nfrom .. import __version__\n"),
 ])

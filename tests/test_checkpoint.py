@@ -18,11 +18,11 @@ import numpy as np
 import pytest
 
 from tdse1d import api
-from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
+from tdse1d.runs.checkpoint import checkpoint_path, read_checkpoint
 from tdse1d.input.spec import InputError
 from tdse1d.input.schema import load_input
 from tdse1d.input.problem import build_problem
-from tdse1d.run.runner import RunControl, RunInterrupted
+from tdse1d.runs.runner import RunControl, RunInterrupted
 from tdse1d.io.result_file import is_complete
 
 SMALL = """

@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 
-from tdse1d.scan.compare import MeasuredSpectrum, compare_spectra
+from tdse1d.scans.compare import MeasuredSpectrum, compare_spectra
 
 
 def _spectrum(energy_ev, cutoff_ev, background):

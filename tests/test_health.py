@@ -10,7 +10,7 @@ from tdse1d.cli import program as cli
 from tdse1d.input.schema import load_input
 from tdse1d.input.problem import build_problem
 from tdse1d.physics.propagation import NumericalError
-from tdse1d.run.runner import simulate
+from tdse1d.runs.runner import simulate
 
 BASE = """
 [atom]

@@ -10,7 +10,7 @@ from tdse1d.physics.grid import Grid
 from tdse1d.physics.ionization import _parity, ionization
 from tdse1d.physics.potentials import Centre, SoftCore
 from tdse1d.input.problem import build_problem
-from tdse1d.run.runner import simulate
+from tdse1d.runs.runner import simulate
 from tdse1d.physics.states import bound_states
 
 SQRT2 = 2**0.5

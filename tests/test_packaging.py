@@ -11,8 +11,8 @@ from pathlib import Path
 import pytest
 
 from tdse1d.cli import program as cli
-from tdse1d import validate
-from tdse1d.validate import cases
+from tdse1d import validation as validate
+from tdse1d.validation import cases
 from tdse1d.input.spec import tomllib
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -61,7 +61,7 @@ def test_installed_layout_finds_the_cases(tmp_path):
     shutil.copytree(ROOT / "tdse1d", site / "tdse1d", ignore=shutil.ignore_patterns("__pycache__"))
     shutil.copytree(ROOT / "validation", site / "tdse1d" / validate.PACKAGED_CASES,
                     ignore=shutil.ignore_patterns("benchmarks", "__pycache__"))
-    code = ("import sys; from tdse1d import validate; d = validate.default_cases_dir(); "
+    code = ("import sys; from tdse1d import validation as validate; d = validate.default_cases_dir(); "
             "print(d); print(' '.join(c.name for c in validate.discover()))")
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=tmp_path,
                           env={"PYTHONPATH": str(site), "PATH": "/usr/bin:/bin"})

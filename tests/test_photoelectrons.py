@@ -410,7 +410,7 @@ def test_tabulated_field_of_non_zero_area_gives_gauge_independent_spectra(tmp_pa
 def test_checkpoint_of_the_mask_accumulator_is_refused(tmp_path):
     # a checkpoint written before the surface flux method holds a mask accumulator,
     # which cannot continue a surface-flux run: one clear message, no traceback
-    from tdse1d.run.checkpoint import read_checkpoint
+    from tdse1d.runs.checkpoint import read_checkpoint
 
     path = tmp_path / "old.h5.checkpoint"
     with h5py.File(path, "w") as f:

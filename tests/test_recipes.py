@@ -19,7 +19,7 @@ from tdse1d.physics.potentials import POTENTIALS, HarmonicOscillator, Potential,
 from tdse1d.physics.propagation import SCHEMES, Propagator, SplittingScheme, register_scheme
 from tdse1d.physics.pulses import Field
 from tdse1d.registry import Parameter
-from tdse1d.run.runner import simulate
+from tdse1d.runs.runner import simulate
 
 from test_propagate import atom, observed_order  # noqa: F401  (atom is a fixture)
 

@@ -14,7 +14,7 @@ from tdse1d.input.problem import build_problem
 from tdse1d.input.schema import parse_input
 from tdse1d.input.spec import InputError, tomllib
 from tdse1d.physics.propagation import SCHEMES
-from tdse1d.run.runner import simulate
+from tdse1d.runs.runner import simulate
 
 TINY = """
 [atom]

@@ -1,4 +1,4 @@
-"""The memory and disk estimate of a run (tdse1d.run.resources): it bounds what a run really
+"""The memory and disk estimate of a run (tdse1d.runs.resources): it bounds what a run really
 allocates, and a run that needs more than the machine has is refused before it starts."""
 
 import json
@@ -8,7 +8,7 @@ import pytest
 
 from tdse1d import api
 from tdse1d.cli import program as cli
-from tdse1d.run import resources
+from tdse1d.runs import resources
 from tdse1d.input.spec import InputError
 from tdse1d.input.schema import load_input
 from tdse1d.input.problem import build_problem

@@ -21,10 +21,10 @@ import h5py
 import pytest
 
 from tdse1d.cli import program as cli
-from tdse1d.scan.directory import ScanDirectory, result_matches
-from tdse1d.scan.execute import open_local_client, run_one, run_scan
-from tdse1d.scan.plan import load_plan
-from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
+from tdse1d.scans.directory import ScanDirectory, result_matches
+from tdse1d.scans.execute import open_local_client, run_one, run_scan
+from tdse1d.scans.plan import load_plan
+from tdse1d.runs.checkpoint import checkpoint_path, read_checkpoint
 from tdse1d.io.result_file import is_complete
 from tdse1d.io.guarded_file import lock_path
 
@@ -277,7 +277,7 @@ def _holder_process(code: str):
 def test_second_scan_of_a_directory_is_refused_naming_the_first(tmp_path, capsys):
     plan_path = _plan(tmp_path)
     out = tmp_path / "out"
-    holder = _holder_process(f"import sys\nfrom tdse1d.scan.directory import ScanDirectory\nlock = ScanDirectory({str(out)!r}).lock()")
+    holder = _holder_process(f"import sys\nfrom tdse1d.scans.directory import ScanDirectory\nlock = ScanDirectory({str(out)!r}).lock()")
     try:
         assert cli.main(["scan", str(plan_path), "-o", str(out), "--quiet", "--workers", "1"]) == 1
         err = capsys.readouterr().err
@@ -331,7 +331,7 @@ def test_full_disk_while_writing_the_summary_keeps_the_earlier_one(tmp_path, mon
     import errno
 
     from tdse1d.io import guarded_file
-    from tdse1d.scan.summary import write_summary
+    from tdse1d.scans.summary import write_summary
 
     plan = load_plan(_plan(tmp_path))
     out = tmp_path / "out"

@@ -22,11 +22,11 @@ from scipy.integrate import quad
 from scipy.optimize import brentq
 
 from tdse1d import cli
-from tdse1d.scan import focal
-from tdse1d.scan.directory import PlanMismatch, ScanDirectory, result_matches
-from tdse1d.scan.execute import ScanReport, _prepare, run_one, run_scan
-from tdse1d.scan.plan import input_hash, load_plan
-from tdse1d.scan.compare import MeasuredSpectrum, compare_spectra, read_spectrum_csv
+from tdse1d.scans import focal
+from tdse1d.scans.directory import PlanMismatch, ScanDirectory, result_matches
+from tdse1d.scans.execute import ScanReport, _prepare, run_one, run_scan
+from tdse1d.scans.plan import input_hash, load_plan
+from tdse1d.scans.compare import MeasuredSpectrum, compare_spectra, read_spectrum_csv
 
 BASE = """
 [atom]
@@ -71,7 +71,7 @@ def local_scan(tmp_path_factory):
     plan = load_plan(plan_path)
     report = run_scan(plan, root / "out", workers=2, progress=False)
     assert report.ok, report.failed
-    from tdse1d.scan.summary import write_summary
+    from tdse1d.scans.summary import write_summary
 
     write_summary(plan, root / "out")
     return plan, root / "out", report

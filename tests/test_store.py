@@ -159,7 +159,7 @@ def test_a_file_missing_a_dataset_is_not_marked_complete(problem, tmp_path):
     out = tmp_path / "c.h5"
     with pytest.raises(OutputError, match="observables/norm missing"):
         with ResultWriter(out, problem, ()) as w:
-            from tdse1d.run.runner import simulate
+            from tdse1d.runs.runner import simulate
 
             w.write_result(simulate(problem))
             del w.file["observables/norm"]
@@ -171,7 +171,7 @@ def test_a_file_written_over_by_another_writer_is_not_marked_complete(problem, t
     out = tmp_path / "o.h5"
     with pytest.raises(OutputError, match="another writer"):
         with ResultWriter(out, problem, ()) as w:
-            from tdse1d.run.runner import simulate
+            from tdse1d.runs.runner import simulate
 
             w.write_result(simulate(problem))
             w.file.attrs["writer"] = "someone else"
@@ -273,8 +273,8 @@ def test_full_disk_keeps_the_earlier_result(problem, tmp_path, monkeypatch, when
 
 
 def test_full_disk_while_writing_a_checkpoint_keeps_the_previous_one(problem, tmp_path, monkeypatch):
-    from tdse1d.run.checkpoint import checkpoint_path, read_checkpoint
-    from tdse1d.run.runner import RunControl, RunInterrupted
+    from tdse1d.runs.checkpoint import checkpoint_path, read_checkpoint
+    from tdse1d.runs.runner import RunControl, RunInterrupted
 
     out = tmp_path / "cp.h5"
     control = RunControl()
@@ -339,7 +339,7 @@ def small_tmpfs(tmp_path):
 def test_really_full_disk_is_one_line_and_no_crash(small_tmpfs, tmp_path):
     """The HDF5 library crashed at exit after a failed write (exit status 139).
 
-    The disk estimate made before a run (tdse1d.run.resources) passes: the disk is filled
+    The disk estimate made before a run (tdse1d.runs.resources) passes: the disk is filled
     while the run is held at its first chunk (the test handshake, docs/checkpoints.md),
     so that the failure comes in the middle of writing, as on a shared disk."""
     inp = _input(tmp_path / "i", extra="")

@@ -4,7 +4,7 @@ report that names, per case, the reference, its source and the comparison."""
 import re
 
 from tdse1d.cli import program as cli
-from tdse1d import validate
+from tdse1d import validation as validate
 
 
 def test_quick_validation_passes(tmp_path, capsys):

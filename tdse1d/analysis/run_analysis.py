@@ -217,7 +217,7 @@ def analyse_run(problem, result) -> RunAnalysis:
     Parameters
     ----------
     problem : tdse1d.input.problem.Problem
-    result : tdse1d.run.runner.RunResult
+    result : tdse1d.runs.runner.RunResult
 
     Returns
     -------

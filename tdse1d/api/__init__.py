@@ -16,7 +16,7 @@ command                function                    returns
 ``tdse1d plot``        :func:`plot`                :class:`~.figures.Figures`
 ``tdse1d export``      :func:`export`              :class:`~.results.Table`
 ``tdse1d scan``        :func:`scan`                :class:`~.campaigns.ScanOutcome`
-``tdse1d compare``     :func:`compare`             :class:`~tdse1d.scan.compare.Comparison`
+``tdse1d compare``     :func:`compare`             :class:`~tdse1d.scans.compare.Comparison`
 ``tdse1d validate``    :func:`validate`            :class:`~.campaigns.ValidationReport`
 =====================  ==========================  ===========================================
 

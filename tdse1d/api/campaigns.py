@@ -3,7 +3,7 @@ scan and its summary), :func:`compare` (a computed harmonic spectrum beside a me
 one) and :func:`validate` (the validation suite). The commands ``tdse1d scan``,
 ``tdse1d compare`` and ``tdse1d validate`` parse their arguments, call one of these,
 and render what it returns. Signals are the command's business: a caller that wants a
-checkpoint on SIGTERM installs the handlers (:mod:`tdse1d.scan.worker`) around the call.
+checkpoint on SIGTERM installs the handlers (:mod:`tdse1d.scans.worker`) around the call.
 """
 
 from __future__ import annotations
@@ -28,7 +28,7 @@ __all__ = ["scan", "compare", "validate", "ScanOutcome", "ValidationReport"]
 class ScanOutcome:
     """What :func:`scan` did in a scan directory.
 
-    ``execution`` is the :class:`tdse1d.scan.execute.ScanReport` of the points run (None
+    ``execution`` is the :class:`tdse1d.scans.execute.ScanReport` of the points run (None
     when only gathered or listed); ``summary`` the written summary (None for a single
     point or a listing); ``missing`` the indices of points without a result;
     ``states`` the state of every point (listing only).
@@ -49,7 +49,7 @@ class ScanOutcome:
 
     def result(self, index: int) -> Path:
         """Result file of point ``index``."""
-        from ..scan.directory import ScanDirectory
+        from ..scans.directory import ScanDirectory
 
         return ScanDirectory(self.directory).result(self.plan.points[index])
 
@@ -102,13 +102,13 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
 
     Raises
     ------
-    tdse1d.scan.directory.PlanMismatch
+    tdse1d.scans.directory.PlanMismatch
         The directory holds another plan's points.
-    tdse1d.scan.execute.SchedulerUnreachable
+    tdse1d.scans.execute.SchedulerUnreachable
         The scheduler did not answer within ``timeout``; nothing was run.
     """
-    from ..scan.directory import ScanDirectory
-    from ..scan.plan import ScanPlan, load_plan
+    from ..scans.directory import ScanDirectory
+    from ..scans.plan import ScanPlan, load_plan
 
     source = plan.source if isinstance(plan, ScanPlan) else str(plan)
     if not isinstance(plan, ScanPlan):
@@ -123,7 +123,7 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
         return ScanOutcome(plan, root, "list", states={p.index: directory.state(p) for p in plan.points})
     execution = summary = None
     if point is not None:
-        from ..scan.execute import run_one
+        from ..scans.execute import run_one
 
         if fresh:
             raise InputError("--fresh with --point would delete the points of the other array tasks; "
@@ -134,10 +134,10 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
             raise InputError(str(exc), "--point", source) from None
         mode = "point"
     else:
-        from ..scan.summary import write_summary
+        from ..scans.summary import write_summary
 
         if not gather:
-            from ..scan.execute import run_scan
+            from ..scans.execute import run_scan
 
             execution = run_scan(plan, directory.root, scheduler=scheduler, timeout=timeout, workers=workers,
                                  dashboard=dashboard, fresh=fresh, retry_failed=retry_failed, progress=progress,
@@ -155,7 +155,7 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
 
 # ------------------------------------------------------------------------ compare
 
-#: what tdse1d.scan.compare.computed_spectrum reads, by kind of file
+#: what tdse1d.scans.compare.computed_spectrum reads, by kind of file
 COMPARE_NEEDS = {
     "run": ("estimates", "spectra/harmonic/frequency", "spectra/harmonic/power"),
     "scan-summary": ("spectra/photon_energy_eV", "spectra/power", "estimates/photon_energy_eV",
@@ -189,12 +189,12 @@ def compare(computed, measured, *, x_unit: str | None = None, response=None, res
 
     Returns
     -------
-    tdse1d.scan.compare.Comparison
+    tdse1d.scans.compare.Comparison
         The two spectra normalised on the measured range and their cutoffs (eV), with
         the computed spectrum's ``label`` and the ``plot`` file written (or None).
     """
     from ..io.checked_open import check_result
-    from ..scan import compare as spectra
+    from ..scans import compare as spectra
 
     check_result(computed, kinds=("run", "scan-summary"), needs=COMPARE_NEEDS)
     try:
@@ -221,7 +221,7 @@ def compare(computed, measured, *, x_unit: str | None = None, response=None, res
 @dataclass(frozen=True)
 class ValidationReport:
     """The validation cases run by :func:`validate`: their reports
-    (:class:`tdse1d.validate.CaseReport`), the report file written, and its header."""
+    (:class:`tdse1d.validation.CaseReport`), the report file written, and its header."""
 
     reports: list = field(repr=False)
     path: Path
@@ -276,7 +276,7 @@ def validate(output="validation-report", *, cases=None, quick: bool = False, onl
         Each case's rows (quantity, reference, computed, tolerance, source), the
         report's path, and the wall time (s).
     """
-    from .. import __version__, validate as suite
+    from .. import __version__, validation as suite
 
     load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
     found = suite.discover(cases, quick=quick, names=set(only) or None)

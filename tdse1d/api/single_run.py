@@ -64,7 +64,7 @@ class StatesResult:
 @dataclass(frozen=True)
 class EstimateResult:
     """Semiclassical estimates of an input's pulses, the advised grid, and the memory and
-    disk the run as given needs (:class:`tdse1d.run.resources.ResourceEstimate`, bytes)."""
+    disk the run as given needs (:class:`tdse1d.runs.resources.ResourceEstimate`, bytes)."""
 
     problem: Problem
     resources: object = None
@@ -141,7 +141,7 @@ def estimate(config: RunConfig | str, resources: bool = True) -> EstimateResult:
     problem = build_problem(config, with_states=False)
     if not resources:
         return EstimateResult(problem)
-    from ..run.resources import estimate_resources
+    from ..runs.resources import estimate_resources
 
     return EstimateResult(problem, estimate_resources(problem))
 
@@ -244,10 +244,10 @@ def run(config: RunConfig | Problem | str, output=None, progress=None, overrides
     progress : callable, optional
         ``progress(step, steps)``.
     resume : bool
-        Continue from the checkpoint ``OUTPUT.checkpoint`` (see :mod:`tdse1d.run.checkpoint`)
+        Continue from the checkpoint ``OUTPUT.checkpoint`` (see :mod:`tdse1d.runs.checkpoint`)
         if there is one (a run from the start otherwise); a checkpoint of a different
         input raises InputError.
-    control : tdse1d.run.runner.RunControl, optional
+    control : tdse1d.runs.runner.RunControl, optional
         Checkpoint cadence and stop requests; by default the input's
         ``output.checkpoint_interval`` (if any) sets the cadence.
     strict : bool
@@ -256,12 +256,12 @@ def run(config: RunConfig | Problem | str, output=None, progress=None, overrides
     Returns
     -------
     RunOutcome
-        The result file's path, the problem and the :class:`~tdse1d.run.runner.RunResult`
+        The result file's path, the problem and the :class:`~tdse1d.runs.runner.RunResult`
         (ionization probability, cutoff, observables; atomic units).
 
     Raises
     ------
-    tdse1d.run.runner.RunInterrupted
+    tdse1d.runs.runner.RunInterrupted
         When ``control`` asked to stop; the checkpoint is written, the partial file removed.
     """
     if isinstance(config, Problem):
@@ -272,9 +272,9 @@ def run(config: RunConfig | Problem | str, output=None, progress=None, overrides
 
 
 def default_control(config: RunConfig):
-    """A :class:`~tdse1d.run.runner.RunControl` with the input's checkpoint interval (in s)."""
+    """A :class:`~tdse1d.runs.runner.RunControl` with the input's checkpoint interval (in s)."""
     from .. import units
-    from ..run.runner import RunControl
+    from ..runs.runner import RunControl
 
     interval = config.output.checkpoint_interval
     return RunControl(None if interval is None else interval * units.AU_TIME_S)
@@ -283,11 +283,11 @@ def default_control(config: RunConfig):
 def run_problem(problem: Problem, output=None, progress=None, resume=False, control=None,
                 strict=False) -> RunOutcome:
     """:func:`run` for an already assembled :class:`~tdse1d.input.problem.Problem`."""
-    from ..run.checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
+    from ..runs.checkpoint import CheckpointSink, checkpoint_path, input_hash, read_checkpoint
     from ..physics.propagation import NumericalError
     from ..input.problem import check_absorber
-    from ..run.resources import check_resources
-    from ..run.runner import simulate, snapshot_steps
+    from ..runs.resources import check_resources
+    from ..runs.runner import simulate, snapshot_steps
     from ..io.result_file import ResultWriter
 
     if strict and problem.warnings:

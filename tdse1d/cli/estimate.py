@@ -35,8 +35,8 @@ def _rows(p):
 
 
 def _resource_rows(est):
-    """Rows of the memory and disk estimate (:mod:`tdse1d.run.resources`) of the run as given."""
-    from ..run.resources import MEMORY_SHARE, available_memory, format_bytes
+    """Rows of the memory and disk estimate (:mod:`tdse1d.runs.resources`) of the run as given."""
+    from ..runs.resources import MEMORY_SHARE, available_memory, format_bytes
 
     memory = available_memory()
     rows = [("time steps", f"{est.steps}", f"{est.points} grid points, {est.snapshots} snapshots")]

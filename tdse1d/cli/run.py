@@ -1,7 +1,7 @@
 """``tdse1d run INPUT``: the full quantum run, written to HDF5.
 
 Checkpoints: with ``output.checkpoint_interval`` the run writes ``RESULT.h5.checkpoint``
-beside its result at that wall-clock cadence (see :mod:`tdse1d.run.checkpoint`). SIGTERM
+beside its result at that wall-clock cadence (see :mod:`tdse1d.runs.checkpoint`). SIGTERM
 and SIGINT write a checkpoint at once and exit with status 75 (:data:`EXIT_INTERRUPTED`,
 as EX_TEMPFAIL: try again); ``tdse1d run INPUT --resume`` continues from it.
 """
@@ -64,7 +64,7 @@ def main(args):
     started = time.time()
     from ..input.problem import build_problem
 
-    from ..run.runner import RunInterrupted
+    from ..runs.runner import RunInterrupted
 
     problem = build_problem(config)
     for w in problem.warnings:
@@ -78,7 +78,7 @@ def main(args):
                                       control=control, strict=args.strict)
     except RunInterrupted as exc:
         bar.close()
-        from ..run.checkpoint import checkpoint_path
+        from ..runs.checkpoint import checkpoint_path
 
         print(f"tdse1d: {exc}: {checkpoint_path(api.output_path(config, args.output))}; "
               "continue with --resume", file=sys.stderr)

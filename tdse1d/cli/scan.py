@@ -36,15 +36,15 @@ def add_arguments(parser):
 
 def main(args):
     from ..api.campaigns import scan
-    from ..scan.directory import PlanMismatch
-    from ..scan.execute import SchedulerUnreachable
+    from ..scans.directory import PlanMismatch
+    from ..scans.execute import SchedulerUnreachable
 
     say = (lambda *a: None) if args.quiet else (lambda *a: print(*a))
     options = dict(scheduler=args.scheduler, timeout=args.timeout, workers=args.workers, dashboard=args.dashboard,
                    fresh=args.fresh, retry_failed=args.retry_failed, progress=not args.quiet)
     try:
         if args.point is not None:
-            from ..scan.worker import install_stop_handlers, remove_stop_handlers
+            from ..scans.worker import install_stop_handlers, remove_stop_handlers
 
             # the run is in this (main) thread: SIGTERM/SIGINT stop it with a checkpoint
             install_stop_handlers(redeliver=False)

@@ -340,7 +340,7 @@ SUMMARY_LAYOUT: tuple[Entry, ...] = (
                                   "(tdse1d.semiclassical.tunnelling.tunnelling_yield)", "(points,)"),
     )),
     *_entries("photoelectron", ALWAYS, (
-        ("cutoff_energy_eV", "eV", "rough end of the last plateau (tdse1d.scan.summary.photoelectron_cutoff)",
+        ("cutoff_energy_eV", "eV", "rough end of the last plateau (tdse1d.scans.summary.photoelectron_cutoff)",
          "(points,)"),
         ("direct_edge_eV", "eV", "direct-electron edge read off by the run (spectra/photoelectron/edges), "
                                  "NaN if absent", "(points,)"),

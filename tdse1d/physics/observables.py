@@ -4,7 +4,7 @@
 t_n: its name (the attribute of :class:`Observables`, the key in a run's state and in
 a checkpoint), its unit (the unit names of the result file), a description, and how it
 is obtained. The propagator (:mod:`tdse1d.physics.propagation`), the runner's state and
-resume (:mod:`tdse1d.run.runner`), the checkpoint (:mod:`tdse1d.run.checkpoint`) and the
+resume (:mod:`tdse1d.runs.runner`), the checkpoint (:mod:`tdse1d.runs.checkpoint`) and the
 result-file table read this tuple; none keeps its own list.
 
 The first five are measured by the fused kernels of :mod:`tdse1d.physics.kernels`

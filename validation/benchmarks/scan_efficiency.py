@@ -8,7 +8,7 @@ Steps, each on the same ``LocalCluster`` of single-threaded worker processes:
 
 1. warm-up: one tiny run on every worker (imports, compiled kernels), not counted;
 2. single-point times t_k: each point run alone, one after the other, on the cluster;
-3. the scan: all points submitted at once, longest first, through :func:`tdse1d.scan.execute.run_scan`;
+3. the scan: all points submitted at once, longest first, through :func:`tdse1d.scans.execute.run_scan`;
    wall time W and the time s_k of each point inside the scan.
 
 Reported: parallel efficiency ``sum(t_k) / (workers x W)`` (target >= 0.9), the same with
@@ -70,10 +70,10 @@ def main(argv=None) -> int:
 
     from distributed import Client
 
-    from tdse1d.scan.directory import ScanDirectory
-    from tdse1d.scan.execute import _args, local_cluster, run_scan
-    from tdse1d.scan.plan import load_plan
-    from tdse1d.scan.worker import run_point
+    from tdse1d.scans.directory import ScanDirectory
+    from tdse1d.scans.execute import _args, local_cluster, run_scan
+    from tdse1d.scans.plan import load_plan
+    from tdse1d.scans.worker import run_point
 
     os.environ.setdefault("TDSE1D_NO_WISDOM", "1")  # all workers plan their FFTs alike
     with tempfile.TemporaryDirectory() as tmp:

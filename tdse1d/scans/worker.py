@@ -55,7 +55,7 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
 
     from ..api import single_run as api
     from ..errors import OutputBusy
-    from ..run.runner import RunInterrupted
+    from ..runs.runner import RunInterrupted
     from ..io.wisdom import fftw_wisdom
 
     output = Path(output)

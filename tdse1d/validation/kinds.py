@@ -1,8 +1,8 @@
-"""Case kinds: small classes registered in :data:`~tdse1d.validate.cases.CASE_KINDS`
+"""Case kinds: small classes registered in :data:`~tdse1d.validation.cases.CASE_KINDS`
 (contract in :class:`CaseKind`). Given the case, a kind runs what it needs and returns
-:class:`~tdse1d.validate.cases.Row` objects (quantity, reference and its source, computed
+:class:`~tdse1d.validation.cases.Row` objects (quantity, reference and its source, computed
 value, deviation, tolerance, pass or fail) and the figures it drew. The kinds that run a
-scan of inputs are in :mod:`tdse1d.validate.scan_kinds`.
+scan of inputs are in :mod:`tdse1d.validation.scan_kinds`.
 """
 
 from __future__ import annotations

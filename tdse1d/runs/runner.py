@@ -15,7 +15,7 @@ stop, raises :class:`RunInterrupted`. ``simulate(..., resume=state)`` continues 
 such a state; the steps and analysis events are the same as in an uninterrupted run,
 so the results agree to round-off.
 
-Numerical health (:mod:`tdse1d.run.health`) is checked at the population cadence.
+Numerical health (:mod:`tdse1d.runs.health`) is checked at the population cadence.
 """
 
 from __future__ import annotations
@@ -82,7 +82,7 @@ class RunResult:
 
 @dataclass
 class RunState:
-    """Everything needed to continue a run (see :mod:`tdse1d.run.checkpoint`).
+    """Everything needed to continue a run (see :mod:`tdse1d.runs.checkpoint`).
 
     Attributes
     ----------

@@ -1,6 +1,6 @@
 """``summary.h5`` of a scan: per-point spectra on one photon-energy grid, cutoffs, yields, fit.
 
-:func:`write_summary` reads the finished point files of a :class:`~tdse1d.scan.plan.ScanPlan`
+:func:`write_summary` reads the finished point files of a :class:`~tdse1d.scans.plan.ScanPlan`
 and writes ``SCAN_DIR/summary.h5`` (root attribute ``kind = "scan-summary"``); the
 layout is listed in ``docs/scans.md``. Points without a finished file are kept as rows
 of NaN with ``/points/complete`` False, so a partial scan can be looked at.
@@ -170,7 +170,7 @@ def write_summary(plan, directory) -> Summary:
 
     Parameters
     ----------
-    plan : tdse1d.scan.plan.ScanPlan
+    plan : tdse1d.scans.plan.ScanPlan
     directory : path
         The scan directory.
 
@@ -284,7 +284,7 @@ def write_summary(plan, directory) -> Summary:
 
 
 def _write_focal(f, plan, energy, power, amplitude):
-    """Focal-volume averages when the plan scans one intensity axis (see :mod:`tdse1d.scan.focal`)."""
+    """Focal-volume averages when the plan scans one intensity axis (see :mod:`tdse1d.scans.focal`)."""
     from .focal import GEOMETRIES, focal_average
 
     if len(plan.axes) != 1 or not plan.axes[0].key.endswith("peak_intensity"):

@@ -83,7 +83,7 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
     ----------
     path : path
         The checkpoint file.
-    state : tdse1d.run.runner.RunState
+    state : tdse1d.runs.runner.RunState
     digest : str
         :func:`input_hash` of the run's input.
     snapshots : tuple of (ndarray, ndarray), optional
@@ -134,7 +134,7 @@ def read_checkpoint(path, digest: str | None = None):
 
     Returns
     -------
-    state : tdse1d.run.runner.RunState
+    state : tdse1d.runs.runner.RunState
     snapshots : tuple of (ndarray, ndarray)
         Times and stored wavefunctions of the snapshots taken before the stop.
 

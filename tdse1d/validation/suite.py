@@ -26,7 +26,7 @@ class Runner:
     def run(self, config):
         """:class:`~tdse1d.api.RunOutcome` of a :class:`~tdse1d.input.schema.RunConfig`."""
         from ..api.single_run import run_problem
-        from ..run.checkpoint import input_hash
+        from ..runs.checkpoint import input_hash
         from ..input.problem import build_problem
 
         digest = input_hash(config)

@@ -1,10 +1,10 @@
 """The validation suite: runs the cases under ``validation/`` and writes a report.
 
-:mod:`~tdse1d.validate.cases`
+:mod:`~tdse1d.validation.cases`
     What a case is, where the cases are found, the registry of case kinds.
-:mod:`~tdse1d.validate.kinds`, :mod:`~tdse1d.validate.scan_kinds`
+:mod:`~tdse1d.validation.kinds`, :mod:`~tdse1d.validation.scan_kinds`
     The case kinds (importing this package registers them all).
-:mod:`~tdse1d.validate.suite`
+:mod:`~tdse1d.validation.suite`
     :func:`run_suite` runs the cases and :func:`write_report` writes ``report.md``.
 """
 

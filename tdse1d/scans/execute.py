@@ -7,9 +7,9 @@ advice without computing bound states), to a Dask ``distributed`` cluster: by de
 ``LocalCluster`` of single-threaded worker processes on the loopback interface, or an
 existing scheduler given by address. :func:`run_one` runs one point in this process (job
 arrays; it never writes a point that another process is writing), and
-:func:`tdse1d.scan.summary.write_summary` assembles ``summary.h5``. The plan is read by
-:mod:`tdse1d.scan.plan`, the directory kept by :mod:`tdse1d.scan.directory`, the points
-run by :mod:`tdse1d.scan.worker`.
+:func:`tdse1d.scans.summary.write_summary` assembles ``summary.h5``. The plan is read by
+:mod:`tdse1d.scans.plan`, the directory kept by :mod:`tdse1d.scans.directory`, the points
+run by :mod:`tdse1d.scans.worker`.
 """
 
 from __future__ import annotations
