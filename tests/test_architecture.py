@@ -201,3 +201,17 @@ def test_the_checker_flags_a_planted_bad_import(module, source):
 ])
 def test_the_checker_passes_allowed_imports(module, source):
     assert layer_violations(source, module) == []
+
+
+def test_library_functions_are_not_shadowed_by_subpackages():
+    """Importing a subpackage binds its name on the parent package: a layer named like a
+    library function (``tdse1d.run`` was both) silently replaced the function."""
+    import importlib
+
+    import tdse1d
+
+    for name in tdse1d._API:
+        assert importlib.util.find_spec(f"tdse1d.{name}") is None, f"tdse1d.{name} is also a subpackage or module"
+    importlib.import_module("tdse1d.runs.runner")
+    importlib.import_module("tdse1d.scans.plan")
+    assert callable(tdse1d.run) and callable(tdse1d.scan) and callable(tdse1d.validate)

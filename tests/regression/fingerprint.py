@@ -199,15 +199,28 @@ def run_cases(workdir) -> dict[str, np.ndarray]:
 
     FFTW plans are chosen by the estimate planner here, not by timing: plans measured
     on a loaded machine differ from one run to the next, and so does their round-off
-    (seen: 2e-12 in the norm of the 1800 nm case)."""
+    (seen: 2e-12 in the norm of the 1800 nm case). FFTW lets any wisdom it holds
+    override the estimate, so the process's wisdom is forgotten first and no stored
+    wisdom is loaded (the scan worker reads the cache under XDG_CACHE_HOME)."""
     import functools
+    import os
+    import tempfile
     from unittest import mock
+
+    import pyfftw
 
     from tdse1d.runs import runner
 
     planned = functools.partial(runner.simulate, fft_effort="FFTW_ESTIMATE")
-    with mock.patch.object(runner, "simulate", planned):
-        return _run_cases(workdir)
+    saved = pyfftw.export_wisdom()
+    pyfftw.forget_wisdom()
+    try:
+        with tempfile.TemporaryDirectory() as cache, mock.patch.dict(os.environ, {"XDG_CACHE_HOME": cache}), \
+                mock.patch.object(runner, "simulate", planned):
+            return _run_cases(workdir)
+    finally:
+        pyfftw.forget_wisdom()
+        pyfftw.import_wisdom(saved)
 
 
 def _run_cases(workdir) -> dict[str, np.ndarray]:
