@@ -36,3 +36,76 @@ def private_cache_home(tmp_path_factory):
             os.environ.pop("XDG_CACHE_HOME", None)
         else:
             os.environ["XDG_CACHE_HOME"] = previous
+
+
+class Handshake:
+    """The test's side of a run's handshake (docs/checkpoints.md, "Testing the signals").
+
+    Makes the hold directory and the FIFO in it that runs announce on, and waits on that
+    pipe: :meth:`wait` returns the first announcement of a phase as soon as it is written
+    (``select`` wakes on the write; its timeout only bounds how often the other process is
+    checked to be alive). No fixed delay and no polling of the file system.
+    """
+
+    def __init__(self, directory):
+        from pathlib import Path
+
+        self.directory = Path(directory)
+        self.directory.mkdir(parents=True, exist_ok=True)
+        fifo = self.directory / "announce"
+        os.mkfifo(fifo)
+        # read and write: the pipe never reads as ended between two writers
+        self._fd = os.open(fifo, os.O_RDWR | os.O_NONBLOCK)
+        self._pending = b""
+        self.seen: list[dict] = []
+
+    @property
+    def environment(self) -> dict:
+        """The environment variables that make a run (or a scan worker) announce here."""
+        return {"TDSE1D_TEST_HOLD": str(self.directory)}
+
+    def wait(self, phase: str, alive=lambda: True, limit: float = 120.0) -> dict:
+        """The next announcement of ``phase`` (a dict: pid, phase, and what the run adds).
+
+        Fails when ``alive()`` turns false first or after ``limit`` seconds.
+        """
+        import json
+        import select
+        import time
+
+        deadline = time.monotonic() + limit
+        while True:
+            while b"\n" in self._pending:
+                line, self._pending = self._pending.split(b"\n", 1)
+                record = json.loads(line)
+                self.seen.append(record)
+                if record["phase"] == phase:
+                    return record
+            assert alive(), f"the process ended before announcing {phase!r}"
+            remaining = deadline - time.monotonic()
+            assert remaining > 0, f"no {phase!r} announcement within {limit} s"
+            readable, _, _ = select.select([self._fd], [], [], min(remaining, 0.5))
+            if readable:
+                self._pending += os.read(self._fd, 65536)
+
+    def release(self) -> None:
+        """Let every held run continue (and any later one pass its hold point)."""
+        (self.directory / "go").touch()
+
+    def close(self) -> None:
+        if self._fd is not None:
+            os.close(self._fd)
+            self._fd = None
+
+    __del__ = close
+
+
+@pytest.fixture
+def handshake(tmp_path):
+    """A :class:`Handshake` in ``tmp_path / "hold"``."""
+    h = Handshake(tmp_path / "hold")
+    try:
+        yield h
+    finally:
+        h.release()
+        h.close()

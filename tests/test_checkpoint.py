@@ -11,11 +11,11 @@ import signal
 import socket
 import subprocess
 import sys
-import time
 
 import h5py
 import numpy as np
 import pytest
+from conftest import Handshake
 
 from tdse1d import api
 from tdse1d.runs.checkpoint import checkpoint_path, read_checkpoint
@@ -136,30 +136,16 @@ def test_checkpoint_format_version_and_observables_are_checked_on_read(tmp_path)
         read_checkpoint(cp)
 
 
-def _wait_for(found, proc, limit=120.0):
-    """Poll (a handshake, no fixed delay) until ``found()`` is truthy; fail if ``proc`` ends."""
-    deadline = time.monotonic() + limit
-    while True:
-        got = found()
-        if got:
-            return got
-        assert proc.poll() is None, proc.communicate()
-        assert time.monotonic() < deadline, "the run did not reach the expected point"
-        time.sleep(0.01)
-
-
 def _start(tmp_path, out, *extra, toml_extra="", hold_at="propagation"):
     """Start ``tdse1d run`` and return once it announced it reached ``hold_at`` (and waits)."""
     path = _input(tmp_path, "slow.toml", extra=toml_extra)
     # long enough that, once released, the run is still writing checkpoints when polled
     path.write_text(path.read_text().replace('after_pulse = "0.5 fs"', 'after_pulse = "80 fs"'))
-    hold = tmp_path / f"hold-{hold_at}"
-    hold.mkdir(exist_ok=True)
-    env = {**os.environ, "TDSE1D_TEST_HOLD": str(hold), "TDSE1D_TEST_HOLD_AT": hold_at}
+    hold = Handshake(tmp_path / f"hold-{hold_at}")
+    env = {**os.environ, **hold.environment, "TDSE1D_TEST_HOLD_AT": hold_at}
     proc = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(path), "-o", str(out), "--quiet", *extra],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
-    announced = _wait_for(lambda: list(hold.glob(f"{hold_at}.*.json")), proc)
-    info = json.loads(announced[0].read_text())
+    info = hold.wait(hold_at, lambda: proc.poll() is None)
     assert info["pid"] == proc.pid
     return path, proc, hold, info
 
@@ -201,9 +187,9 @@ def test_sigkill_leaves_no_finished_file(tmp_path):
     out = tmp_path / "k.h5"
     # checkpoints back to back, so that the kill is likely to land inside one
     _, proc, hold, _ = _start(tmp_path, out, toml_extra='checkpoint_interval = "1 ms"\n')
-    (hold / "go").touch()
+    hold.release()
     cp = checkpoint_path(out)
-    _wait_for(cp.exists, proc)
+    hold.wait("checkpoint", lambda: proc.poll() is None)
     os.kill(proc.pid, signal.SIGKILL)
     proc.communicate(timeout=60)
     assert not out.exists() and not is_complete(out.with_name(out.name + ".part"))

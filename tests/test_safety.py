@@ -13,12 +13,12 @@ import socket
 import subprocess
 import sys
 import threading
-import time
 import warnings
 from pathlib import Path
 
 import h5py
 import pytest
+from conftest import Handshake
 
 from tdse1d.cli import program as cli
 from tdse1d.scans.directory import ScanDirectory, result_matches
@@ -58,18 +58,6 @@ def _plan(directory: Path, values=("1.0e14 W/cm^2",)) -> Path:
     path = directory / "plan.toml"
     path.write_text(f'base = "base.toml"\n[[axis]]\nkey = "laser.0.peak_intensity"\nvalues = [{items}]\n')
     return path
-
-
-def _wait_for(found, alive=lambda: True, limit=120.0):
-    """Poll until ``found()`` is truthy (a handshake: no fixed delay)."""
-    deadline = time.monotonic() + limit
-    while True:
-        got = found()
-        if got:
-            return got
-        assert alive(), "the process ended first"
-        assert time.monotonic() < deadline, "nothing came"
-        time.sleep(0.01)
 
 
 # ------------------------------------------------------------------ FFTW wisdom
@@ -195,8 +183,8 @@ def test_dashboard_when_asked_answers_http():
 
 
 def test_sigterm_to_a_scan_worker_leaves_a_checkpoint_that_the_scan_continues(tmp_path, monkeypatch):
-    hold = tmp_path / "hold"
-    hold.mkdir()
+    handshake = Handshake(tmp_path / "hold")
+    hold = handshake.directory
     monkeypatch.setenv("TDSE1D_TEST_HOLD", str(hold))  # inherited by the worker processes
     plan = load_plan(_plan(tmp_path))
     out = tmp_path / "out"
@@ -209,11 +197,11 @@ def test_sigterm_to_a_scan_worker_leaves_a_checkpoint_that_the_scan_continues(tm
     thread = threading.Thread(target=go)
     thread.start()
     try:
-        first = json.loads(_wait_for(lambda: list(hold.glob("propagation.*.json")), thread.is_alive)[0].read_text())
+        first = handshake.wait("propagation", thread.is_alive)
         assert first["resumed_from"] is None and 0 < first["step"] < first["steps"]
         os.kill(first["pid"], signal.SIGTERM)  # the worker process running the point
         cp = checkpoint_path(out / "points" / f"{point.hash}.h5")
-        _wait_for(cp.exists, thread.is_alive)
+        handshake.wait("checkpoint", thread.is_alive)
         state, _ = read_checkpoint(cp)
         assert first["step"] <= state.step_index < first["steps"]
         (hold / "go").touch()  # later attempts run through
@@ -233,16 +221,15 @@ def test_sigterm_to_a_scan_worker_leaves_a_checkpoint_that_the_scan_continues(tm
 
 
 def test_sigterm_to_a_job_array_task_checkpoints_and_exits_75(tmp_path):
-    hold = tmp_path / "hold"
-    hold.mkdir()
+    handshake = Handshake(tmp_path / "hold")
+    hold = handshake.directory
     plan_path = _plan(tmp_path)
     out = tmp_path / "array"
-    env = {**os.environ, "TDSE1D_TEST_HOLD": str(hold)}
+    env = {**os.environ, **handshake.environment}
     args = [sys.executable, "-m", "tdse1d.cli", "scan", str(plan_path), "-o", str(out), "--point", "0"]
     proc = subprocess.Popen(args, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     try:
-        info = json.loads(_wait_for(lambda: list(hold.glob("propagation.*.json")),
-                                    lambda: proc.poll() is None)[0].read_text())
+        info = handshake.wait("propagation", lambda: proc.poll() is None)
         assert info["pid"] == proc.pid
         proc.send_signal(signal.SIGTERM)
         _, err = proc.communicate(timeout=120)

@@ -6,6 +6,7 @@ The Dask tests start their own clusters on 127.0.0.1 and shut them down.
 """
 
 import math
+import os
 import shutil
 import signal
 import socket
@@ -17,6 +18,7 @@ from pathlib import Path
 import h5py
 import numpy as np
 import pytest
+from conftest import Handshake
 from scipy import constants
 from scipy.integrate import quad
 from scipy.optimize import brentq
@@ -166,7 +168,12 @@ def _free_port():
 
 
 @pytest.fixture(scope="module")
-def external_cluster():
+def external_cluster(tmp_path_factory):
+    # the workers announce their runs through a handshake; ``go`` exists from the start,
+    # so that a run waits at its first chunk only while a test removes it
+    handshake = Handshake(tmp_path_factory.mktemp("cluster") / "hold")
+    handshake.release()
+    worker_env = {**os.environ, **handshake.environment}
     port = _free_port()
     address = f"tcp://127.0.0.1:{port}"
     dask = shutil.which("dask")
@@ -189,11 +196,12 @@ def external_cluster():
         for _ in range(2):
             # no nanny: killing the worker process is losing the worker
             w = subprocess.Popen([dask, "worker", address, "--nthreads", "1", "--no-nanny", "--no-dashboard",
-                                  "--host", "127.0.0.1"], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+                                  "--host", "127.0.0.1"], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                                 env=worker_env)
             workers.append(w)
             procs.append(w)
         client.wait_for_workers(2, timeout=60)
-        yield address, client, workers
+        yield address, client, workers, handshake
         client.close()
     finally:
         for p in procs[::-1]:  # workers first (they need no clean exit), then the scheduler
@@ -207,7 +215,7 @@ def external_cluster():
 
 
 def test_external_scheduler_and_a_killed_worker(external_cluster, local_scan, tmp_path):
-    address, client, workers = external_cluster
+    address, client, workers, handshake = external_cluster
     _, local_out, _ = local_scan
     values = INTENSITIES + ["2.5e14 W/cm^2"]
     plan = load_plan(_plan(tmp_path, values))
@@ -218,13 +226,16 @@ def test_external_scheduler_and_a_killed_worker(external_cluster, local_scan, tm
     def go():
         result["report"] = run_scan(plan, out, scheduler=address, progress=False)
 
+    (handshake.directory / "go").unlink()  # the first chunk of each point now waits
     thread = threading.Thread(target=go)
     thread.start()
-    deadline = time.time() + 60
-    while not list(points.glob("*.h5.part")) and time.time() < deadline:
-        time.sleep(0.01)
-    assert list(points.glob("*.h5.part")), "no point started"
-    workers[0].send_signal(signal.SIGKILL)  # mid-point
+    try:
+        held = handshake.wait("propagation", thread.is_alive)
+        victim = next(w for w in workers if w.pid == held["pid"])  # no nanny: the run is in the worker
+        victim.send_signal(signal.SIGKILL)  # mid-point, by construction
+        victim.wait(60)
+    finally:
+        handshake.release()
     thread.join(180)
     assert not thread.is_alive()
     report = result["report"]

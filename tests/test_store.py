@@ -8,12 +8,12 @@ import os
 import socket
 import subprocess
 import sys
-import time
 from pathlib import Path
 
 import h5py
 import numpy as np
 import pytest
+from conftest import Handshake
 
 from tdse1d import api
 from tdse1d.cli import program as cli
@@ -87,14 +87,13 @@ def test_concurrent_runs_of_one_input_leave_one_whole_file(tmp_path):
     line naming the first (pid and host); the first finishes a whole, complete file."""
     path = _input(tmp_path)
     out = tmp_path / "same.h5"
-    hold = tmp_path / "hold"
-    hold.mkdir()
-    env = {**os.environ, "TDSE1D_TEST_HOLD": str(hold)}
+    handshake = Handshake(tmp_path / "hold")
+    hold = handshake.directory
+    env = {**os.environ, **handshake.environment}
     first = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(path), "-o", str(out), "--quiet"],
                              env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     try:
-        announced = _wait_for(lambda: list(hold.glob("propagation.*.json")), first)
-        holder = json.loads(announced[0].read_text())["pid"]
+        holder = handshake.wait("propagation", lambda: first.poll() is None)["pid"]
         second = _cli("run", path, "-o", out, "--quiet")
         assert second.returncode == 1, second.stderr
         lines = _errors(second.stderr)
@@ -110,18 +109,6 @@ def test_concurrent_runs_of_one_input_leave_one_whole_file(tmp_path):
         assert result_file.content_problems(f) == []
         # the early datasets were not truncated away: the run starts normalised
         assert abs(f["observables/norm"][0] - 1) < 1e-10 and np.any(f["observables/dipole"][()] != 0)
-
-
-def _wait_for(found, proc=None, limit=120.0):
-    deadline = time.monotonic() + limit
-    while True:
-        got = found()
-        if got:
-            return got
-        if proc is not None and proc.poll() is not None:
-            raise AssertionError(f"the process ended first: {proc.communicate()}")
-        assert time.monotonic() < deadline, "nothing came"
-        time.sleep(0.01)
 
 
 def test_stale_lock_of_a_dead_writer_is_taken_over(problem, tmp_path):
@@ -345,16 +332,12 @@ def test_really_full_disk_is_one_line_and_no_crash(small_tmpfs, tmp_path):
     inp = _input(tmp_path / "i", extra="")
     text = inp.read_text().replace("points = 256", "points = 4096").replace("snapshots = 5", "snapshots = 40")
     inp.write_text(text)  # 40 snapshots x 4096 points x 16 bytes = 2.6 MB < 8 MB free at the start
-    hold = tmp_path / "hold"
-    hold.mkdir()
-    env = {**os.environ, "TDSE1D_TEST_HOLD": str(hold), "TDSE1D_TEST_HOLD_AT": "propagation"}
+    handshake = Handshake(tmp_path / "hold")
+    hold = handshake.directory
+    env = {**os.environ, **handshake.environment, "TDSE1D_TEST_HOLD_AT": "propagation"}
     proc = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(inp), "-o", str(small_tmpfs / "r.h5"),
                              "--quiet"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
-    deadline = time.monotonic() + 120
-    while not list(hold.glob("propagation.*.json")):  # handshake: the run waits there
-        assert proc.poll() is None, proc.communicate()
-        assert time.monotonic() < deadline, "the run did not reach its first chunk"
-        time.sleep(0.01)
+    handshake.wait("propagation", lambda: proc.poll() is None)  # the run waits there
     filler = small_tmpfs / "filler"
     with open(filler, "wb") as f:  # fill what is left of the disk
         try:

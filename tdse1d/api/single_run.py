@@ -194,12 +194,31 @@ def _output_key(config: RunConfig, output) -> str | None:
 
 
 #: test-only handshake (docs/checkpoints.md, "Testing the signals"): a directory in which
-#: a run announces that it reached a known point (``PHASE.PID.json``) and then waits until
-#: it is asked to stop or a file ``go`` appears; ``TDSE1D_TEST_HOLD_AT`` names the point,
-#: ``propagation`` (the first chunk boundary, default) or ``analysis`` (after the last step)
+#: a run announces that it reached a known point (``PHASE.PID.json``, and one JSON line in
+#: the FIFO ``announce`` if the test made one, so that it can wait on the pipe instead of
+#: polling) and then waits until it is asked to stop or a file ``go`` appears;
+#: ``TDSE1D_TEST_HOLD_AT`` names the point, ``propagation`` (the first chunk boundary,
+#: default) or ``analysis`` (after the last step). Every checkpoint written is announced
+#: (phase ``checkpoint``) without waiting.
 HOLD_ENV = "TDSE1D_TEST_HOLD"
 HOLD_AT_ENV = "TDSE1D_TEST_HOLD_AT"
+HOLD_FIFO = "announce"
 _HOLD_LIMIT_S = 300.0  # a forgotten handshake must not hang a process for ever
+
+
+def _announce(directory: Path, phase: str, **info) -> None:
+    record = {"pid": os.getpid(), "phase": phase, **info}
+    tmp = directory / f"{phase}.{os.getpid()}.json.tmp"
+    tmp.write_text(json.dumps(record), encoding="utf-8")
+    os.replace(tmp, directory / f"{phase}.{os.getpid()}.json")
+    try:  # the test keeps the FIFO open for reading; without a reader there is no one to tell
+        fd = os.open(directory / HOLD_FIFO, os.O_WRONLY | os.O_NONBLOCK)
+    except OSError:
+        return
+    try:
+        os.write(fd, (json.dumps(record) + "\n").encode())  # one line < PIPE_BUF: written whole
+    finally:
+        os.close(fd)
 
 
 def _hold(phase: str, control, **info) -> None:
@@ -207,13 +226,24 @@ def _hold(phase: str, control, **info) -> None:
     if not directory or os.environ.get(HOLD_AT_ENV, "propagation") != phase:
         return
     d = Path(directory)
-    record = {"pid": os.getpid(), "phase": phase, **info}
-    tmp = d / f"{phase}.{os.getpid()}.json.tmp"
-    tmp.write_text(json.dumps(record), encoding="utf-8")
-    os.replace(tmp, d / f"{phase}.{os.getpid()}.json")
+    _announce(d, phase, **info)
     deadline = time.monotonic() + _HOLD_LIMIT_S
     while not (d / "go").exists() and not control.stop_requested and time.monotonic() < deadline:
         time.sleep(0.005)
+
+
+class _AnnouncingSink:
+    """The run's checkpoint sink, announcing each checkpoint written (test handshake)."""
+
+    def __init__(self, sink, directory: Path):
+        self._sink, self._directory = sink, directory
+
+    def __getattr__(self, name):
+        return getattr(self._sink, name)
+
+    def checkpoint(self, state):
+        self._sink.checkpoint(state)
+        _announce(self._directory, "checkpoint", step=int(state.step_index))
 
 
 class _HoldingProgress:
@@ -316,6 +346,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
             if resume and cp_path.exists():  # read under the lock: the checkpoint is the writer's
                 state, snapshots = read_checkpoint(cp_path, digest)
             sink = CheckpointSink(writer, cp_path, digest)
+            if os.environ.get(HOLD_ENV):
+                sink = _AnnouncingSink(sink, Path(os.environ[HOLD_ENV]))
             if snapshots is not None:
                 sink.restore_snapshots(snapshots)
             watched = _HoldingProgress(progress, control, None if state is None else int(state.step_index))
