@@ -109,3 +109,31 @@ def handshake(tmp_path):
     finally:
         h.release()
         h.close()
+
+
+def _toml_value(value) -> str:
+    return f'"{value}"' if isinstance(value, str) else repr(value)
+
+
+def small_input(*, intensity="1e14 W/cm^2", envelope=None, cycles=2, points=256, spacing=0.4,
+                absorber_width=None, time_step=0.2, gauge=None, after_pulse="0.5 fs", propagation="",
+                photoelectrons=None, snapshots=0) -> str:
+    """The TOML text of a small and fast one-electron input, the common start of the tests' inputs.
+
+    An 800 nm pulse on a coarse grid with a fitted soft-core atom (softening sqrt(2)); each
+    keyword changes one key (None leaves it out, so the input's default applies);
+    ``propagation`` is raw text added to the ``[propagation]`` table. ``[output]`` comes
+    last, so that a test can append output keys to the text.
+    """
+    lines = ["", "[atom]", "softening = 1.4142135623730951", "[[laser]]", 'wavelength = "800 nm"',
+             f"peak_intensity = {_toml_value(intensity)}"]
+    lines += [f"envelope = {_toml_value(envelope)}"] if envelope is not None else []
+    lines += [f"cycles = {cycles}", "[grid]", f"points = {points}", f"spacing = {spacing}"]
+    lines += ["[absorber]", f"width = {_toml_value(absorber_width)}"] if absorber_width is not None else []
+    lines += ["[propagation]", f"time_step = {time_step}"]
+    lines += [f"gauge = {_toml_value(gauge)}"] if gauge is not None else []
+    lines += [f"after_pulse = {_toml_value(after_pulse)}"] if after_pulse is not None else []
+    lines += [propagation] if propagation else []
+    lines += ["[spectra]", f"photoelectrons = {_toml_value(photoelectrons)}"] if photoelectrons is not None else []
+    lines += ["[output]", f"snapshots = {snapshots}"] if snapshots is not None else []
+    return "\n".join(lines) + "\n"

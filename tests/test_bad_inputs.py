@@ -14,6 +14,7 @@ import sys
 from pathlib import Path
 
 import pytest
+from conftest import small_input
 from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
@@ -121,19 +122,7 @@ def test_bad_input_refused_by_a_real_process(tmp_path):
 
 # ------------------------------------------------------------------ property test
 
-GOOD = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-cycles = 2
-[grid]
-points = 256
-spacing = 0.4
-[propagation]
-time_step = 0.2
-"""
+GOOD = small_input(after_pulse=None, snapshots=None)
 
 #: every numeric key of the input (quantities, ints, floats), as --set paths
 NUMERIC_KEYS = [

@@ -15,7 +15,7 @@ import sys
 import h5py
 import numpy as np
 import pytest
-from conftest import Handshake
+from conftest import Handshake, small_input
 
 from tdse1d import api
 from tdse1d.runs.checkpoint import checkpoint_path, read_checkpoint
@@ -25,23 +25,7 @@ from tdse1d.input.problem import build_problem
 from tdse1d.runs.runner import RunControl, RunInterrupted
 from tdse1d.io.result_file import is_complete
 
-SMALL = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "{intensity}"
-cycles = 2
-[grid]
-points = 256
-spacing = 0.4
-[propagation]
-time_step = 0.2
-gauge = "{gauge}"
-after_pulse = "0.5 fs"
-[output]
-snapshots = 7
-"""
+SMALL = small_input(intensity="{intensity}", gauge="{gauge}", snapshots=7)
 
 COMPARED = [
     "observables/norm", "observables/dipole", "observables/momentum", "observables/acceleration",

@@ -5,6 +5,7 @@ import os
 
 import h5py
 import pytest
+from conftest import small_input
 
 from tdse1d.cli import program as cli
 from tdse1d.input.schema import load_input
@@ -12,24 +13,7 @@ from tdse1d.input.problem import build_problem
 from tdse1d.physics.propagation import NumericalError
 from tdse1d.runs.runner import simulate
 
-BASE = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-cycles = 2
-[grid]
-points = 1024
-spacing = 0.2
-[propagation]
-time_step = 0.1
-after_pulse = "1.5 fs"
-[output]
-snapshots = 0
-[spectra]
-photoelectrons = "none"
-"""
+BASE = small_input(points=1024, spacing=0.2, time_step=0.1, after_pulse="1.5 fs", photoelectrons="none")
 
 
 def _warnings(*sets, strict=False):

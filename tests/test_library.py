@@ -15,29 +15,13 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import small_input
 
 from tdse1d import api
 from tdse1d.cli import program as cli
 from tdse1d.input.schema import load_input
 
-TINY = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-cycles = 1
-[grid]
-points = 256
-spacing = 0.4
-[absorber]
-width = "15 bohr"
-[propagation]
-time_step = 0.2
-after_pulse = "0.2 fs"
-[output]
-snapshots = 3
-"""
+TINY = small_input(cycles=1, absorber_width="15 bohr", after_pulse="0.2 fs", snapshots=3)
 
 #: invented demo data (a made-up measured spectrum, not a measurement)
 DEMO_CSV = "# x: photon_energy eV\n2, 1\n10, 0.5\n20, 0.01\n30, 0.001\n"

@@ -6,29 +6,13 @@ import shutil
 
 import h5py
 import pytest
+from conftest import small_input
 
 from tdse1d import api
 from tdse1d.cli import program as cli
 from tdse1d.input.schema import load_input
 
-SMALL = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-cycles = 1
-[grid]
-points = 256
-spacing = 0.4
-[absorber]
-width = "15 bohr"
-[propagation]
-time_step = 0.2
-after_pulse = "0.2 fs"
-[output]
-snapshots = 3
-"""
+SMALL = small_input(cycles=1, absorber_width="15 bohr", after_pulse="0.2 fs", snapshots=3)
 
 DEMO_CSV = "# x: photon_energy eV\n10, 1\n20, 0.5\n30, 0.01\n40, 0.001\n"
 

@@ -9,6 +9,7 @@ are refused in one line naming the key.
 
 import numpy as np
 import pytest
+from conftest import small_input
 
 from tdse1d.input.problem import build_problem
 from tdse1d.input.schema import parse_input
@@ -16,25 +17,7 @@ from tdse1d.input.spec import InputError, tomllib
 from tdse1d.physics.propagation import SCHEMES
 from tdse1d.runs.runner import simulate
 
-TINY = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-cycles = 1
-[grid]
-points = 128
-spacing = 0.4
-[propagation]
-time_step = 0.2
-after_pulse = "0.1 fs"
-{propagation}
-[output]
-snapshots = 0
-[spectra]
-photoelectrons = "none"
-"""
+TINY = small_input(cycles=1, points=128, after_pulse="0.1 fs", propagation="{propagation}", photoelectrons="none")
 
 
 def config(propagation=""):

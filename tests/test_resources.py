@@ -5,6 +5,7 @@ import json
 import tracemalloc
 
 import pytest
+from conftest import small_input
 
 from tdse1d import api
 from tdse1d.cli import program as cli
@@ -13,22 +14,7 @@ from tdse1d.input.spec import InputError
 from tdse1d.input.schema import load_input
 from tdse1d.input.problem import build_problem
 
-BASE = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-cycles = 2
-[grid]
-points = 256
-spacing = 0.4
-[propagation]
-time_step = 0.2
-after_pulse = "0.5 fs"
-[output]
-snapshots = 0
-"""
+BASE = small_input()
 
 
 def _problem(*overrides):

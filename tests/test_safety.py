@@ -18,7 +18,7 @@ from pathlib import Path
 
 import h5py
 import pytest
-from conftest import Handshake
+from conftest import Handshake, small_input
 
 from tdse1d.cli import program as cli
 from tdse1d.scans.directory import ScanDirectory, result_matches
@@ -28,27 +28,8 @@ from tdse1d.runs.checkpoint import checkpoint_path, read_checkpoint
 from tdse1d.io.result_file import is_complete
 from tdse1d.io.guarded_file import lock_path
 
-BASE = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1.0e14 W/cm^2"
-envelope = "sin2"
-cycles = 2
-[grid]
-points = 256
-spacing = 0.3
-[absorber]
-width = 12.0
-[propagation]
-time_step = 0.1
-after_pulse = "0.5 fs"
-[spectra]
-photoelectrons = "none"
-[output]
-snapshots = 0
-"""
+BASE = small_input(intensity="1.0e14 W/cm^2", envelope="sin2", spacing=0.3, absorber_width=12.0, time_step=0.1,
+                   photoelectrons="none")
 
 
 def _plan(directory: Path, values=("1.0e14 W/cm^2",)) -> Path:

@@ -18,7 +18,7 @@ from pathlib import Path
 import h5py
 import numpy as np
 import pytest
-from conftest import Handshake
+from conftest import Handshake, small_input
 from scipy import constants
 from scipy.integrate import quad
 from scipy.optimize import brentq
@@ -30,27 +30,8 @@ from tdse1d.scans.execute import ScanReport, _prepare, run_one, run_scan
 from tdse1d.scans.plan import input_hash, load_plan
 from tdse1d.scans.compare import MeasuredSpectrum, compare_spectra, read_spectrum_csv
 
-BASE = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1.0e14 W/cm^2"
-envelope = "sin2"
-cycles = 2
-[grid]
-points = 256
-spacing = 0.3
-[absorber]
-width = 12.0
-[propagation]
-time_step = 0.1
-after_pulse = "0.5 fs"
-[spectra]
-photoelectrons = "none"
-[output]
-snapshots = 0
-"""
+BASE = small_input(intensity="1.0e14 W/cm^2", envelope="sin2", spacing=0.3, absorber_width=12.0, time_step=0.1,
+                   photoelectrons="none")
 
 INTENSITIES = ["1.0e14 W/cm^2", "1.5e14 W/cm^2", "2.0e14 W/cm^2"]
 

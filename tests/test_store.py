@@ -13,7 +13,7 @@ from pathlib import Path
 import h5py
 import numpy as np
 import pytest
-from conftest import Handshake
+from conftest import Handshake, small_input
 
 from tdse1d import api
 from tdse1d.cli import program as cli
@@ -25,22 +25,7 @@ from tdse1d.input.problem import build_problem
 from tdse1d.io.result_file import ResultWriter, is_complete
 from tdse1d.io.guarded_file import WriterLock, lock_path
 
-SMALL = """
-[atom]
-softening = 1.4142135623730951
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-cycles = 2
-[grid]
-points = 256
-spacing = 0.4
-[propagation]
-time_step = 0.2
-after_pulse = "0.5 fs"
-[output]
-snapshots = 5
-"""
+SMALL = small_input(snapshots=5)
 
 
 def _input(directory: Path, name="in.toml", extra="") -> Path:
