@@ -229,7 +229,8 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
     if atom.fit_softening:
         ip = atom.ionization_potential
         try:
-            potential = potential.with_softening(fit_softening(_PROVISIONAL, potential, ip))
+            provisional_softening = fit_softening(_PROVISIONAL, potential, ip)
+            potential = potential.with_softening(provisional_softening)
         except SofteningFitError as exc:
             raise InputError(str(exc), "atom.ionization_potential", config.source) from None
     if max(atom.initial_state) >= MAX_INITIAL_STATE:
@@ -280,7 +281,8 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
 
     if atom.fit_softening:
         try:
-            a = fit_softening(grid, potential, atom.ionization_potential)
+            # the provisional fit is close (the grids differ in spacing only): Newton from it
+            a = fit_softening(grid, potential, atom.ionization_potential, guess=provisional_softening)
         except SofteningFitError as exc:
             raise InputError(str(exc), "atom.ionization_potential", config.source) from None
         potential = potential.with_softening(a)
