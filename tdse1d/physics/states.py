@@ -26,7 +26,6 @@ Two ways of asking:
 
 from __future__ import annotations
 
-import functools
 import warnings
 from dataclasses import dataclass
 
@@ -36,6 +35,7 @@ from scipy.sparse.linalg import LinearOperator, lobpcg
 
 from .grid import Grid
 from .potentials import Potential
+from .threads import one_blas_thread
 
 __all__ = [
     "BoundStates",
@@ -46,7 +46,6 @@ __all__ = [
     "fit_softening",
     "initial_wavefunction",
     "SofteningFitError",
-    "one_blas_thread",
 ]
 
 #: half-width (bohr) of the window in which a given number of lowest states is looked for
@@ -126,23 +125,6 @@ def _window(grid: Grid, half_width: float) -> tuple[Grid, slice]:
         return grid, slice(0, grid.points)
     start = grid.points // 2 - n // 2
     return Grid(n, grid.spacing), slice(start, start + n)
-
-
-@functools.lru_cache(maxsize=1)
-def _blas_controller():
-    from threadpoolctl import ThreadpoolController
-
-    return ThreadpoolController()
-
-
-def one_blas_thread():
-    """A context in which BLAS and LAPACK run on one thread.
-
-    The products and solves inside a run are small (a few thousand rows): on shared
-    cores a multi-threaded BLAS was measured 10-100 times *slower* for them (threads
-    waiting for a core), and a run gains nothing from them. Entering costs about 10 us.
-    """
-    return _blas_controller().limit(limits=1, user_api="blas")
 
 
 def _dense_eigh(h, eigvals_only=False):
@@ -347,8 +329,8 @@ def bound_states(
 
 
 def _ground_pair(grid: Grid, potential: Potential, window: float):
-    """Lowest eigenpair of the dense H on a window of ``grid``: energy (Hartree), the
-    eigenvector (unit 2-norm) and the window's grid. Only that pair is formed (MRRR)."""
+    """Lowest eigenpair (MRRR, only it formed) of the dense H on a window of ``grid``:
+    energy (Hartree), eigenvector (unit 2-norm), the window's grid."""
     sub, _ = _window(grid, window)
     h = hamiltonian_matrix(sub, potential)
     with one_blas_thread():
@@ -361,13 +343,11 @@ def ground_state_energy(grid: Grid, potential: Potential, window: float = FIT_WI
     return _ground_pair(grid, potential, window)[0]
 
 
-#: relative step of the central difference of dV/da in the Hellmann-Feynman slope (its
-#: error, ~ step^2, only slows the last Newton step, never moves the root)
+#: relative step of the central difference dV/da (its ~step^2 error slows Newton only)
 _SLOPE_STEP = 1e-4
-#: the fit stops when the Newton step is below this fraction of the softening
+#: the fit stops at a Newton step below this fraction of the softening
 FIT_RELATIVE_STEP = 1e-13
-#: most ground-state solves of one fit before it falls back to bracketing alone
-_MAX_FIT_SOLVES = 60
+_MAX_FIT_SOLVES = 60  # then Brent's method on the energy alone
 
 
 def fit_softening(
@@ -380,13 +360,10 @@ def fit_softening(
 ) -> float:
     """Softening a for which the ground-state energy on ``grid`` is -Ip.
 
-    Safeguarded Newton iteration on f(a) = E0(a) + Ip, which increases monotonically
-    with a. The slope comes from the same solve, by the Hellmann-Feynman theorem
-    (dE0/da = <phi0| dV/da |phi0>, dV/da by a central difference of the potential), so
-    each iteration costs one ground-state solve; a step that would leave the bracket of
-    known signs is replaced by a bisection (in log a). From a ``guess`` near the root
-    (e.g. the fit on another grid) it converges in 3-4 solves, from the bracket alone
-    in about 10 (Brent's method on the energy alone took 16-20).
+    Safeguarded Newton iteration on f(a) = E0(a) + Ip (increasing in a), its slope
+    from the same solve by the Hellmann-Feynman theorem, dE0/da = <phi0| dV/da |phi0>;
+    a step leaving the bracket of known signs becomes a bisection (in log a). From a
+    ``guess`` (the fit on another grid) 3-4 solves, from the bracket about 10.
 
     Parameters
     ----------
@@ -398,11 +375,9 @@ def fit_softening(
     bracket : (float, float)
         Range of softenings searched (bohr).
     tolerance : float
-        Accuracy of the ground-state energy at the root (Hartree); the iteration goes
-        on to a relative step of :data:`FIT_RELATIVE_STEP` in a, far tighter.
+        Accuracy of E0 at the root (Hartree); met far over (a to :data:`FIT_RELATIVE_STEP`).
     guess : float, optional
-        A softening near the root (bohr); the bracket's ends are then solved only if
-        the iteration from it fails.
+        A softening near the root (bohr); the bracket is solved only if that fails.
 
     Returns
     -------
@@ -457,7 +432,7 @@ def _bracketed_softening(grid, potential, ionization_potential, bracket) -> floa
             "(change the charge, or use a finer grid for deep states)"
         )
     a = _newton_softening(grid, potential, ionization_potential, bracket, float(np.sqrt(lo * hi)), ends_known=True)
-    if a is None:  # not reached in _MAX_FIT_SOLVES: Brent's method on the energy alone
+    if a is None:
         
         a = float(brentq(lambda s: _mismatch_and_slope(grid, potential, ionization_potential, s)[0], lo, hi,
                          xtol=1e-13, rtol=1e-13, maxiter=200))
@@ -465,8 +440,7 @@ def _bracketed_softening(grid, potential, ionization_potential, bracket) -> floa
 
 
 def _newton_softening(grid, potential, ionization_potential, bracket, a, ends_known) -> float | None:
-    """Newton steps from ``a`` kept inside the bracket of known signs; None if they fail
-    (no convergence, or, with ``ends_known`` False, a root not inside ``bracket``)."""
+    """Newton from ``a`` inside the bracket of known signs; None if it fails."""
     lo, hi = bracket
     sign_lo = sign_hi = ends_known  # whether f(lo) < 0 and f(hi) > 0 are established
     for _ in range(_MAX_FIT_SOLVES):

@@ -32,7 +32,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import NumericalError
-from ..physics.states import one_blas_thread
+from ..physics.threads import one_blas_thread
 from ..registry import registrar
 
 __all__ = ["HealthMonitor", "CHECKS", "EDGE_FRACTION", "MOMENTUM_FRACTION", "REFLECTION_RATIO"]
