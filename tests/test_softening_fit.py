@@ -73,3 +73,16 @@ def test_a_guess_outside_the_reach_falls_back_to_the_bracket():
     assert a == pytest.approx(_reference_root(Grid(500, 0.2), ip), abs=1e-12)
     with pytest.raises(SofteningFitError, match="out of reach"):
         fit_softening(Grid(500, 0.2), soft_core(1.0), 0.001, guess=1.0)
+
+
+def test_odd_state_sign_does_not_flip_with_round_off():
+    # the first excited state of a symmetric well is odd: its two largest components
+    # are equal up to round-off; a softening moved by 1e-14 must not flip its sign
+    from tdse1d.physics.states import bound_states
+
+    grid = Grid(400, 0.2)
+    first = bound_states(grid, soft_core(1.0), count=3).wavefunctions
+    second = bound_states(grid, soft_core(1.0 + 1e-14), count=3).wavefunctions
+    assert np.max(np.abs(first - second)) < 1e-8
+    # null case: the opposite sign is far off, so the check sees a flip
+    assert np.max(np.abs(first[1] + second[1])) > 0.1

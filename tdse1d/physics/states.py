@@ -275,7 +275,12 @@ def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: floa
 
 def _normalise(vectors: np.ndarray, spacing: float) -> np.ndarray:
     vectors = vectors / np.sqrt(np.sum(vectors**2, axis=0) * spacing)
-    peak = np.argmax(np.abs(vectors), axis=0)
+    # the largest component is made positive; an odd state has two equal largest
+    # components (at x and -x) that round-off orders either way, so the first of the
+    # components within 1e-8 of the largest decides (the sign no longer flips with
+    # round-off, e.g. a softening moved by 1e-14)
+    size = np.abs(vectors)
+    peak = np.argmax(size >= (1 - 1e-8) * size.max(axis=0), axis=0)
     signs = np.sign(vectors[peak, np.arange(vectors.shape[1])])
     return (vectors * signs).T.copy()
 
