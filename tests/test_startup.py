@@ -50,3 +50,12 @@ def test_each_command_module_imports_only_the_standard_library(name):
             f"print([m for m in {HEAVY!r} if m in sys.modules])")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]", f"tdse1d.cli.{name} imports {out.strip()} at module level"
+
+
+def test_the_fft_module_does_not_load_dask():
+    # pyfftw would import dask.array through its interfaces; the run needs none of it.
+    # Dask stays importable afterwards (the null case: the mark does not linger).
+    code = ("import sys; from tdse1d.physics import fft; before = 'dask' in sys.modules; "
+            "import dask.array.fft; print(before, callable(dask.array.fft.fft_wrap))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["False", "True"]
