@@ -191,8 +191,14 @@ def _potential(config: RunConfig) -> Potential:
     return cls.from_config(atom)
 
 
-def model_estimates(potential: Potential, field: Field, ionization_potential: float):
-    """Semiclassical estimates for each pulse of ``field`` and the grid they call for."""
+def model_estimates(potential: Potential, field: Field, ionization_potential: float, propagation=None,
+                    with_step: bool = True):
+    """Semiclassical estimates for each pulse of ``field`` and the grid they call for.
+
+    The time step is the largest whose splitting error, estimated on the model's core
+    (:mod:`tdse1d.semiclassical.step_error`), is within ``propagation.tolerance`` for
+    ``propagation``'s scheme (the default scheme and tolerance without it); with
+    ``with_step`` False the step is not estimated (the sampling limit only)."""
     from ..semiclassical.tunnelling import barrier_suppression_field
 
     try:
@@ -201,7 +207,24 @@ def model_estimates(potential: Potential, field: Field, ionization_potential: fl
         bsi = math.nan
     pulses = [pulse_estimate(p.omega, p.peak_field, ionization_potential, bsi) for p in field.pulses]
     depth = -float(np.min(potential.value(np.linspace(-20, 20, 4001))))
-    return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0))
+    step_error = _step_error(potential, propagation) if with_step else None
+    return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0), step_error)
+
+
+def _step_error(potential: Potential, propagation):
+    """``(momentum, largest) -> StepError`` for the run's scheme and tolerance."""
+    from ..physics.propagation import DEFAULT_SCHEME_FOR_ORDER, SCHEMES
+    from ..semiclassical.step_error import DEFAULT_TOLERANCE, step_for_tolerance
+
+    name = propagation.scheme_name if propagation is not None else DEFAULT_SCHEME_FOR_ORDER[2]
+    tolerance = getattr(propagation, "tolerance", None) or DEFAULT_TOLERANCE
+    scheme = SCHEMES[name]
+
+    def step_error(momentum, largest):
+        return step_for_tolerance(potential, momentum, scheme.weights, scheme.order, tolerance,
+                                  first=largest, largest=largest)
+
+    return step_error
 
 
 def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
@@ -246,7 +269,8 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         ip = -float(bound_states(_PROVISIONAL, potential, count=initial + 1).energies[initial])
     if not ip > 0:
         ip = 1.0  # a trap without continuum: estimates only size the box
-    pulses, advice = model_estimates(potential, field, ip)
+    pulses, advice = model_estimates(potential, field, ip, config.propagation,
+                                     with_step=config.propagation.time_step is None)
 
     grid_cfg = config.grid
     spacing = grid_cfg.spacing if grid_cfg.spacing is not None else advice.spacing
@@ -301,7 +325,7 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         )
     ip = -float(states.energies[initial])
     if ip > 0:
-        pulses, _ = model_estimates(potential, field, ip)
+        pulses, _ = model_estimates(potential, field, ip, with_step=False)
 
     prop = config.propagation
     dt = prop.time_step if prop.time_step is not None else advice.time_step
