@@ -179,6 +179,36 @@ def build_field(config: RunConfig) -> Field:
     return Field(pulses)
 
 
+#: results of the fit and the bound states kept per process, keyed by their arguments
+#: (atom, grid, Ip): the points of a scan on one worker share them (a worker runs
+#: many points of one atom on one grid); each costs a dense solve of up to 4096 points
+_MEMO: dict = {}
+_MEMO_SIZE = 16
+
+
+def _memo(function, *args, **kwargs):
+    """``function(*args, **kwargs)``, computed once per process for hashable arguments.
+
+    A cached :class:`BoundStates` has read-only arrays (shared by the runs that use
+    it). Arguments that cannot be hashed (a potential holding an array) are not cached.
+    """
+    try:
+        key = (function.__name__, args, tuple(sorted(kwargs.items())))
+        hash(key)
+    except TypeError:
+        return function(*args, **kwargs)
+    if key not in _MEMO:
+        value = function(*args, **kwargs)
+        if isinstance(value, BoundStates):
+            for array in (value.energies, value.wavefunctions, value.residuals):
+                if isinstance(array, np.ndarray):
+                    array.setflags(write=False)
+        if len(_MEMO) >= _MEMO_SIZE:
+            _MEMO.pop(next(iter(_MEMO)))
+        _MEMO[key] = value
+    return _MEMO[key]
+
+
 def _potential(config: RunConfig) -> Potential:
     atom = config.atom
     cls = POTENTIALS[atom.model]
@@ -252,7 +282,7 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
     if atom.fit_softening:
         ip = atom.ionization_potential
         try:
-            provisional_softening = fit_softening(_PROVISIONAL, potential, ip)
+            provisional_softening = _memo(fit_softening, _PROVISIONAL, potential, ip)
             potential = potential.with_softening(provisional_softening)
         except SofteningFitError as exc:
             raise InputError(str(exc), "atom.ionization_potential", config.source) from None
@@ -264,7 +294,7 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
             config.source,
         )
     if initial == 0:
-        ip = -ground_state_energy(_PROVISIONAL, potential)
+        ip = -_memo(ground_state_energy, _PROVISIONAL, potential)
     else:
         ip = -float(bound_states(_PROVISIONAL, potential, count=initial + 1).energies[initial])
     if not ip > 0:
@@ -306,7 +336,7 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
     if atom.fit_softening:
         try:
             # the provisional fit is close (the grids differ in spacing only): Newton from it
-            a = fit_softening(grid, potential, atom.ionization_potential, guess=provisional_softening)
+            a = _memo(fit_softening, grid, potential, atom.ionization_potential, guess=provisional_softening)
         except SofteningFitError as exc:
             raise InputError(str(exc), "atom.ionization_potential", config.source) from None
         potential = potential.with_softening(a)
@@ -316,7 +346,7 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         count = max(count, max(atom.initial_state) + 1)
     if not with_states:
         count = max(atom.initial_state) + 1
-    states = bound_states(grid, potential, count=count)
+    states = _memo(bound_states, grid, potential, count=count)
     if max(atom.initial_state) >= len(states):
         raise InputError(
             f"state {max(atom.initial_state)} requested but the model has {len(states)} bound states on this grid",
