@@ -115,6 +115,36 @@ MAX_QUANTITY_LENGTH = 200
 _ATOMIC = re.compile(r"^\s*(?P<num>[-+0-9.eE]+)\s*(a\.u\.|au)\s*$")
 
 
+#: Units read without the unit parser: each is an exact SI multiple of the dimension's SI
+#: unit (SI prefixes; the electronvolt is e joule with the exact elementary charge of
+#: the 2019 SI, :data:`scipy.constants.e`). The shipped inputs use only these, so a run
+#: does not pay pint's start-up (about 0.5 s to import and 0.5 s to build its registry);
+#: any other unit is read by pint. tests/test_units.py checks each against pint.
+_PLAIN_UNITS: dict[str, dict[str, float]] = {
+    "length": {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "um": 1e-6, "µm": 1e-6, "μm": 1e-6, "nm": 1e-9, "pm": 1e-12},
+    "time": {"s": 1.0, "ms": 1e-3, "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "ns": 1e-9, "ps": 1e-12, "fs": 1e-15,
+             "as": 1e-18},
+    "energy": {"J": 1.0, "eV": sc.e, "meV": 1e-3 * sc.e, "keV": 1e3 * sc.e},
+    "intensity": {"W/m^2": 1.0, "W/cm^2": 1e4, "GW/cm^2": 1e13, "TW/cm^2": 1e16, "PW/cm^2": 1e19},
+    "electric_field": {"V/m": 1.0, "V/cm": 1e2, "V/nm": 1e9, "GV/m": 1e9},
+    "angle": {"rad": 1.0},
+}
+
+_PLAIN = re.compile(r"^\s*(?P<num>[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?)\s*(?P<unit>[^\s\d.+-][^\s]*)\s*$")
+
+
+def _plain_quantity(value: str, dim: Dimension):
+    """``value`` in atomic units when it is a number and one of :data:`_PLAIN_UNITS` of
+    ``dim``, else None (pint reads it)."""
+    match = _PLAIN.match(value)
+    if not match:
+        return None
+    factor = _PLAIN_UNITS.get(dim.name, {}).get(match.group("unit"))
+    if factor is None:
+        return None
+    return float(match.group("num")) * factor / dim.au_in_si
+
+
 @functools.lru_cache(maxsize=1)
 def _registry():
     import pint  # imported lazily: building the registry costs about a second
@@ -169,6 +199,9 @@ def to_atomic(value, dimension: str, *, bare_allowed: bool = True) -> float:
             return float(match.group("num"))
         except ValueError:
             raise UnitError(f"cannot read the number in {value!r}") from None
+    plain = _plain_quantity(value, dim)
+    if plain is not None:
+        return plain
     ureg = _registry()
     try:
         quantity = ureg.Quantity(value.replace("^", "**"))

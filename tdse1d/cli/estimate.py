@@ -2,10 +2,9 @@
 
 import json
 
-from .. import units
-from ..api import single_run as api
+# Only the standard library at module level (the numerics are imported in main()), so
+# that ``tdse1d --help`` lists this command without loading them.
 from .program import add_input_arguments
-from ..input.schema import load_input
 
 HELP = "semiclassical estimates (Up, Keldysh parameter, cutoffs), the advised grid, and the memory and disk of the run"
 
@@ -16,6 +15,8 @@ def add_arguments(parser):
 
 
 def _rows(p):
+    from .. import units
+
     ev = units.HARTREE_EV
     return [
         ("photon energy", f"{p.photon_energy * ev:.4f} eV", f"{p.photon_energy:.6g} a.u., {units.omega_to_nm(p.photon_energy):.1f} nm"),
@@ -49,6 +50,10 @@ def _resource_rows(est):
 
 
 def main(args):
+    from .. import units
+    from ..api import single_run as api
+    from ..input.schema import load_input
+
     result = api.estimate(load_input(args.input, args.overrides))
     if args.json:
         print(json.dumps(result.to_json(), indent=1))

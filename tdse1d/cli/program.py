@@ -150,8 +150,10 @@ def scheduler_address(text: str) -> str:
 
 
 def build_parser(argv=()) -> argparse.ArgumentParser:
-    """The argument parser. Only the command named in ``argv`` is imported (numba,
-    matplotlib and dask make imports slow); without one, all are, to list them."""
+    """The argument parser. Only the command named in ``argv`` gets its arguments (a
+    command's options may need its library: ``plot`` lists its figures); without one,
+    each command module is imported for its one-line ``HELP`` only, and those modules
+    import nothing heavy at module level (tests/test_startup.py checks it)."""
     selected = _selected_command(argv)
     parser = _Parser(
         prog="tdse1d",
@@ -165,6 +167,9 @@ def build_parser(argv=()) -> argparse.ArgumentParser:
             sub.add_parser(name)
             continue
         module = importlib.import_module(module_name)
+        if selected is None:  # the list of commands: their one-line help is all it needs
+            sub.add_parser(name, help=module.HELP)
+            continue
         p = sub.add_parser(name, help=module.HELP, description=module.HELP)
         p.add_argument("--debug", action="store_true", help="show Python tracebacks")
         module.add_arguments(p)
@@ -200,9 +205,6 @@ def main(argv=None) -> int:
 
 
 def _main(argv, debug) -> int:
-    from ..input.spec import InputError
-    from ..errors import NumericalError, OutputError
-
     try:
         parser = build_parser(argv)
         args = parser.parse_args(argv)
@@ -216,46 +218,45 @@ def _main(argv, debug) -> int:
         return EXIT_BAD_INPUT
     try:
         return int(args._main(args) or 0)
-    except InputError as exc:
-        if debug:
+    except (ValueError, RuntimeError, MemoryError, OSError) as exc:
+        if debug and not isinstance(exc, BrokenPipeError):
             raise
+        return _failure(exc)
+
+
+def _failure(exc: BaseException) -> int:
+    """One line on stderr for a failure of a command, and its exit status; re-raises
+    what is not one of ours. The exception classes are imported here, not at start-up:
+    by the time a command failed, their modules are loaded (``--help`` stays light)."""
+    from ..errors import NumericalError, OutputError
+
+    input_error = getattr(sys.modules.get("tdse1d.input.spec"), "InputError", None)
+    if input_error is not None and isinstance(exc, input_error):
         print(f"tdse1d: error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
-    except NumericalError as exc:
-        if debug:
-            raise
+    if isinstance(exc, NumericalError):
         print(f"tdse1d: numerical failure: {exc}", file=sys.stderr)
         return EXIT_FAILURE
-    except CommandError as exc:
-        if debug:
-            raise
+    if isinstance(exc, (CommandError, OutputError)):
         print(f"tdse1d: error: {exc}", file=sys.stderr)
         return EXIT_FAILURE
-    except OutputError as exc:
-        if debug:
-            raise
-        print(f"tdse1d: error: {exc}", file=sys.stderr)
-        return EXIT_FAILURE
-    except MemoryError:
+    if isinstance(exc, MemoryError):
         # the estimate before a run should prevent this; a last line of defence
-        if debug:
-            raise
         print("tdse1d: error: out of memory; see the memory estimate of `tdse1d estimate INPUT`", file=sys.stderr)
         return EXIT_FAILURE
-    except BrokenPipeError:
+    if isinstance(exc, BrokenPipeError):
         # the reader went away (e.g. `tdse1d export ... | head`): not an error of ours
         import os
 
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
         return EXIT_OK
-    except OSError as exc:  # a file that cannot be written or read (read-only, full disk...)
-        if debug:
-            raise
+    if isinstance(exc, OSError):  # a file that cannot be written or read (read-only, full disk...)
         from ..io.guarded_file import describe_os_error
 
         print(f"tdse1d: error: {describe_os_error(exc, action=None)}", file=sys.stderr)
         return EXIT_FAILURE
+    raise exc
 
 
 def entry_point():  # console script

@@ -10,11 +10,9 @@ import signal
 import sys
 import time
 
-from .. import units
-from ..api import single_run as api
+# Only the standard library at module level (the numerics are imported in main()), so
+# that ``tdse1d --help`` lists this command without loading them.
 from .program import add_input_arguments
-from ..input.schema import load_input
-from ..io.wisdom import fftw_wisdom
 
 HELP = "propagate the input's model atom through its pulses and write the HDF5 result"
 
@@ -43,6 +41,8 @@ class _ProgressBar:
     def __call__(self, step, steps):
         if not self.enabled:
             return
+        from .. import units
+
         if self.bar is None:
             from tqdm import tqdm
 
@@ -59,6 +59,11 @@ class _ProgressBar:
 
 
 def main(args):
+    from .. import units
+    from ..api import single_run as api
+    from ..input.schema import load_input
+    from ..io.wisdom import fftw_wisdom
+
     config = load_input(args.input, args.overrides)
     show = not args.quiet and sys.stderr.isatty()
     started = time.time()

@@ -2,10 +2,9 @@
 
 import json
 
-from .. import units
-from ..api import single_run as api
+# Only the standard library at module level (the numerics are imported in main()), so
+# that ``tdse1d --help`` lists this command without loading them.
 from .program import add_input_arguments, positive_int
-from ..input.schema import load_input
 
 HELP = "bound states of the input's model atom on the run's own grid"
 
@@ -17,6 +16,10 @@ def add_arguments(parser):
 
 
 def main(args):
+    from .. import units
+    from ..api import single_run as api
+    from ..input.schema import load_input
+
     result = api.find_states(load_input(args.input, args.overrides), count=args.count)
     if args.json:
         print(json.dumps(result.to_json()))

@@ -179,6 +179,36 @@ def build_field(config: RunConfig) -> Field:
     return Field(pulses)
 
 
+#: results of the fit and the bound states kept per process, keyed by their arguments
+#: (atom, grid, Ip): the points of a scan on one worker share them (a worker runs
+#: many points of one atom on one grid); each costs a dense solve of up to 4096 points
+_MEMO: dict = {}
+_MEMO_SIZE = 16
+
+
+def _memo(function, *args, **kwargs):
+    """``function(*args, **kwargs)``, computed once per process for hashable arguments.
+
+    A cached :class:`BoundStates` has read-only arrays (shared by the runs that use
+    it). Arguments that cannot be hashed (a potential holding an array) are not cached.
+    """
+    try:
+        key = (function.__name__, args, tuple(sorted(kwargs.items())))
+        hash(key)
+    except TypeError:
+        return function(*args, **kwargs)
+    if key not in _MEMO:
+        value = function(*args, **kwargs)
+        if isinstance(value, BoundStates):
+            for array in (value.energies, value.wavefunctions, value.residuals):
+                if isinstance(array, np.ndarray):
+                    array.setflags(write=False)
+        if len(_MEMO) >= _MEMO_SIZE:
+            _MEMO.pop(next(iter(_MEMO)))
+        _MEMO[key] = value
+    return _MEMO[key]
+
+
 def _potential(config: RunConfig) -> Potential:
     atom = config.atom
     cls = POTENTIALS[atom.model]
@@ -191,8 +221,14 @@ def _potential(config: RunConfig) -> Potential:
     return cls.from_config(atom)
 
 
-def model_estimates(potential: Potential, field: Field, ionization_potential: float):
-    """Semiclassical estimates for each pulse of ``field`` and the grid they call for."""
+def model_estimates(potential: Potential, field: Field, ionization_potential: float, propagation=None,
+                    with_step: bool = True):
+    """Semiclassical estimates for each pulse of ``field`` and the grid they call for.
+
+    The time step is the largest whose splitting error, estimated on the model's core
+    (:mod:`tdse1d.semiclassical.step_error`), is within ``propagation.tolerance`` for
+    ``propagation``'s scheme (the default scheme and tolerance without it); with
+    ``with_step`` False the step is not estimated (the sampling limit only)."""
     from ..semiclassical.tunnelling import barrier_suppression_field
 
     try:
@@ -201,7 +237,24 @@ def model_estimates(potential: Potential, field: Field, ionization_potential: fl
         bsi = math.nan
     pulses = [pulse_estimate(p.omega, p.peak_field, ionization_potential, bsi) for p in field.pulses]
     depth = -float(np.min(potential.value(np.linspace(-20, 20, 4001))))
-    return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0))
+    step_error = _step_error(potential, propagation) if with_step else None
+    return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0), step_error)
+
+
+def _step_error(potential: Potential, propagation):
+    """``(momentum, largest) -> StepError`` for the run's scheme and tolerance."""
+    from ..physics.propagation import DEFAULT_SCHEME_FOR_ORDER, SCHEMES
+    from ..semiclassical.step_error import DEFAULT_TOLERANCE, step_for_tolerance
+
+    name = propagation.scheme_name if propagation is not None else DEFAULT_SCHEME_FOR_ORDER[2]
+    tolerance = getattr(propagation, "tolerance", None) or DEFAULT_TOLERANCE
+    scheme = SCHEMES[name]
+
+    def step_error(momentum, largest):
+        return step_for_tolerance(potential, momentum, scheme.weights, scheme.order, tolerance,
+                                  first=largest, largest=largest)
+
+    return step_error
 
 
 def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
@@ -229,7 +282,8 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
     if atom.fit_softening:
         ip = atom.ionization_potential
         try:
-            potential = potential.with_softening(fit_softening(_PROVISIONAL, potential, ip))
+            provisional_softening = _memo(fit_softening, _PROVISIONAL, potential, ip)
+            potential = potential.with_softening(provisional_softening)
         except SofteningFitError as exc:
             raise InputError(str(exc), "atom.ionization_potential", config.source) from None
     if max(atom.initial_state) >= MAX_INITIAL_STATE:
@@ -240,12 +294,13 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
             config.source,
         )
     if initial == 0:
-        ip = -ground_state_energy(_PROVISIONAL, potential)
+        ip = -_memo(ground_state_energy, _PROVISIONAL, potential)
     else:
         ip = -float(bound_states(_PROVISIONAL, potential, count=initial + 1).energies[initial])
     if not ip > 0:
         ip = 1.0  # a trap without continuum: estimates only size the box
-    pulses, advice = model_estimates(potential, field, ip)
+    pulses, advice = model_estimates(potential, field, ip, config.propagation,
+                                     with_step=config.propagation.time_step is None)
 
     grid_cfg = config.grid
     spacing = grid_cfg.spacing if grid_cfg.spacing is not None else advice.spacing
@@ -280,7 +335,8 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
 
     if atom.fit_softening:
         try:
-            a = fit_softening(grid, potential, atom.ionization_potential)
+            # the provisional fit is close (the grids differ in spacing only): Newton from it
+            a = _memo(fit_softening, grid, potential, atom.ionization_potential, guess=provisional_softening)
         except SofteningFitError as exc:
             raise InputError(str(exc), "atom.ionization_potential", config.source) from None
         potential = potential.with_softening(a)
@@ -290,7 +346,7 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         count = max(count, max(atom.initial_state) + 1)
     if not with_states:
         count = max(atom.initial_state) + 1
-    states = bound_states(grid, potential, count=count)
+    states = _memo(bound_states, grid, potential, count=count)
     if max(atom.initial_state) >= len(states):
         raise InputError(
             f"state {max(atom.initial_state)} requested but the model has {len(states)} bound states on this grid",
@@ -299,7 +355,7 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         )
     ip = -float(states.energies[initial])
     if ip > 0:
-        pulses, _ = model_estimates(potential, field, ip)
+        pulses, _ = model_estimates(potential, field, ip, with_step=False)
 
     prop = config.propagation
     dt = prop.time_step if prop.time_step is not None else advice.time_step

@@ -140,6 +140,10 @@ class PropagationConfig:
     after_pulse: float | None = key(
         Spec("quantity", "time", auto=True, minimum=0, strict=False, doc="field-free time after the pulses"), None
     )
+    tolerance: float | None = key(
+        Spec("float", minimum=1e-12, maximum=1.0, auto=True,
+             doc="splitting error per core passage allowed to the automatic time step (default 1e-2)"), None
+    )
 
     @property
     def scheme_name(self) -> str:

@@ -32,6 +32,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import NumericalError
+from ..physics.threads import one_blas_thread
 from ..registry import registrar
 
 __all__ = ["HealthMonitor", "CHECKS", "EDGE_FRACTION", "MOMENTUM_FRACTION", "REFLECTION_RATIO"]
@@ -117,8 +118,11 @@ def _inward_outward(psi_layer, outward_sign):
 def _reflection(geo, psi, density, norm, t):
     if not geo.has_absorber or t <= geo.field_end:
         return None
-    amplitudes = (geo.states @ psi) * geo.dx
-    continuum = psi - amplitudes @ geo.states
+    # real products on the (re, im) pairs: a real matrix times a complex vector would
+    # first copy the matrix to complex
+    pairs = np.ascontiguousarray(psi, dtype=np.complex128).view(np.float64).reshape(-1, 2)
+    amplitudes = (geo.states @ pairs) * geo.dx
+    continuum = psi - (geo.states.T @ amplitudes).view(np.complex128).ravel()
     for side, idx, sign in (("right", geo.right, 1), ("left", geo.left, -1)):
         if len(idx) < 8:
             continue
@@ -165,6 +169,10 @@ class HealthMonitor:
         norm = density.sum() * self.geometry.dx
         if not norm > 0:
             return
+        with one_blas_thread():
+            self._check(step, time, psi, density, norm)
+
+    def _check(self, step, time, psi, density, norm):
         for name, fn in CHECKS.items():
             if name in self._seen:
                 continue

@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 
 from .directory import ScanDirectory, result_matches
 from .plan import ScanPlan, ScanPoint
-from .worker import _stop_scheduler_http, _worker_setup, run_point
+from .worker import _stop_scheduler_http, _worker_setup, run_point, warm_up
 
 
 class SchedulerUnreachable(RuntimeError):
@@ -298,6 +298,10 @@ def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard,
         if own_cluster is None:
             # workers stop their runs with a checkpoint on SIGTERM/SIGINT (also workers that join later)
             client.register_plugin(_worker_setup(stop_http=False), name="tdse1d-stop-on-signals")
+        # every worker loads the numerics at once, before the points are handed out, so
+        # the first point on each costs what the others do (a worker that joins later
+        # pays it in its first point)
+        client.run(warm_up, on_error="ignore")  # a worker that cannot, fails its points instead
         by_key = {}
         futures = []
         for rank, p in enumerate(todo):

@@ -203,6 +203,46 @@ def _worker_setup(stop_http: bool):
     return StopOnSignals(stop_http)
 
 
+#: a run small enough to take a fraction of a second, with every part a point uses
+_WARM_UP_INPUT = """
+[atom]
+softening = 1.4142135623730951
+[[laser]]
+wavelength = "800 nm"
+peak_intensity = "1e14 W/cm^2"
+cycles = 0.5
+[grid]
+points = 128
+spacing = 0.4
+[propagation]
+time_step = 0.2
+after_pulse = 0
+[output]
+snapshots = 0
+"""
+
+
+def warm_up() -> float:
+    """Load what a point needs (the numerics, h5py, the compiled kernels) by running a
+    tiny problem in memory, so that a worker's first point costs what the others do.
+
+    Returns
+    -------
+    float
+        The wall time it took (s).
+    """
+    started = time.perf_counter()
+    import h5py  # noqa: F401 - loaded here, used by every point's result file
+
+    from ..api import single_run  # noqa: F401
+    from ..input.problem import build_problem
+    from ..input.schema import load_input
+    from ..runs.runner import simulate
+
+    simulate(build_problem(load_input("warm-up", [], text=_WARM_UP_INPUT)), fft_effort="FFTW_ESTIMATE")
+    return time.perf_counter() - started
+
+
 def _stop_scheduler_http(dask_scheduler=None):
     if getattr(dask_scheduler, "http_server", None) is not None:
         dask_scheduler.http_server.stop()

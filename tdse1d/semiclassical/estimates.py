@@ -45,9 +45,12 @@ MIN_INNER_HALF_WIDTH = 60.0
 MOMENTUM_MARGIN = 1.5
 MAX_SPACING = 0.2
 MIN_ABSORBER_WIDTH = 40.0
-# time step: phase of the largest relevant energy per step
-PHASE_PER_STEP = 0.25
+# time step: from the splitting error (semiclassical/step_error.py), at most this (the
+# step the field and the dipole's sampling have always been checked with) and at most
+# pi / (NYQUIST_MARGIN x the cutoff energy), so the dipole is sampled well above the
+# highest harmonic analysed
 MAX_TIME_STEP = 0.05
+NYQUIST_MARGIN = 2.0
 
 
 @dataclass(frozen=True)
@@ -119,7 +122,8 @@ class GridAdvice:
     reasons: tuple[str, ...]
 
 
-def recommend_grid(pulses: list[PulseEstimate], ionization_potential: float, potential_depth: float) -> GridAdvice:
+def recommend_grid(pulses: list[PulseEstimate], ionization_potential: float, potential_depth: float,
+                   step_error=None) -> GridAdvice:
     """Grid and time step for a run with these pulses.
 
     Parameters
@@ -128,7 +132,13 @@ def recommend_grid(pulses: list[PulseEstimate], ionization_potential: float, pot
     ionization_potential : float
         Ip of the initial state (Hartree).
     potential_depth : float
-        -min V of the model (Hartree), the largest potential energy the step must resolve.
+        -min V of the model (Hartree).
+    step_error : callable, optional
+        ``step_error(momentum, largest) -> StepError``: the largest step up to
+        ``largest`` (a.u.) whose splitting error for an electron of that momentum
+        crossing the core is within the run's tolerance
+        (:func:`tdse1d.semiclassical.step_error.step_for_tolerance`). Without it the
+        step is the largest allowed by the sampling alone.
 
     Returns
     -------
@@ -157,12 +167,23 @@ def recommend_grid(pulses: list[PulseEstimate], ionization_potential: float, pot
     half_width = inner + absorber
     points = fast_fft_size(int(math.ceil(2 * half_width / spacing)))
     reasons.append(f"points: {points} (2 x {half_width:.1f} bohr / spacing, rounded up to a fast FFT size)")
-    e_high = 0.5 * p_needed**2 + potential_depth
-    time_step = min(MAX_TIME_STEP, PHASE_PER_STEP / e_high)
-    reasons.append(
-        f"time step: {time_step:.4g} a.u. = min({MAX_TIME_STEP:g}, {PHASE_PER_STEP:g} / {e_high:.3g} Hartree), the largest "
-        "kinetic plus potential energy of interest"
-    )
+    # the dipole sampled NYQUIST_MARGIN times above the highest harmonic of interest
+    e_top = max([p.cutoff_energy for p in pulses] + [p.photon_energy for p in pulses] + [ionization_potential])
+    sampled = min(MAX_TIME_STEP, math.pi / (NYQUIST_MARGIN * e_top))
+    # the fastest electron crossing the core: the highest classical return energy
+    p_return = max([math.sqrt(2 * CUTOFF_UP * p.ponderomotive_energy) for p in pulses]
+                   + [math.sqrt(2 * max(p.photon_energy - ionization_potential, 0.0)) for p in pulses] + [1.0])
+    if step_error is None:
+        time_step = sampled
+        reasons.append(f"time step: {time_step:.4g} a.u. = min({MAX_TIME_STEP:g}, pi / ({NYQUIST_MARGIN:g} x "
+                       f"{e_top:.3g} Hartree)), the sampling of the highest harmonic")
+    else:
+        est = step_error(p_return, sampled)
+        time_step = est.time_step
+        reasons.append(
+            f"time step: {time_step:.4g} a.u.: splitting error {est.error:.2g} (order {est.order}, estimated by step "
+            f"doubling) for an electron of {p_return:.3g} a.u. (3.17 Up) crossing the core; at most "
+            f"min({MAX_TIME_STEP:g}, pi / ({NYQUIST_MARGIN:g} x {e_top:.3g} Hartree))")
     return GridAdvice(points, spacing, time_step, half_width, absorber, math.pi / spacing, tuple(reasons))
 
 

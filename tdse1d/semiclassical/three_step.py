@@ -28,6 +28,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.interpolate import CubicSpline
 
+from .sampled_field import (
+    RINGING_STEPS, carrier_period, check_field_consistency, check_sampled_field, field_end,
+)
+
 
 #: Default number of birth times per optical cycle.  The maxima reported by
 #: :func:`summary` are refined between samples, so this only sets how finely
@@ -37,13 +41,6 @@ BIRTHS_PER_CYCLE = 64
 # Upper bound on the number of excursion samples held in memory at once while
 # bracketing returns (births x samples).
 _BLOCK_ELEMENTS = 4_000_000
-
-# Tolerated mismatch between the supplied field and -dA/dt, and between A at
-# the pulse edges and zero, relative to the field's own scale.  Loose on
-# purpose: it is meant to catch a flipped sign convention or a truncated
-# pulse, not discretisation error.
-_FIELD_CONSISTENCY = 5e-2
-_EDGE_TOLERANCE = 1e-3
 
 # Samples on either side of a sampled maximum used to refine it.
 _PEAK_HALF_WIDTH = 3
@@ -132,19 +129,22 @@ def trajectories(time, electric, vector_potential, birth_times=None, max_returns
         If the grid is not uniform, the arrays disagree in shape, ``E`` is not
         ``-dA/dt`` or ``A`` does not vanish at the pulse edges.
     """
-    time, electric, vector_potential = _check_sampled_field(time, electric, vector_potential)
+    time, electric, vector_potential = check_sampled_field(time, electric, vector_potential)
     max_returns = int(max_returns)
     if max_returns < 1:
         raise ValueError(f"max_returns must be a positive integer, got {max_returns}")
     a_spline = CubicSpline(
         time, vector_potential, bc_type=((1, -electric[0]), (1, -electric[-1]))
     )
-    _check_field_consistency(time, electric, vector_potential, a_spline)
+    check_field_consistency(time, electric, vector_potential, a_spline)
 
-    period = _carrier_period(time, electric)
+    period = carrier_period(time, electric)
+    last_field = field_end(time, electric, vector_potential)
     if birth_times is None:
+        # births over the pulse only: after it no electron is born (no field to tunnel
+        # through) and one born there stays at the origin, its "returns" round-off
         step = period / BIRTHS_PER_CYCLE
-        birth_times = np.arange(time[0], time[-1], step)
+        birth_times = np.arange(time[0], time[last_field], step)
     else:
         birth_times = np.unique(np.asarray(birth_times, dtype=float).ravel())
         if birth_times.size == 0 or not np.all(np.isfinite(birth_times)):
@@ -157,8 +157,11 @@ def trajectories(time, electric, vector_potential, birth_times=None, max_returns
 
     excursion = _Excursion(time, a_spline, birth_times)
     # Scanning one optical cycle at a time keeps the work close to what the
-    # first few returns need.
-    brackets = excursion.bracket_returns(max_returns, round(period / (time[1] - time[0])))
+    # first few returns need; the scan stops where the field does (then the flight
+    # is straight, and its one possible crossing is found directly), so the cost is
+    # linear in the run's length, not quadratic.
+    scan_end = min(time.size - 1, last_field + RINGING_STEPS)
+    brackets = excursion.bracket_returns(max_returns, round(period / (time[1] - time[0])), scan_end)
     return_time = excursion.refine(brackets)
 
     a_end = float(a_spline(time[-1]))
@@ -189,13 +192,16 @@ class _Excursion:
     def __call__(self, t, rows):
         return self.antiderivative(t) - self.s0[rows] - self.a0[rows] * (t - self.t0[rows])
 
-    def bracket_returns(self, max_returns, block):
+    def bracket_returns(self, max_returns, block, scan_end=None):
         """Grid interval ``[t_i, t_i+1]`` holding each return: ``i``, or -1 if none.
 
         The excursion is sampled ``block`` grid steps at a time for all births
-        that still miss returns.
+        that still miss returns, up to the sample ``scan_end`` (default: the last);
+        after it the field is taken to be zero, the flight straight, and its one
+        possible crossing of the origin is bracketed directly.
         """
-        time, m = self.time, self.time.size
+        time, m_all = self.time, self.time.size
+        m = m_all if scan_end is None else int(scan_end) + 1
         n = self.t0.size
         brackets = np.full((n, max_returns), -1, dtype=np.intp)
         found = np.zeros(n, dtype=np.intp)
@@ -229,7 +235,35 @@ class _Excursion:
                 np.minimum(found, max_returns, out=found)
             position[active] += block
             active = active[(found[active] < max_returns) & (position[active] < m - 1)]
+        if m < m_all:
+            self._straight_crossings(brackets, found, max_returns, m - 1)
         return brackets
+
+    def _straight_crossings(self, brackets, found, max_returns, last):
+        """Bracket the one crossing of a straight flight after the sample ``last``."""
+        time, m = self.time, self.time.size
+        rows = np.flatnonzero((found < max_returns) & (self.t0 < time[last]))
+        if rows.size == 0:
+            return
+        x_last = self.s_grid[last] - self.s0[rows] - self.a0[rows] * (time[last] - self.t0[rows])
+        velocity = float(self.a_spline(time[last])) - self.a0[rows]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t_cross = time[last] - x_last / velocity
+        ok = np.isfinite(t_cross) & (t_cross > time[last]) & (t_cross < time[-1]) & (x_last != 0.0)
+        rows, t_cross = rows[ok], t_cross[ok]
+        guess = np.clip(np.searchsorted(time, t_cross) - 1, last, m - 2)
+        # the sampled excursion decides the bracket, as the scan would: look at the
+        # guessed interval and its neighbours for the sign change
+        for shift in (0, -1, 1, -2, 2):
+            i = np.clip(guess + shift, last, m - 2)
+            x_lo = self.s_grid[i] - self.s0[rows] - self.a0[rows] * (time[i] - self.t0[rows])
+            x_hi = self.s_grid[i + 1] - self.s0[rows] - self.a0[rows] * (time[i + 1] - self.t0[rows])
+            hit = (x_lo > 0.0) != (x_hi > 0.0)
+            brackets[rows[hit], found[rows[hit]]] = i[hit]
+            found[rows[hit]] += 1
+            rows, guess = rows[~hit], guess[~hit]
+            if rows.size == 0:
+                break
 
     def refine(self, brackets):
         """Return times from bracketing intervals (NaN where no bracket)."""
@@ -413,52 +447,3 @@ def _emission_branches(traj, ip):
             table = np.column_stack([emission[chosen], ip + energy[chosen]])
             branch.append(table[np.argsort(table[:, 1], kind="stable")])
     return tuple(short_branch), tuple(long_branch)
-
-
-def _check_sampled_field(time, electric, vector_potential):
-    time = np.asarray(time, dtype=float)
-    electric = np.asarray(electric, dtype=float)
-    vector_potential = np.asarray(vector_potential, dtype=float)
-    if time.ndim != 1 or time.size < 4:
-        raise ValueError(f"time must be 1-D with at least 4 samples, got shape {time.shape}")
-    for name, array in (("electric", electric), ("vector_potential", vector_potential)):
-        if array.shape != time.shape:
-            raise ValueError(f"{name} has shape {array.shape}, time has shape {time.shape}")
-    for name, array in (("time", time), ("electric", electric),
-                        ("vector_potential", vector_potential)):
-        if not np.all(np.isfinite(array)):
-            raise ValueError(f"{name} contains non-finite values")
-    step = np.diff(time)
-    if not (step[0] > 0.0 and np.allclose(step, step[0], rtol=1e-6, atol=0.0)):
-        raise ValueError("time must be uniform and increasing")
-    scale = np.max(np.abs(vector_potential))
-    if scale == 0.0:
-        raise ValueError("vector_potential is identically zero")
-    if max(abs(vector_potential[0]), abs(vector_potential[-1])) > _EDGE_TOLERANCE * scale:
-        raise ValueError(
-            "vector_potential must vanish at both ends of the grid (the pulse "
-            f"must be complete); got A = {vector_potential[0]:.3g}, "
-            f"{vector_potential[-1]:.3g} against max |A| = {scale:.3g}"
-        )
-    return time, electric, vector_potential
-
-
-def _check_field_consistency(time, electric, vector_potential, a_spline):
-    mismatch = np.max(np.abs(electric + a_spline(time, 1)))
-    scale = np.max(np.abs(electric))
-    if not mismatch <= _FIELD_CONSISTENCY * scale:
-        raise ValueError(
-            "electric is not -d(vector_potential)/dt (max mismatch "
-            f"{mismatch:.3g} against max |E| = {scale:.3g}); check the sign convention"
-        )
-
-
-def _carrier_period(time, electric):
-    """Period of the strongest non-zero frequency of the sampled field."""
-    n = 1 << int(np.ceil(np.log2(4 * time.size)))
-    spectrum = np.abs(np.fft.rfft(electric, n))
-    spectrum[0] = 0.0
-    k = int(np.argmax(spectrum))
-    if k == 0:
-        raise ValueError("electric is identically zero; pass birth_times explicitly")
-    return n * (time[1] - time[0]) / k

@@ -4,10 +4,56 @@ name in :data:`WINDOWS`.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
-from scipy.signal import windows as _scipy_windows
 
 from ..registry import registrar
+
+
+# The windows are computed here with numpy, by the same operations as scipy.signal's
+# periodic ("sym=False") windows, so the weights agree bit for bit (tested against
+# scipy.signal in tests/test_spectra.py); importing scipy.signal would cost a run a
+# quarter of a second of start-up.
+
+
+def _cosine_sum(n: int, coefficients) -> np.ndarray:
+    """Periodic cosine-sum window ``sum_k a_k cos(k phi)``, ``phi`` over [-pi, pi) in n steps.
+
+    Parameters
+    ----------
+    n : int
+        Number of samples (>= 0).
+    coefficients : sequence of float
+        The a_k, k = 0, 1, ...
+
+    Returns
+    -------
+    numpy.ndarray
+        The n weights (dimensionless).
+    """
+    if n <= 1:
+        return np.ones(n)
+    phase = np.linspace(-np.pi, np.pi, n + 1)  # one sample more, dropped: periodic
+    w = np.zeros(n + 1)
+    for k, a in enumerate(coefficients):
+        w += a * np.cos(k * phase)
+    return w[:-1]
+
+
+def _tapered_cosine(n: int, taper: float) -> np.ndarray:
+    """Periodic Tukey window of n samples with the fraction ``taper`` inside its tapers."""
+    if n <= 1 or taper <= 0:
+        return np.ones(n)
+    if taper >= 1.0:
+        return _cosine_sum(n, (0.5, 0.5))
+    m = n + 1
+    j = np.arange(0, m, dtype=np.float64)
+    width = int(math.floor(taper * (m - 1) / 2.0))
+    j1, j2, j3 = j[0:width + 1], j[width + 1:m - width - 1], j[m - width - 1:]
+    w1 = 0.5 * (1 + np.cos(np.pi * (-1 + 2.0 * j1 / taper / (m - 1))))
+    w3 = 0.5 * (1 + np.cos(np.pi * (-2.0 / taper + 1 + 2.0 * j3 / taper / (m - 1))))
+    return np.concatenate((w1, np.ones(j2.shape), w3))[:-1]
 
 
 # --------------------------------------------------------------------------- windows
@@ -46,7 +92,7 @@ class Hann(Window):
     """
 
     def weights(self, n):
-        return _scipy_windows.hann(n, sym=False)
+        return _cosine_sum(n, (0.5, 0.5))
 
 
 @register_window("blackman")
@@ -55,7 +101,7 @@ class Blackman(Window):
 
     def weights(self, n):
         # the three-term sum rounds to -1e-17 at the ends
-        return np.clip(_scipy_windows.blackman(n, sym=False), 0.0, 1.0)
+        return np.clip(_cosine_sum(n, (0.42, 0.50, 0.08)), 0.0, 1.0)
 
 
 @register_window("tukey")
@@ -77,7 +123,7 @@ class Tukey(Window):
         self.taper = taper
 
     def weights(self, n):
-        return _scipy_windows.tukey(n, alpha=self.taper, sym=False)
+        return _tapered_cosine(n, self.taper)
 
 
 @register_window("none")
