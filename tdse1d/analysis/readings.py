@@ -150,20 +150,21 @@ def field_crests(time, electric, three_step, period):
     """Time of the field crest of the birth half cycle of each branch pair (a.u.).
 
     The cutoff trajectory of a half cycle returns about 0.7 cycle after the crest it
-    was born near (0.05 cycle after it; Corkum 1993), so the crest is the extremum of
-    |E| within a quarter cycle of the cutoff return time minus 0.7 cycle. NaN where
-    a half cycle has no branch.
+    was born near (0.05 cycle after it; Corkum 1993), so the crest is the local maximum
+    of |E| nearest the cutoff return time minus 0.7 cycle (crests are half a cycle
+    apart, so the choice is not ambiguous). NaN where a half cycle has no branch.
     """
     t = np.asarray(time, float)
     e = np.abs(np.asarray(electric, float))
+    peaks = np.flatnonzero((e[1:-1] >= e[:-2]) & (e[1:-1] >= e[2:]) & (e[1:-1] > 0)) + 1
     out = []
     for short in three_step.short_branch:
-        if short.shape[0] == 0:
+        if short.shape[0] == 0 or not peaks.size:
             out.append(math.nan)
             continue
         guess = float(short[-1, 0]) - 0.7 * period
-        near = np.flatnonzero(np.abs(t - guess) <= 0.25 * period)
-        out.append(float(t[near[np.argmax(e[near])]]) if near.size else math.nan)
+        nearest = peaks[np.argmin(np.abs(t[peaks] - guess))]
+        out.append(float(t[nearest]) if abs(t[nearest] - guess) <= 0.25 * period else math.nan)
     return np.asarray(out)
 
 
