@@ -157,3 +157,26 @@ def test_emission_time_rows_give_times_after_the_field_crest(argon_run):
     text = report.table()
     assert "emission time, short branch" in text and "fs" in text and "+0.000" not in text
     assert f"{au_to_fs(short.prediction):.3f} fs" in text
+
+
+def test_figures_show_the_predictions_and_the_uncertainty_bands(argon_run):
+    import h5py
+
+    from tdse1d.api import figures
+
+    def legend_texts(fig):
+        return [t.get_text() for ax in fig.axes if ax.get_legend() for t in ax.get_legend().get_texts()]
+
+    report = api.report(argon_run)
+    rows = [r for r in report.rows if r.key == "harmonic_cutoff"]
+    with h5py.File(argon_run) as f:
+        cache = {}
+        harmonic = legend_texts(figures._harmonic(f, cache))
+        photo = legend_texts(figures._photoelectron(f, cache))
+        tf = legend_texts(figures._time_frequency(f, cache))
+    # one line per prediction of the report, and the quantum value +- u as a band
+    assert all(any(t.startswith(r.source) for t in harmonic) for r in rows)
+    if math.isfinite(rows[0].quantum):
+        assert any(t.startswith("read off +- u") for t in harmonic)
+    assert any(t.startswith("direct edge: 2 Up") for t in photo)
+    assert any("median +- u" in t for t in tf)
