@@ -302,7 +302,7 @@ def format_table(table: list[Row], a: RunAnalysis) -> str:
         lines.append(f"photon energy {a.omega0 * units.HARTREE_EV:.4f} eV, Up {a.ponderomotive_energy * units.HARTREE_EV:.4f}"
                      f" eV, Ip {a.ionization_potential * units.HARTREE_EV:.4f} eV; H = harmonic order; times in "
                      "optical cycles after the field crest")
-    lines += ["  ".join(h.ljust(wd) for h, wd in zip(head, widths)), "  ".join("-" * wd for wd in widths)]
+    lines += ["  ".join(h.ljust(wd) for h, wd in zip(head, widths)).rstrip(), "  ".join("-" * wd for wd in widths)]
     lines += ["  ".join(c.ljust(wd) for c, wd in zip(cells, widths)).rstrip() for cells in body]
     lines += ["", "verdict: agrees when |quantum - prediction| <= 2 u, u the combined uncertainty (reading range, "
                   "numerical spread, model width, in quadrature); unresolved below the noise floor, not converged, "
