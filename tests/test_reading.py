@@ -115,7 +115,8 @@ def test_a_family_with_a_failed_rule_is_unresolved():
     (10.0, 11.0, 0.5, "agrees"),       # z = 2, on the boundary
     (10.0, 12.0, 0.5, "deviates"),     # z = 4
     (10.0, 7.0, 1.0, "deviates"),      # z = -3
-    (1.0, 1.2, 1.5, "unresolved"),     # u larger than the effect (the prediction itself)
+    (1.0, 1.2, 1.5, "unresolved"),     # u larger than the effect (prediction and value)
+    (1e-6, 0.1, 0.01, "deviates"),     # a tiny prediction, a value well above its u
     (10.0, 10.2, math.nan, "unresolved"),
     (10.0, math.nan, 0.5, "unresolved"),
     (math.nan, 3.0, 0.5, ""),          # nothing to compare with

@@ -180,3 +180,39 @@ def test_figures_show_the_predictions_and_the_uncertainty_bands(argon_run):
         assert any(t.startswith("read off +- u") for t in harmonic)
     assert any(t.startswith("direct edge: 2 Up") for t in photo)
     assert any("median +- u" in t for t in tf)
+
+
+ATI = """[atom]
+softening = 1.4142135623730951
+[[laser]]
+wavelength = "800 nm"
+peak_intensity = "2e13 W/cm^2"
+envelope = "flat-top"
+cycles = 12
+ramp_cycles = 2
+[grid]
+points = 1024
+spacing = 0.3
+[absorber]
+width = 20
+[propagation]
+time_step = 0.1
+after_pulse = "0.5 fs"
+[output]
+snapshots = 2
+"""
+
+
+def test_ati_comb_moves_down_by_up_when_up_is_below_the_photon(tmp_path, argon_run):
+    # the same law for the infrared field alone: ATI peaks at n hbar w - Ip - Up
+    # (Freeman et al. 1987, from memory; Della Picca et al., arXiv:1512.05715), read
+    # while Up (1.19 eV) is below the photon (1.55 eV)
+    outcome = api.run(load_input("ati.toml", text=ATI), tmp_path / "ati.h5")
+    rows = {r.quantity: r for r in api.report(outcome.path).rows}
+    up = _up_ev(2e13, 800.0) / sc.physical_constants["Hartree energy in eV"][0]
+    comb = rows["ATI comb shift"]
+    # 10 % of Up, as for the XUV line: the ground state's AC Stark shift, and lines
+    # born on the ramps where Up is lower, move the comb by a few per cent of Up
+    assert comb.quantum == pytest.approx(-up, rel=0.10)
+    # at 1.6e14 W/cm^2 Up is 6 photons: the comb fixes no shift and no row is given
+    assert "ATI comb shift" not in {r.quantity for r in api.report(argon_run).rows}

@@ -12,8 +12,9 @@ The rule (``docs/analysis.md``, "Verdicts"):
   width. Quadrature sums independent contributions (GUM, JCGM 100:2008, 5.1.2);
 * ``unresolved`` when the quantum value could not be read (below the noise floor, not
   converged), when there is no uncertainty, or when ``u`` is at least the size of the
-  effect compared (by default the prediction itself: a shift of 1 eV read to +-1 eV
-  says nothing about the shift);
+  effect compared (by default the larger of the predicted and the quantum value: a
+  shift predicted at 1 eV and read as 0.5 +- 1 eV says nothing about the shift, while
+  a probability predicted at 1e-6 and read as 0.1 +- 0.01 deviates);
 * otherwise ``z = (quantum - prediction) / u``; ``agrees`` when ``|z| <= AGREE_WITHIN``,
   ``deviates`` beyond.
 """
@@ -79,8 +80,8 @@ def verdict(prediction, quantum, uncertainty, *, effect=None, unresolved="", wit
     uncertainty : float
         Combined uncertainty of ``quantum`` (same unit; :func:`combined_uncertainty`).
     effect : float, optional
-        Size of the effect compared (same unit); default ``|prediction|``. A value
-        read with ``u >= effect`` is unresolved.
+        Size of the effect compared (same unit); default the larger of ``|prediction|``
+        and ``|quantum|``. A value read with ``u >= effect`` is unresolved.
     unresolved : str
         Why the quantum value is not a value (below the noise floor, not converged);
         the verdict is then unresolved with this reason.
@@ -101,7 +102,7 @@ def verdict(prediction, quantum, uncertainty, *, effect=None, unresolved="", wit
     difference = q - p
     if not math.isfinite(u):
         return Verdict(UNRESOLVED, difference, u, math.nan, "no uncertainty for the quantum value")
-    size = abs(p) if effect is None else abs(float(effect))
+    size = max(abs(p), abs(q)) if effect is None else abs(float(effect))
     if u >= size:
         return Verdict(UNRESOLVED, difference, u, math.nan,
                        f"uncertainty {u:.3g} not smaller than the effect {size:.3g} (same unit)")
