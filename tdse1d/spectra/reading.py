@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .cutoff import NOISE_MARGIN, noise_floor, read_cutoff, running_mean, unresolved_reason
+from .cutoff import NOISE_MARGIN, noise_floor, read_cutoff, unresolved_reason
 
 #: the drops (decades below the plateau level) of the cutoff family
 CUTOFF_DROPS = (1.0, 1.5, 2.0)
@@ -249,13 +249,5 @@ def _knee(w, power, omega0, ip, estimates, noise, smooth_orders, start_orders, m
     return knee, ""
 
 
-def smoothed_log(axis, values, half_width, floor_decades=30.0):
-    """Running mean of log10(values) over ``|axis' - axis| <= half_width`` (values more
-    than ``floor_decades`` below the maximum raised to that level)."""
-    v = np.nan_to_num(np.asarray(values, dtype=float))
-    top = v.max() if v.size and v.max() > 0 else 1.0
-    return running_mean(np.asarray(axis, float), np.log10(np.maximum(v, top * 10.0**-floor_decades)), half_width)
-
-
-__all__ = ["Reading", "combine_rules", "unresolved", "two_line_knee", "cutoff_family", "smoothed_log",
+__all__ = ["Reading", "combine_rules", "unresolved", "two_line_knee", "cutoff_family",
            "unresolved_reason", "CUTOFF_DROPS", "CUTOFF_PLATEAUS", "KNEE_CONTRAST"]
