@@ -339,6 +339,7 @@ EXAMPLE_OVERRIDES = {
     "argon_1800nm": ["laser.0.cycles=1.5"],
     "hydrogen_streaking": ["laser.0.cycles=2", 'laser.1.delay="0.667 fs"'],
     "molecular_ion_800nm": ["laser.0.cycles=3", "laser.0.ramp_cycles=1"],
+    "xuv_line_in_infrared": ["laser.0.cycles=8", 'laser.1.fwhm="3 fs"'],
 }
 # a coarse, small grid: these runs only feed the commands, their physics is tested above
 COMMON = ["grid.points=256", "grid.spacing=0.3", "absorber.width=15", 'propagation.after_pulse="0.2 fs"',
@@ -354,16 +355,45 @@ def example_runs(tmp_path_factory):
     return runs
 
 
+def test_every_shipped_example_is_exercised():
+    # a new example must join the short variants below (the report test reads them all)
+    shipped = {p.stem for p in INPUTS.glob("*.toml") if not p.stem.startswith("scan_")}
+    assert shipped == set(EXAMPLE_OVERRIDES)
+
+
 @pytest.mark.parametrize("name", sorted(EXAMPLE_OVERRIDES))
 def test_report_plot_export_on_every_example(example_runs, name, tmp_path):
+    from tdse1d.spectra import NOISE_MARGIN
+
     path = example_runs[name]
     report = api.report(path)
     data = report.to_json()
     quantities = {r["quantity"] for r in data["rows"]}
-    assert {"ground-state energy", "ionization potential Ip", "harmonic cutoff", "ionization probability"} <= quantities
+    assert {"ground-state energy", "ionization potential Ip", "ionization probability"} <= quantities
+    # rows that fit the run: the three-step rows only for a driving field with a
+    # plateau, the streaking rows only for the short XUV pulse, the dressed-line rows
+    # only for the long one
+    two_colour = name in ("hydrogen_streaking", "xuv_line_in_infrared")
+    assert ("harmonic cutoff" in quantities) == report.analysis.three_step_applies
+    if two_colour:
+        assert not report.analysis.three_step_applies
     assert ("streaking shift" in quantities) == (name == "hydrogen_streaking")
+    assert ("line shift in the infrared field" in quantities) == (name == "xuv_line_in_infrared")
+    for row in data["rows"]:
+        assert set(row) >= {"quantity", "key", "prediction", "source", "quantum", "uncertainty", "unit", "verdict",
+                            "note"}
+        # no verdict rests on a value below the noise floor: such a row has no value
+        headroom = row["noise_headroom_decades"]
+        if headroom is not None and headroom < NOISE_MARGIN:
+            assert row["verdict"] in ("unresolved", None) and row["quantum"] is None, row
+        if row["quantum"] is None and row["prediction"] is not None:
+            assert row["verdict"] == "unresolved" and row["reason"], row
+        if row["verdict"] == "unresolved":
+            assert row["difference_in_uncertainties"] is None and row["reason"], row
+        if row["verdict"] in ("agrees", "deviates"):
+            assert row["quantum"] is not None and row["uncertainty"] is not None and row["uncertainty"] > 0
     text = report.table()
-    assert "semiclassical prediction" in text and "quantum result" in text
+    assert "semiclassical prediction" in text and "quantum +- uncertainty" in text and "verdict" in text
     out = tmp_path / f"{name}.png"
     drawn = api.plot(path, "all", out)
     assert list(drawn.files) == list(figures.KINDS["run"])

@@ -601,6 +601,9 @@ SHORTER = {
                                 "output.snapshots=4"],
     "molecular_ion_800nm.toml": ["laser.0.cycles=2", "laser.0.ramp_cycles=0.5", 'propagation.after_pulse="0.5 fs"',
                                  "output.snapshots=4"],
+    "xuv_line_in_infrared.toml": ["laser.0.cycles=6", 'laser.1.fwhm="2 fs"', "grid.points=512", "grid.spacing=0.3",
+                                  "propagation.time_step=0.1", 'propagation.after_pulse="0.3 fs"',
+                                  "output.snapshots=4"],
 }
 
 

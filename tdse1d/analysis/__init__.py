@@ -11,8 +11,15 @@ Pure numerics on a run's arrays, atomic units; nothing here reads or writes a fi
     floor and the streaking shift.
 :mod:`~tdse1d.analysis.run_analysis`
     :func:`analyse_run`: all of it for one run, as a :class:`RunAnalysis`.
+:mod:`~tdse1d.analysis.readings`
+    Families of reading rules for the photoelectron edges, the streaked line and the
+    emission times after the field crest.
+:mod:`~tdse1d.analysis.sidebands`
+    The XUV line in an infrared field: its ponderomotive shift and its sidebands.
+:mod:`~tdse1d.analysis.verdict`
+    The combined uncertainty and the verdict (agrees, deviates, unresolved).
 :mod:`~tdse1d.analysis.report`
-    The rows of ``tdse1d report``: prediction | quantum result | comparison.
+    The rows of ``tdse1d report``: prediction | quantum value +- uncertainty | verdict.
 
 The rules are in ``docs/analysis.md``; the names below are re-exported here.
 """
@@ -22,6 +29,8 @@ from .emission import (BranchAgreement, BranchCorrelation, EmissionTimes, TimeFr
 from .photoelectrons import (PhotoelectronEdges, PonderomotiveShift, StreakingShift, field_free_floor, peak_centroid,
                              photoelectron_edges, ponderomotive_shift, streaking_shift)
 from .run_analysis import PHOTOELECTRON_METHOD_ORDER, RunAnalysis, analyse_run
+from .sidebands import DressedLine, dressed_line
+from .verdict import Verdict, combined_uncertainty, verdict
 
 __all__ = [
     "TimeFrequencyMap",
@@ -43,4 +52,9 @@ __all__ = [
     "field_free_floor",
     "analyse_run",
     "PHOTOELECTRON_METHOD_ORDER",
+    "DressedLine",
+    "dressed_line",
+    "Verdict",
+    "verdict",
+    "combined_uncertainty",
 ]

@@ -148,7 +148,25 @@ def time_frequency_map(time, acceleration, omega0, top_frequency, *, width=None,
     return TimeFrequencyMap(time=tc, frequency=w, power=power, width=sigma)
 
 
-def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
+#: ways of reading the time of a Gabor column (emission_times): the parabola-refined
+#: maximum, and the power-weighted centroid of the contiguous peak above half of it
+EMISSION_RULES = ("maximum", "centroid")
+
+
+def _column_time(t, column, rule):
+    if rule == "maximum":
+        return _parabolic_peak(t, column)
+    i = int(np.argmax(column))
+    lo = hi = i
+    while lo > 0 and column[lo - 1] >= 0.5 * column[i]:
+        lo -= 1
+    while hi < column.size - 1 and column[hi + 1] >= 0.5 * column[i]:
+        hi += 1
+    s = slice(lo, hi + 1)
+    return float(np.sum(t[s] * column[s]) / np.sum(column[s]))
+
+
+def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9), rule="maximum"):
     """Quantum emission times read off a Gabor map, beside the classical branches.
 
     For each field half cycle with classical returns and each photon energy ``w`` of
@@ -156,7 +174,9 @@ def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
     (w_c - Ip)`` (``w_c`` the half cycle's classical cutoff), the classical short and
     long emission times at ``w`` are interpolated from the branches; the quantum time
     is the time of the largest Gabor power between the long time minus and the short
-    time plus an eighth of a cycle.
+    time plus an eighth of a cycle (``rule="maximum"``, refined by a parabola), or the
+    power-weighted centroid of the contiguous peak above half that largest power
+    (``rule="centroid"``).
 
     Parameters
     ----------
@@ -166,11 +186,15 @@ def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
         Optical period (a.u.).
     plateau : (float, float)
         Fractions of the return energy range taken as the plateau.
+    rule : {"maximum", "centroid"}
+        How the time is read off each column (:data:`EMISSION_RULES`).
 
     Returns
     -------
     EmissionTimes
     """
+    if rule not in EMISSION_RULES:
+        raise ValueError(f"rule must be one of {EMISSION_RULES}, got {rule!r}")
     rows = {"half_cycle": [], "frequency": [], "quantum": [], "short": [], "long": []}
     margin = period / 8
     t = tf_map.time
@@ -191,7 +215,7 @@ def emission_times(tf_map, three_step, period, *, plateau=(0.2, 0.9)):
             column = tf_map.power[window, j]
             rows["half_cycle"].append(k)
             rows["frequency"].append(w)
-            rows["quantum"].append(_parabolic_peak(t[window], column))
+            rows["quantum"].append(_column_time(t[window], column, rule))
             rows["short"].append(t_short)
             rows["long"].append(t_long)
     arrays = {k: np.asarray(v, dtype=int if k == "half_cycle" else float) for k, v in rows.items()}

@@ -1,218 +1,313 @@
-"""The rows of the report of one run: the semiclassical prediction beside the quantum
-result, one quantity per row: prediction | quantum result | comparison (a ratio for
-positive quantities, a difference for shifts and times), with energies in eV, harmonic
-orders and atomic units. :func:`rows` builds them from a
-:class:`~tdse1d.analysis.RunAnalysis`; :func:`format_table` renders them as text and
+"""The rows of the report of one run: beside each semiclassical prediction, the quantum
+value with its combined uncertainty, the difference in units of that uncertainty and a
+verdict (agrees, deviates, unresolved; :mod:`.verdict`). :func:`rows` builds them from a
+:class:`~tdse1d.analysis.RunAnalysis` and only the rows the run makes meaningful
+(three-step rows for a driving field below Ip with a plateau; the photoelectric line
+and its streaking shift, or its ponderomotive shift and sidebands, for an XUV pulse
+inside an infrared field); :func:`format_table` renders them as text and
 :func:`to_json` for machines. Nothing here reads a file (the run's file is read by
-:mod:`tdse1d.io.analysis_file`).
+:mod:`tdse1d.io.analysis_file`). Values are in atomic units inside.
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
-
-import numpy as np
 
 from .. import units
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
-from ..spectra.cutoff import NOISE_MARGIN
 from .run_analysis import RunAnalysis
+from .verdict import combined_uncertainty, verdict
+
+#: energy tolerance of the bound-state solver (hartree; tdse1d.physics.states): the
+#: uncertainty of an eigenvalue on the run's grid
+EIGENVALUE_TOLERANCE = 1e-10
+#: the unit of each kind of row, as written in the JSON
+UNITS = {"energy": "hartree", "photon": "hartree", "probability": "1", "momentum": "atomic_unit_of_momentum",
+         "time": "atomic_unit_of_time"}
 
 
 @dataclass(frozen=True)
 class Row:
-    """One compared quantity (values in a.u. of ``kind``; NaN where not available)."""
+    """One compared quantity (values in the atomic unit ``unit``; NaN where not available).
+
+    ``prediction`` comes from ``source``; ``quantum +- uncertainty`` is the quantum value
+    with its combined uncertainty (reading, numerical and, where the prediction holds
+    only within a width, model parts: ``parts``); ``verdict`` is agrees, deviates,
+    unresolved, or empty where there is no prediction; ``z`` the difference in units
+    of the uncertainty; ``reason`` why a row is unresolved.
+    """
 
     quantity: str
-    prediction_label: str
+    key: str
     prediction: float
+    source: str
     quantum: float
-    kind: str  # "energy", "photon", "probability", "momentum", "time", "number"
-    compare: str = "ratio"  # or "difference"
+    uncertainty: float
+    unit: str
+    verdict: str
     note: str = ""
-    #: why the quantum value could not be read, e.g. "unresolved (within 0.3 decades
-    #: of the noise floor)"; the table then says "unresolved" and gives this as a footnote
-    unresolved: str = ""
+    kind: str = "energy"
+    difference: float = math.nan
+    z: float = math.nan
+    reason: str = ""
+    low: float = math.nan
+    high: float = math.nan
+    rules: tuple = ()
+    parts: tuple = ()
+    headroom: float = math.nan
+    spread: float = math.nan
+    period: float = math.nan
 
     @property
-    def comparison(self) -> float:
-        if not (math.isfinite(self.prediction) and math.isfinite(self.quantum)):
-            return math.nan
-        if self.compare == "difference":
-            return self.quantum - self.prediction
-        return self.quantum / self.prediction if self.prediction != 0 else math.nan
+    def unresolved(self) -> str:
+        """The reason when the verdict is unresolved (empty otherwise)."""
+        return self.reason if self.verdict == "unresolved" else ""
 
 
-def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "") -> list[Row]:
-    """The table of a run's analysis.
+class _Builder:
+    """Collects rows, each with its uncertainty parts and verdict."""
 
-    ``target_ip`` is the ionization potential the input asked for (the softening is
-    fitted to it), NaN when the input gives the potential directly. ``ionization_note``
-    (from :func:`tdse1d.io.analysis_file.ionization_note`) is the quantum ionization probability's footnote.
+    def __init__(self, numerical, not_converged):
+        self.numerical, self.not_converged, self.rows = dict(numerical), dict(not_converged), []
+
+    def add(self, quantity, key, prediction, source, quantum, kind, *, reading=None, reading_u=math.nan,
+            model_u=math.nan, effect=None, note="", reason="", spread=math.nan, period=math.nan):
+        if reading is not None:
+            quantum, reading_u = reading.value, reading.uncertainty
+            reason = reason or reading.reason
+        numerical = self.numerical.get(key, math.nan)
+        if key in self.not_converged and not reason:
+            reason = self.not_converged[key]
+        u = combined_uncertainty(reading_u, numerical, model_u)
+        v = verdict(prediction, quantum, u, effect=effect, unresolved=reason)
+        if reason:
+            quantum = math.nan  # no value below the noise floor or unconverged
+        parts = tuple((name, float(x)) for name, x in (("reading", reading_u), ("numerical", numerical),
+                                                         ("model", model_u)) if math.isfinite(float(x)))
+        self.rows.append(Row(
+            quantity, key, float(prediction), source, float(quantum), u, UNITS[kind], v.word, note, kind,
+            v.difference, v.z, reason or v.reason,
+            reading.low if reading is not None else math.nan, reading.high if reading is not None else math.nan,
+            tuple(sorted(reading.rules.items())) if reading is not None else (), parts,
+            reading.headroom if reading is not None else math.nan, spread, period))
+
+
+def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "", ionization_band=None,
+         numerical: Mapping[str, float] | None = None, not_converged: Mapping[str, str] | None = None) -> list[Row]:
+    """The rows of a run's report.
+
+    Parameters
+    ----------
+    a : RunAnalysis
+    target_ip : float
+        Ionization potential the input asked for (hartree); NaN when it gives the potential.
+    ionization_note : str
+        Footnote of the ionization probability (:func:`tdse1d.io.analysis_file.ionization_note`).
+    ionization_band : (float, float), optional
+        Band of the bound-state count (``/ionization/probability_band``).
+    numerical : mapping, optional
+        Quantity key -> numerical uncertainty (absolute, atomic units) from companion runs.
+    not_converged : mapping, optional
+        Quantity key -> "not converged: enlarge <parameter>"; such rows are unresolved.
+
+    Returns
+    -------
+    list of Row
     """
-    nan = math.nan
-    up, ip = a.ponderomotive_energy, a.ionization_potential
+    b = _Builder(numerical or {}, not_converged or {})
+    up, ip, w = a.ponderomotive_energy, a.ionization_potential, a.omega0
     s = a.three_step
-    out = [
-        Row("ground-state energy", "-Ip asked for in the input", -target_ip, a.ground_state_energy, "energy",
-            note="quantum: lowest eigenvalue on the run's grid"),
-        Row("ionization potential Ip", "asked for in the input", target_ip, ip, "energy",
-            note="quantum: -E of the initial state on the run's grid; the rows below use it"),
-    ]
-    cut_why = a.cutoff.reason if a.cutoff is not None and not math.isfinite(a.harmonic_cutoff) else ""
-    if math.isfinite(up):
-        out += [
-            Row("harmonic cutoff", "three-step model, this pulse", s.cutoff_energy if s else nan,
-                a.harmonic_cutoff, "photon", note="quantum: read off the spectrum (docs/analysis.md)",
-                unresolved=cut_why),
-            Row("harmonic cutoff", "Ip + 3.17 Up", ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon", unresolved=cut_why),
-            Row("harmonic cutoff", "1.32 Ip + 3.17 Up", LEWENSTEIN_IP * ip + CUTOFF_UP * up, a.harmonic_cutoff, "photon",
-                unresolved=cut_why),
-            Row("max. return energy / Up", "three-step model (3.17 for a long pulse)",
-                s.max_return_energy / up if s else nan, nan, "number"),
-        ]
-    out.append(Row("ionization probability", "quasi-static WKB tunnelling", a.tunnelling_yield,
-                   a.ionization_probability, "probability",
-                   note=f"Keldysh parameter {a.keldysh_parameter:.3g}; peak field / barrier-suppression field "
-                        f"{a.peak_field / a.barrier_suppression_field:.3g}"
-                        + (f". {ionization_note}" if ionization_note else "")))
-    if a.streaking is None and math.isfinite(up):
-        e = a.edges
-        d_why = e.direct_reason if e else ""
-        b_why = e.backscattered_reason if e else ""
-        out += [
-            Row("direct-electron edge", "2 Up", 2 * up, e.direct if e else nan, "energy",
-                note="quantum: knee where the direct distribution falls 0.5 decade (docs/analysis.md)",
-                unresolved=d_why),
-            Row("direct-electron edge", "three-step model, this pulse", s.max_direct_energy if s else nan,
-                e.direct if e else nan, "energy", unresolved=d_why),
-            Row("backscattered edge", "10 Up", 10 * up, e.backscattered if e else nan, "energy",
-                note=f"quantum: end of the plateau, {a.photoelectron_method or 'no'} spectrum", unresolved=b_why),
-            Row("backscattered edge", "three-step model, this pulse", s.max_backscattered_energy if s else nan,
-                e.backscattered if e else nan, "energy", unresolved=b_why),
-        ]
-    pond = a.ponderomotive
-    if pond is not None:
-        out.append(Row("ponderomotive shift", "Up", pond.predicted, pond.measured, "energy",
-                       note=("" if pond.measurable else "not measurable: ") + pond.reason))
-    em = a.emission
-    if em is not None and em.frequency.size:
-        central = _central_half_cycles(em)
-        dev_short = float(np.median(em.deviation_cycles("short")[central]))
-        dev_long = float(np.median(em.deviation_cycles("long")[central]))
-        share = float(np.mean(em.dominant_branch()[central] == "short"))
-        out += [
-            Row("emission time - short trajectory", "three-step model", 0.0, dev_short, "cycles", "difference",
-                note=f"median over the plateau of the central half cycles; {share:.0%} of points nearer short"),
-            Row("emission time - long trajectory", "three-step model", 0.0, dev_long, "cycles", "difference"),
-        ]
+    b.add("ground-state energy", "ground_state_energy", -target_ip, "-Ip asked for in the input",
+          a.ground_state_energy, "energy", reading_u=EIGENVALUE_TOLERANCE,
+          note="quantum: lowest eigenvalue on the run's grid (solver tolerance 1e-10 hartree)")
+    b.add("ionization potential Ip", "ionization_potential", target_ip, "asked for in the input", ip, "energy",
+          reading_u=EIGENVALUE_TOLERANCE, note="quantum: -E of the initial state on the run's grid; the rows below use it")
+    if a.three_step_applies and a.cutoff_reading is not None:
+        r = a.cutoff_reading
+        cut_note = (f"quantum: middle of the range of the cutoff rules (docs/analysis.md); three-step largest return "
+                    f"energy {s.max_return_energy / up:.3g} Up for this pulse (3.17 Up for a long one)")
+        for source, value in (("three-step model, this pulse", s.cutoff_energy), ("Ip + 3.17 Up", ip + CUTOFF_UP * up),
+                              ("1.32 Ip + 3.17 Up", LEWENSTEIN_IP * ip + CUTOFF_UP * up)):
+            b.add("harmonic cutoff", "harmonic_cutoff", value, source, math.nan, "photon", reading=r,
+                  effect=value - ip, note=cut_note)
+    _ionization_row(b, a, ionization_note, ionization_band)
+    if a.three_step_applies and a.regime == "" and a.direct_reading is not None:
+        edge_note = "quantum: middle of the range of the edge rules, surface-flux spectrum (docs/analysis.md)"
+        for quantity, key, law, value, classical, r in (
+                ("direct-electron edge", "direct_edge", "2 Up", 2 * up, s.max_direct_energy, a.direct_reading),
+                ("backscattered edge", "backscattered_edge", "10 Up", 10 * up, s.max_backscattered_energy,
+                 a.backscattered_reading)):
+            b.add(quantity, key, value, law, math.nan, "energy", reading=r, note=edge_note)
+            b.add(quantity, key, classical, "three-step model, this pulse", math.nan, "energy", reading=r,
+                  note=edge_note)
+    if a.ati is not None:
+        b.add("ATI comb shift", "line_shift", -up, "-Up (the threshold is raised by Up)", math.nan, "energy",
+              reading=a.ati.shift, effect=up,
+              note="quantum: offset of the ATI comb from n hbar w - Ip, modulo the photon energy (docs/analysis.md)")
+    for branch, t in a.timing.items():
+        period = t.period
+        b.add(f"emission time, {branch} branch", f"emission_time_{branch}", t.classical * period,
+              "three-step model, after the field crest", math.nan, "time",
+              reading=_scaled(t.quantum, period), model_u=t.statistical * period, effect=t.separation * period,
+              spread=t.spread * period, period=period,
+              note=("quantum: median over the plateau of the Gabor-map times after the crest of the birth half "
+                    "cycle (rules: maximum, centroid); spread: half the interquartile range; the statistical "
+                    "part of the uncertainty is the standard error of that median"))
+    _xuv_rows(b, a)
+    return b.rows
+
+
+def _scaled(reading, factor):
+    from dataclasses import replace
+
+    scale = (lambda x: x * factor)
+    return replace(reading, value=scale(reading.value), low=scale(reading.low), high=scale(reading.high),
+                   rules={k: scale(v) for k, v in reading.rules.items()}, resolution=scale(reading.resolution))
+
+
+def _ionization_row(b, a, note, band):
+    reading_u = math.nan
+    p = a.ionization_probability
+    if band is not None and all(math.isfinite(x) for x in band):
+        # the band of the bound-state count covers the error of the Rydberg estimate
+        reading_u = max(abs(p - band[0]), abs(band[1] - p))
+    quasi = a.tunnelling_yield if a.tunnelling_probability.size else math.nan
+    note = (f"Keldysh parameter {a.keldysh_parameter:.3g}; peak field / barrier-suppression field "
+            f"{a.peak_field / a.barrier_suppression_field:.3g}" + (f". {note}" if note else ""))
+    b.add("ionization probability", "ionization_probability", quasi, "quasi-static WKB tunnelling", p,
+          "probability", reading_u=reading_u, note=note)
+
+
+def _xuv_rows(b, a):
+    ip, w = a.ionization_potential, a.omega0
     st = a.streaking
-    if st is not None:
-        out += [
-            Row("photoelectric peak", "hbar w_XUV - Ip", st.xuv_photon_energy - ip, st.photoelectric_energy, "energy",
-                note="quantum: from (|p_left| + p_right) / 2", unresolved=st.reason),
-            Row("streaking shift", "A_IR(t_XUV)", st.vector_potential, st.measured, "momentum",
-                note="quantum: (|p_left| - p_right) / 2", unresolved=st.reason),
-        ]
-    return out
+    if a.regime == "streaking" and st is not None:
+        # Einstein's relation holds within the pulse's bandwidth: its rms width is the model part
+        sigma = a.xuv_bandwidth / (2 * math.sqrt(2 * math.log(2)))
+        b.add("photoelectric line", "line_shift", st.xuv_photon_energy - ip, "hbar w_XUV - Ip", math.nan, "energy",
+              reading=a.photoelectric_reading, model_u=sigma,
+              note="quantum: (|p_left| + p_right)^2 / 8 of the peak centroids; model part: rms spectral width "
+                   "of the XUV pulse")
+        b.add("streaking shift", "streaking_shift", st.vector_potential, "A_IR(t_XUV), infrared field alone",
+              math.nan, "momentum", reading=a.streaking_reading, note="quantum: (|p_left| - p_right) / 2")
+    d = a.dressed
+    if a.regime == "sidebands" and d is not None:
+        # energy conservation places each line only within the XUV pulse's bandwidth:
+        # the transition weight changes across the line and pulls its peak
+        sigma = a.xuv_bandwidth / (2 * math.sqrt(2 * math.log(2)))
+        b.add("line shift in the infrared field", "line_shift", -a.dressing_up,
+              "-Up of the infrared field over the XUV pulse", math.nan, "energy", reading=d.shift, model_u=sigma,
+              note="quantum: shift of the comb of lines from hbar w_XUV - Ip, modulo the infrared photon energy "
+                   "(docs/analysis.md); the electron leaves the pulse without regaining its quiver energy; "
+                   "model part: rms spectral width of the XUV pulse")
+        for name, r in (("below", d.below), ("above", d.above)):
+            b.add(f"sideband {name} the line", "sideband_spacing", w, "one infrared photon", math.nan, "energy",
+                  reading=r, effect=w, model_u=sigma,
+                  note="quantum: distance from the main line (rules: parabola, centroid); model part: rms spectral "
+                       "width of the XUV pulse")
 
 
-def _central_half_cycles(em):
-    """Rows of the half cycles holding at least half the largest number of plateau points."""
-    labels, counts = np.unique(em.half_cycle, return_counts=True)
-    keep = labels[counts >= 0.5 * counts.max()]
-    return np.isin(em.half_cycle, keep)
+# --------------------------------------------------------------------------- rendering
 
 
-def _units_of(row: Row, value: float, omega0: float) -> dict:
-    if row.kind in ("energy", "photon"):
-        out = {"au": value, "eV": value * units.HARTREE_EV}
-        if row.kind == "photon" and math.isfinite(omega0):
-            out["order"] = value / omega0
-        return out
-    return {"au": value}
-
-
-def _format(row: Row, value: float, omega0: float) -> str:
+def _value(row: Row, value: float, signed=True) -> str:
     if not math.isfinite(value):
         return "-"
     if row.kind in ("energy", "photon"):
-        text = f"{value * units.HARTREE_EV:.3f} eV ({value:.4g})"
-        if row.kind == "photon" and math.isfinite(omega0):
-            text += f" H{value / omega0:.1f}"
-        return text
+        return f"{value * units.HARTREE_EV:.3f}"
+    if row.kind == "time":
+        return f"{value / row.period:.3f}"
     if row.kind == "probability":
-        return f"{value:.3e}"
-    if row.kind == "momentum":
-        return f"{value:+.4f} a.u."
-    if row.kind == "cycles":
-        return f"{value:+.3f} cycles"
-    return f"{value:.4g}"
+        return f"{value:.4g}"
+    return f"{value:+.4f}" if signed else f"{value:.4f}"
 
 
-def _format_comparison(row: Row) -> str:
-    c = row.comparison
-    if not math.isfinite(c):
-        return "-"
-    if row.compare == "ratio":
-        return f"x {c:.3f}"
-    if row.kind in ("energy", "photon"):
-        return f"{c * units.HARTREE_EV:+.3f} eV"
-    return f"{c:+.4g}"
+def _unit_label(row: Row) -> str:
+    return {"energy": "eV", "photon": "eV", "probability": "", "momentum": "a.u.", "time": "cycle"}[row.kind]
 
 
-def to_json(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "") -> dict:
-    """The table as JSON-ready data (energies in a.u. and eV, photons also as orders)."""
+def _cell(row: Row, value: float, omega0: float, with_u=False) -> str:
+    text = _value(row, value)
+    if text == "-":
+        return text
+    if with_u and math.isfinite(row.uncertainty):
+        text += f" +- {_value(row, row.uncertainty, signed=False)}"
+    unit = _unit_label(row)
+    text += f" {unit}" if unit else ""
+    if row.kind == "photon" and math.isfinite(omega0):
+        text += f" (H{value / omega0:.1f})"
+    if row.kind == "time":
+        text += f" ({units.au_to_fs(value):.3f} fs)"
+    return text
+
+
+def to_json(table: list[Row], a: RunAnalysis) -> dict:
+    """The rows as JSON-ready data: values in atomic units (``unit``), energies also in eV,
+    times also in fs and cycles; ``null`` where a value does not apply."""
     def clean(x):
         return None if isinstance(x, float) and not math.isfinite(x) else x
 
-    return {
-        "photon_energy_au": clean(a.omega0),
-        "ponderomotive_energy_au": clean(a.ponderomotive_energy),
-        "rows": [
-            {
-                "quantity": r.quantity,
-                "prediction_from": r.prediction_label,
-                "prediction": {k: clean(v) for k, v in _units_of(r, r.prediction, a.omega0).items()},
-                "quantum": {k: clean(v) for k, v in _units_of(r, r.quantum, a.omega0).items()},
-                r.compare: clean(r.comparison),
-                "note": r.note,
-                **({"unresolved": r.unresolved} if r.unresolved else {}),
-            }
-            for r in rows(a, target_ip, ionization_note)
-        ],
-        "notes": list(a.notes),
-    }
+    def also(r, x):
+        if r.kind in ("energy", "photon"):
+            return {"eV": clean(x * units.HARTREE_EV)}
+        if r.kind == "time":
+            return {"fs": clean(units.au_to_fs(x)), "cycles": clean(x / r.period)}
+        return {}
 
-
-def format_table(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "") -> str:
-    """The table as plain text for people."""
-    head = ("quantity", "semiclassical prediction", "prediction", "quantum result", "ratio/diff")
-    table = rows(a, target_ip, ionization_note)
-    footnotes = []
+    out = []
     for r in table:
-        if r.unresolved and r.unresolved not in footnotes:
-            footnotes.append(r.unresolved)
+        row = {"quantity": r.quantity, "key": r.key, "prediction": clean(r.prediction), "source": r.source,
+               "quantum": clean(r.quantum), "uncertainty": clean(r.uncertainty), "unit": r.unit,
+               "verdict": r.verdict or None, "note": r.note, "difference": clean(r.difference),
+               "difference_in_uncertainties": clean(r.z), "reason": r.reason or None,
+               "rule_range": [clean(r.low), clean(r.high)], "rules": {k: clean(v) for k, v in r.rules},
+               "uncertainty_parts": {k: clean(v) for k, v in r.parts},
+               "noise_headroom_decades": clean(r.headroom)}
+        if r.kind in ("energy", "photon", "time"):
+            row["in_other_units"] = {"prediction": also(r, r.prediction), "quantum": also(r, r.quantum),
+                                     "uncertainty": also(r, r.uncertainty)}
+        if r.kind == "time":
+            row["spread"] = clean(r.spread)
+        out.append(row)
+    return {"photon_energy_au": clean(a.omega0), "ponderomotive_energy_au": clean(a.ponderomotive_energy),
+            "rows": out, "notes": list(a.notes) + ([a.three_step_reason] if a.three_step_reason else [])}
 
-    def quantum_cell(r):
-        if r.unresolved:
-            return f"unresolved [{footnotes.index(r.unresolved) + 1}]"
-        return _format(r, r.quantum, a.omega0)
 
-    body = [(r.quantity, r.prediction_label, _format(r, r.prediction, a.omega0), quantum_cell(r),
-             _format_comparison(r)) for r in table]
+def format_table(table: list[Row], a: RunAnalysis) -> str:
+    """The rows as plain text for people, footnotes marked on their rows."""
+    footnotes = []
+
+    def mark(text):
+        if not text:
+            return ""
+        if text not in footnotes:
+            footnotes.append(text)
+        return f"[{footnotes.index(text) + 1}]"
+
+    head = ("quantity", "semiclassical prediction", "prediction", "quantum +- uncertainty", "(q-p)/u", "verdict")
+    body = []
+    for r in table:
+        quantum = _cell(r, r.quantum, a.omega0, with_u=True)
+        if r.kind == "time" and math.isfinite(r.spread) and math.isfinite(r.quantum):
+            quantum += f", spread {r.spread / r.period:.2f}"
+        z = f"{r.z:+.1f}" if math.isfinite(r.z) else "-"
+        marks = "".join(m for m in (mark(r.note), mark(r.reason)) if m)
+        body.append((r.quantity, r.source, _cell(r, r.prediction, a.omega0), quantum, z,
+                     f"{r.verdict or '-'} {marks}".rstrip()))
     widths = [max(len(x[i]) for x in [head, *body]) for i in range(len(head))]
-    lines = ["  ".join(h.ljust(w) for h, w in zip(head, widths)), "  ".join("-" * w for w in widths)]
-    notes = []
-    for r, cells in zip(table, body):
-        lines.append("  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip())
-        if r.note and r.note not in notes:
-            notes.append(r.note)
+    lines = []
     if math.isfinite(a.ponderomotive_energy):
-        lines.insert(0, f"photon energy {a.omega0 * units.HARTREE_EV:.4f} eV, Up {a.ponderomotive_energy * units.HARTREE_EV:.4f} eV, "
-                        f"Ip {a.ionization_potential * units.HARTREE_EV:.4f} eV; energies in eV (a.u.), H = harmonic order")
-    lines += [""] + [f"* {n}" for n in notes + list(a.notes)]
-    lines += [f"[{k}] {why}: the reading level stands less than {NOISE_MARGIN:g} decade above the spectrum's "
-              "noise floor, so no value is given (docs/analysis.md)" for k, why in enumerate(footnotes, 1)]
+        lines.append(f"photon energy {a.omega0 * units.HARTREE_EV:.4f} eV, Up {a.ponderomotive_energy * units.HARTREE_EV:.4f}"
+                     f" eV, Ip {a.ionization_potential * units.HARTREE_EV:.4f} eV; H = harmonic order; times in "
+                     "optical cycles after the field crest")
+    lines += ["  ".join(h.ljust(wd) for h, wd in zip(head, widths)).rstrip(), "  ".join("-" * wd for wd in widths)]
+    lines += ["  ".join(c.ljust(wd) for c, wd in zip(cells, widths)).rstrip() for cells in body]
+    lines += ["", "verdict: agrees when |quantum - prediction| <= 2 u, u the combined uncertainty (reading range, "
+                  "numerical spread, model width, in quadrature); unresolved below the noise floor, not converged, "
+                  "or when u is not smaller than the effect (docs/analysis.md)"]
+    lines += [f"[{k}] {text}" for k, text in enumerate(footnotes, 1)]
+    lines += [f"* {n}" for n in list(a.notes) + ([f"three-step rows left out: {a.three_step_reason}"]
+                                                 if a.three_step_reason else [])]
     return "\n".join(lines)

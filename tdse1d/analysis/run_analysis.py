@@ -19,15 +19,30 @@ import numpy as np
 from ..semiclassical import three_step, tunnelling
 from ..spectra.cutoff import CutoffEstimate, noise_floor, read_cutoff
 from ..spectra.harmonic import harmonic_spectrum
+from ..spectra.reading import Reading, cutoff_family
+from ..spectra.time_frequency import default_gabor_width
 from .emission import EmissionTimes, TF_TOP, TimeFrequencyMap, emission_times, time_frequency_map
 from .photoelectrons import (PhotoelectronEdges, PonderomotiveShift, StreakingShift, _companion_on, field_free_floor,
-                             photoelectron_edges, ponderomotive_shift, streaking_shift)
+                             ponderomotive_shift)
+from .readings import edge_family, emission_timing, field_crests, streaking_family
+from .sidebands import WRAP_ABOVE, DressedLine, dressed_line
 
 
 #: photoelectron spectra in order of preference: the surface flux method counts the
 #: absorbed electrons too, so it is complete on a small box; "mask" is read from files
 #: written before it replaced the mask method
 PHOTOELECTRON_METHOD_ORDER = ("surface_flux", "mask", "plane_wave")
+#: the three-step rows need a plateau: the largest return energy must span more than
+#: this many photons of the driving field, twice the 2-photon-wide window over which
+#: the cutoff rules smooth the spectrum, or no plateau can be told from its fall
+PLATEAU_PHOTONS = 4.0
+#: an XUV pulse inside an infrared field: the streaking picture needs A_IR nearly
+#: constant over the XUV burst, an infrared phase advance of at most pi/2 over its
+#: intensity FWHM (FWHM <= T_IR / 4); the sidebands are resolved when the XUV line is
+#: narrower than half the infrared photon energy, 4 ln2 / FWHM <= w_IR / 2 for a
+#: Gaussian pulse, i.e. FWHM >= 0.88 T_IR (one cycle taken)
+STREAKING_MAX_CYCLES = 0.25
+SIDEBAND_MIN_CYCLES = 1.0
 
 @dataclass(frozen=True)
 class RunAnalysis:
@@ -62,6 +77,30 @@ class RunAnalysis:
     harmonic_floor_log10: np.ndarray | None = None
     #: (energy, dP/dE) of the field-free companion (:func:`field_free_floor`)
     photoelectron_floor: tuple | None = None
+    #: an XUV pulse inside an infrared field: "streaking", "sidebands" or "" (neither)
+    regime: str = ""
+    #: whether the three-step rows fit the run (a driving field below Ip with a
+    #: plateau, PLATEAU_PHOTONS), and why not
+    three_step_applies: bool = False
+    three_step_reason: str = ""
+    #: readings by the families of rules (tdse1d.spectra.reading.Reading)
+    cutoff_reading: Reading | None = None
+    direct_reading: Reading | None = None
+    backscattered_reading: Reading | None = None
+    streaking_reading: Reading | None = None
+    photoelectric_reading: Reading | None = None
+    #: spectral FWHM of the XUV pulse (hartree): the width within which Einstein's
+    #: relation places the photoelectric line
+    xuv_bandwidth: float = math.nan
+    #: the XUV line dressed by the infrared field, and the infrared Up averaged over the
+    #: XUV pulse's intensity (hartree)
+    dressed: DressedLine | None = None
+    dressing_up: float = math.nan
+    #: the ATI comb of a driving field with Up below its photon energy, read like the
+    #: dressed line (its shift from n hbar w - Ip, and the spacing of its peaks)
+    ati: DressedLine | None = None
+    #: "short"/"long" -> tdse1d.analysis.readings.BranchTiming
+    timing: dict = field(default_factory=dict)
 
     @property
     def tunnelling_yield(self) -> float:
@@ -87,7 +126,7 @@ class _Inputs:
     harmonic_frequency: np.ndarray
     harmonic_power: np.ndarray
     window: str
-    pulses: tuple  # (omega, peak_field, centre time, A(t) callable) per pulse
+    pulses: tuple  # (omega, peak_field, centre time, A(t) callable, E(t) callable, intensity FWHM) per pulse
     photoelectrons: dict  # method -> (momentum, left, right, energy, energy density)
     estimate: dict  # first pulse's PulseEstimate as a dict
     potential: object = None
@@ -101,29 +140,50 @@ def _xuv_pulse(inputs, ip):
     return above[0] if above and below else None
 
 
+def _driving_field(inputs, xuv):
+    """E(t), A(t) of the classical model: the whole field, or without the XUV pulse."""
+    if xuv is None:
+        return inputs.electric, inputs.vector_potential
+    t = inputs.time
+    rest = [q for i, q in enumerate(inputs.pulses) if i != xuv]
+    return sum(q[4](t) for q in rest), sum(q[3](t) for q in rest)
+
+
 def _analyse(inputs: _Inputs) -> RunAnalysis:
     notes = []
     e0 = float(inputs.energies[inputs.initial_state])
     ip = -e0
-    est = inputs.estimate
+    est = dict(inputs.estimate)
+    have_field = bool(inputs.pulses) and ip > 0 and np.any(inputs.vector_potential != 0)
+    xuv = _xuv_pulse(inputs, ip) if have_field else None
+    if xuv is not None and float(est.get("photon_energy", math.nan)) > ip:
+        # the first pulse is the XUV: the semiclassical numbers are the driving field's
+        first = next(q for i, q in enumerate(inputs.pulses) if i != xuv)
+        est.update(photon_energy=first[0], peak_field=first[1], ponderomotive_energy=first[1] ** 2 / (4 * first[0] ** 2))
+        est["keldysh_parameter"] = math.sqrt(ip / (2 * est["ponderomotive_energy"]))
     omega0 = float(est.get("photon_energy", math.nan))
     up = float(est.get("ponderomotive_energy", math.nan))
-    have_field = bool(inputs.pulses) and ip > 0 and np.any(inputs.vector_potential != 0)
+    electric, vector = _driving_field(inputs, xuv) if have_field else (inputs.electric, inputs.vector_potential)
 
     three = traj = None
     if have_field:
         try:
-            traj = three_step.trajectories(inputs.time, inputs.electric, inputs.vector_potential)
+            traj = three_step.trajectories(inputs.time, electric, vector)
             three = three_step.summary(traj, ip)
         except ValueError as exc:
             notes.append(f"three-step model not evaluated: {exc}")
 
     # an XUV pulse (hbar w > Ip) ionizes by one photon: neither the quasi-static
     # tunnelling picture nor returns in its field apply, so both are left out
-    xuv = _xuv_pulse(inputs, ip) if have_field else None
     if xuv is not None or (have_field and omega0 > ip):
         notes.append("a pulse with photon energy above Ip: tunnelling estimate and emission times not evaluated")
     quasi_static = have_field and xuv is None and not omega0 > ip
+    applies, why_not = _three_step_applies(three, omega0, ip, up)
+    regime, bandwidth = "", math.nan
+    if xuv is not None:
+        regime, bandwidth, text = _xuv_regime(inputs.pulses[xuv], omega0)
+        if text:
+            notes.append(text)
     t_tun = p_tun = np.zeros(0)
     if quasi_static and inputs.potential is not None:
         try:
@@ -135,7 +195,7 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         except ValueError as exc:
             notes.append(f"tunnelling estimate not evaluated: {exc}")
 
-    cutoff, floor_log10 = None, None
+    cutoff, floor_log10, cutoff_reading = None, None, None
     if have_field and omega0 > 0 and inputs.harmonic_power.size:
         # the rule of the run (runner): the field's spectrum through the same window is
         # the companion floor of the acceleration spectrum
@@ -144,36 +204,60 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
             cutoff = read_cutoff(inputs.harmonic_frequency, inputs.harmonic_power, omega0, ip, noise=leakage)
             floor_log10 = noise_floor(inputs.harmonic_frequency, inputs.harmonic_power, companion=leakage,
                                       half_width=omega0)
+            if applies:
+                # below the XUV pulse's own spectrum in a two-colour run
+                top = inputs.pulses[xuv][0] - 2 * bandwidth if xuv is not None else None
+                cutoff_reading = cutoff_family(inputs.harmonic_frequency, inputs.harmonic_power, omega0, ip,
+                                               noise=leakage, max_frequency=top)
         except ValueError as exc:
             notes.append(f"harmonic cutoff not read: {exc}")
     harmonic_cutoff = cutoff.frequency if cutoff is not None else math.nan
 
     tf = emission = None
+    timing = {}
     if have_field and omega0 > 0:
         predicted = three.cutoff_energy if three is not None else float(est.get("cutoff_energy", ip))
         read = harmonic_cutoff if math.isfinite(harmonic_cutoff) else 0.0
         try:
             tf = time_frequency_map(inputs.time, inputs.acceleration, omega0, TF_TOP * max(predicted, read))
             if quasi_static and three is not None and three.short_branch:
-                emission = emission_times(tf, three, 2 * math.pi / omega0)
+                period = 2 * math.pi / omega0
+                emission = emission_times(tf, three, period)
+                if applies:
+                    family = {"maximum": emission, "centroid": emission_times(tf, three, period, rule="centroid")}
+                    timing = emission_timing(family, field_crests(inputs.time, electric, three, period),
+                                             1.0 / default_gabor_width(omega0))
         except ValueError as exc:
             notes.append(f"time-frequency map not evaluated: {exc}")
 
     method = next((m for m in PHOTOELECTRON_METHOD_ORDER if m in inputs.photoelectrons), None)
-    edges = pond = streak = None
+    edges = pond = streak = dressed = ati = None
+    readings = {}
+    dressing_up = math.nan
     if method is not None and have_field:
         p, left, right, energy, density = inputs.photoelectrons[method]
+        companion = _companion_on(energy, *(inputs.photoelectron_floor or (None, None)))
         if not np.any(np.nan_to_num(left + right) > 0):
             notes.append("the photoelectron spectrum is empty")
         elif xuv is None:
             reach = 2 * three.max_backscattered_energy if three is not None else None
-            companion = _companion_on(energy, *(inputs.photoelectron_floor or (None, None)))
-            edges = photoelectron_edges(energy, density, omega0, max_energy=reach, noise=companion)
+            readings["direct"], readings["backscattered"], edges = edge_family(
+                energy, density, omega0, max_energy=reach, noise=companion)
             pond = ponderomotive_shift(energy, density, omega0, ip, up, noise=companion)
+            if up < (1 - WRAP_ABOVE) * omega0:
+                # the comb fixes the shift modulo the photon energy: read while Up is below it
+                first = math.ceil(ip / omega0) * omega0
+                ati = dressed_line(energy, density, first, ip, omega0, max(2 * up, 4 * omega0), noise=companion)
         else:
-            omega_x, _, t_x, _ = inputs.pulses[xuv]
-            a_ir = sum(float(q[3](np.array([t_x]))[0]) for i, q in enumerate(inputs.pulses) if i != xuv)
-            streak = streaking_shift(p, left, right, t_x, omega_x, ip, a_ir)
+            omega_x, t_x = inputs.pulses[xuv][0], inputs.pulses[xuv][2]
+            if regime == "streaking":
+                a_ir = sum(float(q[3](np.array([t_x]))[0]) for i, q in enumerate(inputs.pulses) if i != xuv)
+                readings["streaking"], readings["photoelectric"], streak = streaking_family(
+                    p, left, right, t_x, omega_x, ip, a_ir)
+            elif regime == "sidebands":
+                dressing_up = _up_over_xuv(inputs, xuv, vector, omega0)
+                width = 2 * math.sqrt(2 * (omega_x - ip)) * 2 * math.sqrt(dressing_up) + dressing_up + 2 * omega0
+                dressed = dressed_line(energy, density, omega_x, ip, omega0, width, noise=companion)
             pond = PonderomotiveShift(False, "an XUV pulse ionizes in one photon: no ATI comb of the IR field",
                                       math.nan, up)
     return RunAnalysis(
@@ -200,13 +284,67 @@ def _analyse(inputs: _Inputs) -> RunAnalysis:
         cutoff=cutoff,
         harmonic_floor_log10=floor_log10,
         photoelectron_floor=inputs.photoelectron_floor,
+        regime=regime,
+        three_step_applies=applies,
+        three_step_reason=why_not,
+        cutoff_reading=cutoff_reading,
+        direct_reading=readings.get("direct"),
+        backscattered_reading=readings.get("backscattered"),
+        streaking_reading=readings.get("streaking"),
+        photoelectric_reading=readings.get("photoelectric"),
+        xuv_bandwidth=bandwidth,
+        dressed=dressed,
+        dressing_up=dressing_up,
+        timing=timing,
+        ati=ati,
     )
+
+
+def _three_step_applies(three, omega0, ip, up):
+    """(whether the three-step rows fit the run, why not)."""
+    if three is None or not (omega0 > 0 and math.isfinite(up)):
+        return False, "no driving field below Ip"
+    if not omega0 < ip:
+        return False, "the photon energy is above Ip: one-photon ionization, no tunnelling or returns"
+    if not three.max_return_energy > PLATEAU_PHOTONS * omega0:
+        return False, (f"no plateau: the largest return energy {three.max_return_energy / omega0:.2g} photons "
+                       f"is below {PLATEAU_PHOTONS:g} photons of the driving field "
+                       f"(Keldysh parameter {math.sqrt(ip / (2 * up)):.3g})")
+    return True, ""
+
+
+def _xuv_regime(xuv_row, omega_ir):
+    """("streaking" | "sidebands" | "", spectral FWHM of the XUV pulse, note)."""
+    fwhm = float(xuv_row[5])
+    # spectral intensity FWHM of a Gaussian pulse of intensity FWHM tau: 4 ln2 / tau
+    # (Fourier pair); taken for the other envelopes as well
+    bandwidth = 4 * math.log(2) / fwhm if fwhm > 0 else math.nan
+    cycles = fwhm * omega_ir / (2 * math.pi)
+    if cycles <= STREAKING_MAX_CYCLES:
+        return "streaking", bandwidth, ""
+    if cycles >= SIDEBAND_MIN_CYCLES:
+        return "sidebands", bandwidth, ""
+    return "", bandwidth, (f"the XUV pulse lasts {cycles:.2g} infrared cycles (FWHM): too long for streaking "
+                           f"(<= {STREAKING_MAX_CYCLES:g}), too short for resolved sidebands "
+                           f"(>= {SIDEBAND_MIN_CYCLES:g}); neither is read")
+
+
+def _up_over_xuv(inputs, xuv, vector, omega_ir):
+    """The infrared Up = <A^2>/2 (cycle average), averaged over the XUV pulse's intensity (hartree)."""
+    t = inputs.time
+    dt = t[1] - t[0]
+    half = max(1, int(round(math.pi / omega_ir / dt)))
+    kernel = np.ones(2 * half + 1) / (2 * half + 1)
+    up_t = 0.5 * np.convolve(np.asarray(vector, float) ** 2, kernel, mode="same")
+    weight = inputs.pulses[xuv][4](t) ** 2
+    return float(np.sum(up_t * weight) / np.sum(weight))
 
 
 def _pulse_rows(field_):
     return tuple(
         (float(p.omega), float(getattr(p, "peak_field", math.nan)),
-         float(getattr(p, "delay", 0.5 * (p.start + p.end))), p.vector_potential)
+         float(getattr(p, "delay", 0.5 * (p.start + p.end))), p.vector_potential, p.electric,
+         float(p.envelope.intensity_fwhm) if hasattr(p, "envelope") else float(p.end - p.start))
         for p in field_.pulses
     )
 

@@ -17,7 +17,6 @@ import numpy as np
 
 from ..input.spec import InputError
 from ..plots import run_figures, scan_figures
-from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 __all__ = ["plot", "Figures", "KINDS", "all_figures", "output_files"]
 
@@ -46,27 +45,56 @@ def _density(f, cache):
                                 f["field/time"][()], f["field/electric"][()])
 
 
+def _rows(f, cache):
+    """The report's rows of the file (its predictions, quantum values and uncertainties)."""
+    if "rows" not in cache:
+        from ..analysis.report import rows
+        from ..io.analysis_file import ionization_band, target_ionization_potential
+        from .results import _numerical_uncertainties
+
+        numerical, not_converged = _numerical_uncertainties(f.filename)
+        band = ionization_band(f["ionization"]) if "ionization" in f else None
+        cache["rows"] = rows(_analysis(f, cache), target_ionization_potential(f.attrs.get("input", "")), "", band,
+                             numerical, not_converged)
+    return cache["rows"]
+
+
+def _band(label, row):
+    """(label, low, high) of a row's quantum value +- its combined uncertainty (NaNs if none)."""
+    if not (math.isfinite(row.quantum) and math.isfinite(row.uncertainty)):
+        return (label, math.nan, math.nan)
+    return (label, row.quantum - row.uncertainty, row.quantum + row.uncertainty)
+
+
 def _harmonic(f, cache):
     a = _analysis(f, cache)
     g = f["spectra/harmonic"]
-    cutoffs = [("Ip + 3.17 Up", a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
-               ("1.32 Ip + 3.17 Up", LEWENSTEIN_IP * a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy)]
-    if a.three_step is not None:
-        cutoffs.append(("three-step model", a.three_step.cutoff_energy))
-    cutoffs.append(("read off", a.harmonic_cutoff))
-    return run_figures.harmonic_figure(g["frequency"][()], g["power"][()], a.omega0, cutoffs)
+    rows = [r for r in _rows(f, cache) if r.key == "harmonic_cutoff"]
+    cutoffs = [(r.source, r.prediction) for r in rows]
+    bands = [_band("read off +- u", rows[0])] if rows else []
+    return run_figures.harmonic_figure(g["frequency"][()], g["power"][()], a.omega0, cutoffs, bands)
 
 
 def _time_frequency(f, cache):
+    from ..analysis.readings import field_crests
+
     a = _analysis(f, cache)
     tf = a.time_frequency
     if tf is None:
         raise InputError("no time-frequency map: the run has no field", "--what")
     s = a.three_step
     branches = [("short", s.short_branch), ("long", s.long_branch)] if s is not None else []
+    bands = []
+    timing = {r.key: r for r in _rows(f, cache) if r.key.startswith("emission_time")}
+    row = timing.get("emission_time_long")
+    if row is not None and s is not None and math.isfinite(row.quantum):
+        t, e = f["field/time"][()], f["field/electric"][()]
+        for crest in field_crests(t, e, s, row.period):
+            low, high = crest + row.quantum - row.uncertainty, crest + row.quantum + row.uncertainty
+            bands.append(("quantum emission time, median +- u", low, high))
     return run_figures.time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
-                                       s.cutoff_energy if s is not None else math.nan,
-                                       f["field/time"][()], f["field/electric"][()])
+                                       s.cutoff_energy if s is not None and a.three_step_applies else math.nan,
+                                       f["field/time"][()], f["field/electric"][()], bands)
 
 
 def _photoelectron(f, cache):
@@ -75,18 +103,35 @@ def _photoelectron(f, cache):
     if method is None:
         raise InputError("the file holds no photoelectron spectrum", "--what")
     g = f[f"spectra/photoelectron/{method}"]
-    up = a.ponderomotive_energy
+    rows = {(r.key, r.source): r for r in _rows(f, cache)}
+    marks, bands = [], []
     if a.streaking is not None:
         st = a.streaking
         marks = [("hbar w_XUV - Ip", st.xuv_photon_energy - a.ionization_potential),
                  ("streaked right, (p0 - A_IR)^2/2", 0.5 * (st.initial_momentum - st.vector_potential) ** 2),
                  ("streaked left, (p0 + A_IR)^2/2", 0.5 * (st.initial_momentum + st.vector_potential) ** 2)]
+        line = next((r for (k, _), r in rows.items() if k == "line_shift"), None)
+        if line is not None:
+            bands.append(_band("photoelectric line +- u", line))
+    elif a.dressed is not None:
+        line = a.dressed.expected - a.dressing_up
+        marks = [("hbar w_XUV - Ip - Up", line), ("- one infrared photon", line - a.omega0),
+                 ("+ one infrared photon", line + a.omega0)]
+        shift = next((r for (k, _), r in rows.items() if k == "line_shift"), None)
+        if shift is not None and math.isfinite(shift.quantum):
+            centre = a.dressed.expected + shift.quantum
+            bands.append(("line read off +- u", centre - shift.uncertainty, centre + shift.uncertainty))
     else:
-        marks = [("2 Up", 2 * up), ("10 Up", 10 * up)]
-        if a.edges is not None:
-            marks += [("direct edge read off", a.edges.direct), ("backscattered edge read off", a.edges.backscattered)]
+        for key, label in (("direct_edge", "direct edge"), ("backscattered_edge", "backscattered edge")):
+            for (k, source), r in rows.items():
+                if k == key:
+                    marks.append((f"{label}: {source}", r.prediction))
+            first = next((r for (k, _), r in rows.items() if k == key), None)
+            if first is not None:
+                bands.append(_band(f"{label} read off +- u", first))
     return run_figures.photoelectron_figure(g["energy"][()], g["energy_density_left"][()], g["energy_density_right"][()],
-                                      marks, title=f"photoelectron spectrum ({method.replace('_', ' ')})")
+                                      marks, title=f"photoelectron spectrum ({method.replace('_', ' ')})",
+                                      bands=bands)
 
 
 def _populations(f, cache):

@@ -27,11 +27,13 @@ __all__ = ["report", "export", "Report", "Table", "SPECTRA", "columns"]
 
 @dataclass(frozen=True)
 class Report:
-    """The semiclassical prediction beside the quantum result of one run file.
+    """Each semiclassical prediction beside the quantum result of one run file, with the
+    quantum value's uncertainty and a verdict.
 
-    ``rows`` are :class:`tdse1d.analysis.report.Row` (values in atomic units);
-    ``str(report)`` is the table ``tdse1d report`` prints, :meth:`to_json` what
-    ``tdse1d report --json`` prints.
+    ``rows`` are :class:`tdse1d.analysis.report.Row` (quantity, key, prediction, source,
+    quantum, uncertainty, unit, verdict, note; values in atomic units); ``str(report)``
+    is the table ``tdse1d report`` prints, :meth:`to_json` what ``tdse1d report --json``
+    prints.
     """
 
     path: Path
@@ -39,33 +41,55 @@ class Report:
     target_ionization_potential: float = math.nan
     """The ionization potential the input asked for (hartree); NaN if none."""
     ionization_note: str = ""
+    ionization_band: tuple | None = None
+    """The band of the bound-state count of P_ion, ``/ionization/probability_band``."""
+    numerical: dict = field(default_factory=dict, repr=False)
+    """Quantity key -> numerical uncertainty (atomic units) from companion runs."""
+    not_converged: dict = field(default_factory=dict, repr=False)
+    """Quantity key -> "not converged: enlarge <parameter>"."""
 
     @property
     def rows(self) -> list:
         from ..analysis.report import rows
 
-        return rows(self.analysis, self.target_ionization_potential, self.ionization_note)
+        return rows(self.analysis, self.target_ionization_potential, self.ionization_note, self.ionization_band,
+                    self.numerical, self.not_converged)
 
     def to_json(self) -> dict:
-        """The rows for machines: energies in a.u. and eV, photons also as orders."""
+        """The rows for machines: atomic units, energies also in eV, times also in fs and cycles."""
         from ..analysis.report import to_json
 
-        return to_json(self.analysis, self.target_ionization_potential, self.ionization_note)
+        return to_json(self.rows, self.analysis)
 
     def table(self) -> str:
         """The rows as plain text for people."""
         from ..analysis.report import format_table
 
-        return format_table(self.analysis, self.target_ionization_potential, self.ionization_note)
+        return format_table(self.rows, self.analysis)
 
     __str__ = table
 
     def __repr__(self) -> str:
-        return f"<Report {Path(self.path).name}: {len(self.rows)} rows>"
+        table = self.rows
+        words = [r.verdict for r in table if r.verdict]
+        counts = ", ".join(f"{words.count(w)} {w}" for w in ("agrees", "deviates", "unresolved") if w in words)
+        return f"<Report {Path(self.path).name}: {len(table)} rows ({counts or 'no verdicts'})>"
+
+
+def _numerical_uncertainties(path) -> tuple[dict, dict]:
+    """Numerical uncertainties of a run file's quantities, and the ones not converged.
+
+    Returns
+    -------
+    (dict, dict)
+        Quantity key -> absolute spread (atomic units), and quantity key -> "not
+        converged: enlarge <parameter>". Empty until the file holds companion runs.
+    """
+    return {}, {}
 
 
 def report(path) -> Report:
-    """The semiclassical prediction beside the quantum result of a run (``tdse1d report``).
+    """Each semiclassical prediction beside the quantum result of a run (``tdse1d report``).
 
     Parameters
     ----------
@@ -75,17 +99,21 @@ def report(path) -> Report:
     Returns
     -------
     Report
-        Rows of quantity, prediction, quantum result and their ratio or difference
-        (atomic units inside; the table and JSON show eV and harmonic orders too).
+        Rows of quantity, key, prediction and its source, quantum value, combined
+        uncertainty, unit (atomic units), verdict (agrees, deviates, unresolved) and
+        note; the table and JSON show eV, fs, cycles and harmonic orders too.
     """
-    from ..io.analysis_file import analyse_file, ionization_note, target_ionization_potential
+    from ..io.analysis_file import (analyse_file, ionization_band, ionization_note,
+                                    target_ionization_potential)
     from ..io.checked_open import open_result
 
     with open_result(path, kinds=("run",)) as f:
         analysis = analyse_file(f)
         target = target_ionization_potential(f.attrs.get("input", ""))
         note = ionization_note(f["ionization"]) if "ionization" in f else ""
-    return Report(Path(path), analysis, target, note)
+        band = ionization_band(f["ionization"]) if "ionization" in f else None
+    numerical, not_converged = _numerical_uncertainties(path)
+    return Report(Path(path), analysis, target, note, band, numerical, not_converged)
 
 
 # ------------------------------------------------------------------------ tables

@@ -228,6 +228,20 @@ def ionization_note(group) -> str:
     return text
 
 
+def ionization_band(group):
+    """``(lower, upper)`` of ``/ionization/probability_band``, None for a file without it.
+
+    Parameters
+    ----------
+    group : h5py.Group
+        ``/ionization`` of a result file.
+    """
+    if "probability_band" not in group:
+        return None
+    lower, upper = (float(v) for v in group["probability_band"][()])
+    return lower, upper
+
+
 def target_ionization_potential(input_toml) -> float:
     """``atom.ionization_potential`` of the stored input (hartree), NaN if absent."""
     from ..input.spec import tomllib

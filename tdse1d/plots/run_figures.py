@@ -119,8 +119,9 @@ def density_figure(time, x, density, time_field=None, electric=None):
     return fig
 
 
-def harmonic_figure(frequency, power, omega0, cutoffs=()):
-    """Harmonic spectrum on a log scale with predicted cutoffs as labelled lines.
+def harmonic_figure(frequency, power, omega0, cutoffs=(), bands=()):
+    """Harmonic spectrum on a log scale with predicted cutoffs as labelled lines and the
+    quantum reading as a shaded band.
 
     Parameters
     ----------
@@ -130,22 +131,25 @@ def harmonic_figure(frequency, power, omega0, cutoffs=()):
         Carrier frequency (a.u.), for the harmonic-order axis.
     cutoffs : sequence of (label, energy)
         Vertical lines (hartree); non-finite ones are skipped.
+    bands : sequence of (label, low, high)
+        Shaded vertical bands (hartree), e.g. the cutoff read off +- its uncertainty.
     """
     fig, (ax,) = _figure(1, FIGURE_SIZE[1])
     e = _ev(frequency)
     p = np.asarray(power, dtype=float)
     keep = e > 0
     ax.semilogy(e[keep], np.maximum(p[keep], p.max() * 1e-30), lw=0.6, color="C0")
-    top = max([c for _, c in cutoffs if math.isfinite(c)] + [0.0])
+    top = max([c for _, c in cutoffs if math.isfinite(c)] + [hi for _, _, hi in bands if math.isfinite(hi)] + [0.0])
     if top > 0:
         ax.set_xlim(0, 1.6 * top * units.HARTREE_EV)
         visible = p[keep][e[keep] <= 1.6 * top * units.HARTREE_EV]
         ax.set_ylim(max(visible.min(), visible.max() * 1e-16), visible.max() * 10)
     _cutoff_lines(ax, cutoffs)
+    _bands(ax, bands)
     ax.set_xlabel("photon energy (eV)")
     ax.set_ylabel("power (a.u.)")
     _order_axis(ax, omega0)
-    ax.legend(loc="upper right", fontsize="small", frameon=False)
+    ax.legend(loc="lower left", fontsize="small", frameon=False)
     return fig
 
 
@@ -156,6 +160,16 @@ def _cutoff_lines(ax, cutoffs, horizontal=False):
             x = value * units.HARTREE_EV
             line = ax.axhline if horizontal else ax.axvline
             line(x, color=f"C{k + 1}", ls=styles[k % len(styles)], lw=1.0, label=f"{label} ({x:.1f} eV)")
+
+
+def _bands(ax, bands, scale=units.HARTREE_EV, unit="eV"):
+    """Shaded vertical bands [low, high] (a.u., drawn times ``scale``), skipped if not finite."""
+    colours = ("0.35", "tab:olive", "tab:purple", "tab:brown")
+    for k, (label, low, high) in enumerate(bands):
+        if math.isfinite(low) and math.isfinite(high):
+            lo, hi = low * scale, high * scale
+            ax.axvspan(lo, hi, color=colours[k % len(colours)], alpha=0.25, lw=0,
+                       label=f"{label} ({0.5 * (lo + hi):.2f} +- {0.5 * (hi - lo):.2f} {unit})" if label else None)
 
 
 def _broken_line(table, omega0):
@@ -170,7 +184,7 @@ def _broken_line(table, omega0):
 
 
 def time_frequency_figure(time, frequency, power, omega0, branches=(), cutoff=math.nan,
-                          time_field=None, electric=None):
+                          time_field=None, electric=None, bands=()):
     """Gabor map of the dipole acceleration with classical emission times on top.
 
     Parameters
@@ -187,6 +201,9 @@ def time_frequency_figure(time, frequency, power, omega0, branches=(), cutoff=ma
         Classical harmonic cutoff (hartree), drawn as a horizontal line.
     time_field, electric : array_like, optional
         Field to draw beneath the map.
+    bands : sequence of (label, low, high)
+        Shaded time bands (a.u.), e.g. the quantum emission time +- its uncertainty in
+        each half cycle; only the first label is shown in the legend.
     """
     power = np.asarray(power, dtype=float)
     top = float(power.max()) if power.size and power.max() > 0 else 1.0
@@ -204,6 +221,11 @@ def time_frequency_figure(time, frequency, power, omega0, branches=(), cutoff=ma
                     color=colours.get(label, "white"), label=f"{label} trajectories" if k == 0 else None)
     if math.isfinite(cutoff):
         ax.axhline(cutoff * units.HARTREE_EV, color="0.8", lw=0.6, ls=":", label="classical cutoff")
+    labelled = False
+    for label, low, high in bands:
+        if math.isfinite(low) and math.isfinite(high):
+            ax.axvspan(_fs(low), _fs(high), color="white", alpha=0.22, lw=0, label=None if labelled else label)
+            labelled = True
     ax.set_ylim(0, _ev(frequency)[-1])
     ax.set_ylabel("photon energy (eV)")
     if omega0 and math.isfinite(omega0):
@@ -211,7 +233,7 @@ def time_frequency_figure(time, frequency, power, omega0, branches=(), cutoff=ma
         right = ax.secondary_yaxis("right", functions=(lambda e: e / w, lambda q: q * w))
         right.set_ylabel("harmonic order")
     ax.set_title("time-frequency map of the dipole acceleration")
-    if branches or math.isfinite(cutoff):
+    if branches or math.isfinite(cutoff) or bands:
         ax.legend(loc="upper left", fontsize="small", frameon=False, labelcolor="white")
     if electric is not None:
         axf.plot(_fs(time_field), electric, lw=0.6, color="0.3")
@@ -220,8 +242,9 @@ def time_frequency_figure(time, frequency, power, omega0, branches=(), cutoff=ma
     return fig
 
 
-def photoelectron_figure(energy, density_left, density_right, marks=(), title="photoelectron spectrum"):
-    """Photoelectron energy spectrum, left- and right-going electrons apart.
+def photoelectron_figure(energy, density_left, density_right, marks=(), title="photoelectron spectrum", bands=()):
+    """Photoelectron energy spectrum, left- and right-going electrons apart, with the
+    predicted edges or lines as labelled lines and the quantum readings as shaded bands.
 
     Parameters
     ----------
@@ -231,6 +254,8 @@ def photoelectron_figure(energy, density_left, density_right, marks=(), title="p
         dP/dE of each side (1/hartree).
     marks : sequence of (label, energy)
         Vertical lines (hartree), e.g. 2 Up and 10 Up.
+    bands : sequence of (label, low, high)
+        Shaded vertical bands (hartree), e.g. an edge read off +- its uncertainty.
     """
     fig, (ax,) = _figure(1, FIGURE_SIZE[1])
     e = _ev(energy)
@@ -240,7 +265,7 @@ def photoelectron_figure(energy, density_left, density_right, marks=(), title="p
         ok = np.isfinite(d) & (d > 0) & (e > 0)
         ax.semilogy(e[ok], d[ok], lw=0.7, color=colour, label=label)
     ax.set_yscale("log")
-    finite = [v for _, v in marks if math.isfinite(v)]
+    finite = [v for _, v in marks if math.isfinite(v)] + [hi for _, _, hi in bands if math.isfinite(hi)]
     if finite:
         ax.set_xlim(0, 1.5 * max(finite) * units.HARTREE_EV)
     both = np.nan_to_num(np.asarray(density_left, float) + np.asarray(density_right, float)) * to_ev
@@ -249,6 +274,7 @@ def photoelectron_figure(energy, density_left, density_right, marks=(), title="p
     if visible.size:
         ax.set_ylim(max(visible.min(), visible.max() * 1e-14), visible.max() * 5)
     _cutoff_lines(ax, marks)
+    _bands(ax, bands)
     ax.set_xlabel("kinetic energy (eV)")
     ax.set_ylabel("dP/dE (1/eV)")
     ax.set_title(title)

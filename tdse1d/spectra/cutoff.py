@@ -162,6 +162,7 @@ def read_cutoff(
     max_iterations=20,
     noise=None,
     noise_margin=NOISE_MARGIN,
+    plateau="median",
 ) -> CutoffEstimate:
     """Read the plateau cutoff off a harmonic spectrum.
 
@@ -179,7 +180,9 @@ def read_cutoff(
        cutoff ``w_c`` is the highest w in ``[w_start, w_end]`` with
        ``S(w) >= P - drop``, so S stays below ``P - drop`` everywhere above it; then
        ``P`` = median of S over ``[w_start, w_c]``. Stop when ``w_c`` repeats a
-       previous value (at most ``max_iterations`` times).
+       previous value (at most ``max_iterations`` times). With ``plateau="top"`` the
+       level stays ``P = max S`` (no iteration): the drop is then counted from the
+       plateau's highest level, which reads a plateau that slopes down earlier.
 
     4. Noise: the reading level ``P - drop`` must stand at least ``noise_margin``
        decades above the noise floor at ``w_c`` (:func:`noise_floor` of the input and
@@ -223,6 +226,8 @@ def read_cutoff(
         ``False`` skips step 4.
     noise_margin : float
         Decades (step 4). Default :data:`NOISE_MARGIN`.
+    plateau : {"median", "top"}
+        Plateau level of step 3: the fixed-point median (default) or the highest level.
 
     Returns
     -------
@@ -247,6 +252,8 @@ def read_cutoff(
     floor_decades = _positive(floor_decades, "floor_decades")
     if float(start_orders) < 0:
         raise ValueError(f"start_orders must be >= 0, got {start_orders}")
+    if plateau not in ("median", "top"):
+        raise ValueError(f"plateau must be 'median' or 'top', got {plateau!r}")
 
     log_power = np.log10(np.maximum(pw, pw.max() * 10.0**-floor_decades))
     smoothed = running_mean(w, log_power, smooth_orders * omega0)
@@ -262,9 +269,9 @@ def read_cutoff(
     s_region = smoothed[region]
     level = float(np.max(s_region))
     seen = set()
-    for _ in range(int(max_iterations)):
+    for _ in range(int(max_iterations) if plateau == "median" else 1):
         last = int(np.flatnonzero(s_region >= level - drop)[-1])
-        if last in seen:
+        if last in seen or plateau == "top":
             break
         seen.add(last)
         level = float(np.median(s_region[: last + 1]))
