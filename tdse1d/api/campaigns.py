@@ -172,7 +172,8 @@ def certify(config, output=None, *, overrides=(), keep_companions: bool | None =
         Keep the companions' files in ``STEM.companions/`` beside it (default: the
         input's ``certification.keep_companions``).
     workers : int, optional
-        Worker processes of the local Dask cluster (default: the cores, at most 4).
+        Worker processes of the local Dask cluster for the companions (default: the
+        cores, at most 3).
     client : distributed.Client, optional
         An existing Dask client to run on instead.
 

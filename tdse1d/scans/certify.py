@@ -166,22 +166,10 @@ def run_and_read(resolved_toml: str, source: str, base_dir: str, output: str) ->
         ``run_point``'s record, and for a finished run ``quantities`` (quantity key ->
         value, atomic units) and ``tolerances`` (key -> (value, reason)).
     """
-    import h5py
-
-    from ..analysis.certification import quantities, tolerances
-    from ..io.analysis_file import analyse_file
     from .worker import run_point
 
     record = run_point(resolved_toml, source, base_dir, output)
-    if record.get("status") == "done":
-        try:
-            with h5py.File(output, "r") as f:
-                analysis = analyse_file(f)
-            record["quantities"] = quantities(analysis)
-            record["tolerances"] = {k: (t.value, t.reason) for k, t in tolerances(analysis).items()}
-        except (OSError, KeyError, ValueError, ArithmeticError) as exc:
-            record.update(status="failed", error=f"its result could not be analysed: {type(exc).__name__}: {exc}")
-    return record
+    return _read_back(record, output) if record.get("status") == "done" else record
 
 
 @dataclass(frozen=True)
@@ -239,71 +227,49 @@ class CertifiedRun:
                 f"{flagged[:120]}; {1 + len(self.companions)} runs in {self.wall:.1f} s>")
 
 
-def certify_problem(problem, output, *, keep_companions: bool = False, workers: int | None = None,
-                    client=None) -> CertifiedRun:
-    """Run a problem and its companions in parallel and store every quantity's spread.
+def _read_back(record: dict, path) -> dict:
+    """Add the quantities and tolerances of the finished run in ``path`` to its record
+    (its analysis recomputed from the file, the field-free floor read from it)."""
+    import h5py
 
-    Parameters
-    ----------
-    problem : tdse1d.input.problem.Problem
-        The main run, as given.
-    output : path
-        Its result file (written when the runs are done and certified). A kept
-        companion file of the same companion input is not run again.
-    keep_companions : bool
-        Keep the companion files in :func:`companion_directory` (else removed).
-    workers : int, optional
-        Worker processes of the local Dask cluster (default: the cores, at most one
-        per run).
-    client : distributed.Client, optional
-        Use this client instead of a local cluster (and leave it open).
+    from ..analysis.certification import quantities, tolerances
+    from ..io.analysis_file import analyse_file
 
-    Returns
-    -------
-    CertifiedRun
+    try:
+        with h5py.File(path, "r") as f:
+            analysis = analyse_file(f)
+        record["quantities"] = quantities(analysis)
+        record["tolerances"] = {k: (t.value, t.reason) for k, t in tolerances(analysis).items()}
+    except (OSError, KeyError, ValueError, IndexError, ArithmeticError) as exc:
+        record.update(status="failed", error=f"its result could not be analysed: {type(exc).__name__}: {exc}")
+    return record
 
-    Raises
-    ------
-    CertificationFailed
-        The main run or a companion failed (the message says which and why); nothing
-        is written to ``output``.
-    tdse1d.errors.OutputError
-        ``output`` exists and is not a tdse1d result file (it is left alone).
-    """
-    from distributed import as_completed
 
-    from ..io.certification_file import write_certification
-    from .execute import open_local_client
-
-    from ..errors import OutputError
-    from ..io.guarded_file import WriterLock, lock_path
-    from ..io.result_file import refuse_reason
+def _run_main(problem, path: Path) -> dict:
+    """The run as given, in this process (its imports, problem and compiled kernels are
+    already here, so it starts while the cluster's workers are still starting)."""
+    from ..api.single_run import run
+    from ..io.wisdom import fftw_wisdom
 
     started = time.perf_counter()
-    output = Path(output)
-    config = problem.config
-    reason = refuse_reason(output)
-    if reason is not None:  # before anything runs, as a plain run
-        raise OutputError(reason)
-    folder = companion_directory(output)
-    folder.mkdir(parents=True, exist_ok=True)
-    main_file = folder / "main.h5"  # moved to output when certified; its run record stays in the folder
-    companions = plan_companions(problem)
-    from ..physics.propagation import SCHEMES
+    with fftw_wisdom():
+        run(problem, path)
+    return _read_back({"status": "done", "seconds": time.perf_counter() - started}, path)
 
-    substeps = len(SCHEMES[config.propagation.scheme_name].weights)
-    tasks = [("main", config, main_file, _cost(problem.grid.points, problem.time.steps, substeps))]
-    tasks += [(c.name, companion_config(config, c), folder / f"{c.name}.h5", c.cost) for c in companions]
-    tasks.sort(key=lambda t: -t[3])  # longest first: the last to finish are short ones
-    n_workers = workers or min(os.cpu_count() or 1, len(tasks))
+
+def _run_companions(tasks, n_workers, client, records, failure):
+    """Run ``tasks`` (name, config, path) on Dask, longest first; fill ``records``."""
+    from distributed import as_completed
+
+    from .execute import open_local_client
+
     own = None
-    records = {}
     try:
         if client is None:
             own = open_local_client(n_workers)
             client = own[1]
         futures, names = [], {}
-        for rank, (name, cfg, path, _) in enumerate(tasks):
+        for rank, (name, cfg, path) in enumerate(tasks):
             fut = client.submit(run_and_read, cfg.resolved_toml, str(cfg.source), str(cfg.base_dir), str(path),
                                 key=f"tdse1d-certify-{name}-{os.getpid()}-{time.time_ns()}", pure=False,
                                 priority=len(tasks) - rank, retries=0)
@@ -315,11 +281,85 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
                 records[name] = fut.result()
             except Exception as exc:  # a worker died: not the run's own fault
                 records[name] = {"status": "lost", "error": f"worker lost: {type(exc).__name__}: {exc}"}
+    except BaseException as exc:  # handed to the caller's thread
+        failure.append(exc)
     finally:
         if own is not None:
             own[1].close()
             own[0].close()
-    for name, *_ in tasks:
+
+
+def certify_problem(problem, output, *, keep_companions: bool = False, workers: int | None = None,
+                    client=None) -> CertifiedRun:
+    """Run a problem and its companions in parallel and store every quantity's spread.
+
+    The companions run on a local Dask cluster (or ``client``), longest first; the run
+    as given runs meanwhile in this process, where its problem is already built, so
+    that it overlaps the start of the cluster's workers.
+
+    Parameters
+    ----------
+    problem : tdse1d.input.problem.Problem
+        The main run, as given.
+    output : path
+        Its result file (written when the runs are done and certified). A kept
+        companion file of the same companion input is not run again.
+    keep_companions : bool
+        Keep the companion files in :func:`companion_directory` (else removed).
+    workers : int, optional
+        Worker processes of the local Dask cluster for the companions (default: the
+        cores, at most one per companion).
+    client : distributed.Client, optional
+        Use this client instead of a local cluster (and leave it open).
+
+    Returns
+    -------
+    CertifiedRun
+
+    Raises
+    ------
+    CertificationFailed
+        A companion failed (the message says which and why); nothing is written to
+        ``output``.
+    tdse1d.errors.OutputError
+        ``output`` exists and is not a tdse1d result file (it is left alone).
+    InputError, tdse1d.errors.NumericalError
+        As :func:`tdse1d.api.run` for the run as given.
+    """
+    import threading
+
+    from ..errors import OutputError
+    from ..input.problem import check_absorber
+    from ..io.certification_file import write_certification
+    from ..io.guarded_file import WriterLock, lock_path
+    from ..io.result_file import refuse_reason
+    from ..runs.resources import check_resources
+
+    started = time.perf_counter()
+    output = Path(output)
+    reason = refuse_reason(output)
+    if reason is not None:  # before anything runs, as a plain run
+        raise OutputError(reason)
+    check_absorber(problem)  # the checks of a plain run, before the companions start
+    check_resources(problem, output)
+    folder = companion_directory(output)
+    folder.mkdir(parents=True, exist_ok=True)
+    main_file = folder / "main.h5"  # moved to output once certified
+    companions = plan_companions(problem)
+    tasks = [(c.name, companion_config(problem.config, c), folder / f"{c.name}.h5")
+             for c in sorted(companions, key=lambda c: -c.cost)]  # longest first
+    n_workers = workers or min(os.cpu_count() or 1, len(tasks))
+    records, failure = {}, []
+    thread = threading.Thread(target=_run_companions, args=(tasks, n_workers, client, records, failure),
+                              name="tdse1d-certify-companions", daemon=True)
+    thread.start()
+    try:
+        records["main"] = _run_main(problem, main_file)
+    finally:
+        thread.join()  # the companions finish (or fail) before anything else happens
+    if failure:
+        raise failure[0]
+    for name in ("main", *(c.name for c in companions)):
         r = records.get(name, {})
         if r.get("status") != "done":
             what = "the run as given" if name == "main" else f"the {name} companion"
@@ -339,4 +379,3 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
     if not keep_companions:
         shutil.rmtree(folder, ignore_errors=True)
     return CertifiedRun(output, certified, companions, records, wall, n_workers, folder if keep_companions else None)
-
