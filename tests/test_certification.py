@@ -14,7 +14,7 @@ import pytest
 
 from tdse1d.analysis import EmissionTimes, PhotoelectronEdges, PonderomotiveShift, RunAnalysis, StreakingShift
 from tdse1d.analysis.certification import (PARAMETER_ADVICE, QUANTITIES, QUANTITY_UNITS, Tolerance,
-                                           certify_quantities, quantities, tolerances)
+                                           certify_quantities, quantities, richardson_factor, tolerances)
 from tdse1d.spectra.cutoff import CutoffEstimate
 
 OMEGA = 0.057  # 800 nm photon (hartree)
@@ -83,11 +83,23 @@ def _tol(**values):
     return {k: Tolerance(v, "test") for k, v in values.items()}
 
 
+def test_richardson_factor_recovers_the_limit_of_a_power_law():
+    # exact: q(h) = q_inf + C h^p sampled at h and h / r; the main run's error is
+    # factor x (q(h/r) - q(h)) in magnitude
+    for r, p in ((2.0, 1.0), (2.0, 2.0), (1.5, 4.0), (3.0, 0.5)):
+        q = lambda h: 0.138 + 0.7 * h**p
+        h = 0.3
+        assert richardson_factor(r, p) * abs(q(h / r) - q(h)) == pytest.approx(abs(q(h) - 0.138), rel=1e-12)
+    assert richardson_factor(2.0, math.inf) == 1.0 and richardson_factor(2.0, 1.0) == 2.0
+    with pytest.raises(ValueError):
+        richardson_factor(1.0, 2.0)
+
+
 def test_spread_is_the_largest_move_and_names_the_parameter_beyond_tolerance():
     main = {"ionization_probability": 0.161, "harmonic_cutoff": 2.0}
-    companions = [("time step", {"ionization_probability": 0.1612, "harmonic_cutoff": 2.01}),
-                  ("grid spacing", {"ionization_probability": 0.1609, "harmonic_cutoff": 1.98}),
-                  ("box", {"ionization_probability": 0.137, "harmonic_cutoff": 2.005})]
+    companions = [("time step", {"ionization_probability": 0.1612, "harmonic_cutoff": 2.01}, 1.0),
+                  ("grid spacing", {"ionization_probability": 0.1609, "harmonic_cutoff": 1.98}, 1.0),
+                  ("box", {"ionization_probability": 0.137, "harmonic_cutoff": 2.005}, 1.0)]
     out = certify_quantities(main, companions, _tol(ionization_probability=0.003, harmonic_cutoff=0.057))
     p = out["ionization_probability"]
     assert p.uncertainty == pytest.approx(0.024, abs=1e-12)
@@ -100,10 +112,27 @@ def test_spread_is_the_largest_move_and_names_the_parameter_beyond_tolerance():
     assert c.uncertainty == pytest.approx(0.02, abs=1e-12) and c.converged and c.note == ""
 
 
+def test_the_error_factor_scales_the_move_not_the_flag():
+    # a first-order box error: q(L) = 0.138 + 0.0467 (100 / L); the main run at L = 100, the
+    # companion at 200: the bare move 0.0233 falls short of the converged 0.138, twice it covers it
+    main = {"ionization_probability": 0.138 + 0.0467}
+    box = {"ionization_probability": 0.138 + 0.0467 / 2}
+    bare = certify_quantities(main, [("box", box, 1.0)], _tol(ionization_probability=0.003))
+    scaled = certify_quantities(main, [("box", box, richardson_factor(2.0, 1.0))], _tol(ionization_probability=0.003))
+    q0, q1 = bare["ionization_probability"], scaled["ionization_probability"]
+    assert abs(q0.value - 0.138) > q0.uncertainty  # the bare move does not cover the limit
+    assert abs(q1.value - 0.138) <= q1.uncertainty + 1e-15
+    assert q0.note == q1.note and not q1.converged  # the flag is the bare move's
+    # a move below the tolerance stays converged whatever the factor
+    small = certify_quantities(main, [("box", {"ionization_probability": main["ionization_probability"] - 0.002},
+                                       2.0)], _tol(ionization_probability=0.003))["ionization_probability"]
+    assert small.converged and small.uncertainty == pytest.approx(0.004)
+
+
 def test_two_parameters_beyond_tolerance_are_both_named():
-    out = certify_quantities({"direct_edge": 0.7}, [("time step", {"direct_edge": 0.8}),
-                                                    ("grid spacing", {"direct_edge": 0.7}),
-                                                    ("box", {"direct_edge": 0.55})], _tol(direct_edge=0.035))
+    out = certify_quantities({"direct_edge": 0.7}, [("time step", {"direct_edge": 0.8}, 1.0),
+                                                    ("grid spacing", {"direct_edge": 0.7}, 1.0),
+                                                    ("box", {"direct_edge": 0.55}, 1.0)], _tol(direct_edge=0.035))
     q = out["direct_edge"]
     assert q.note == f"not converged: {PARAMETER_ADVICE['time step']}; {PARAMETER_ADVICE['box']}"
     assert q.uncertainty == pytest.approx(0.15)
@@ -112,14 +141,14 @@ def test_two_parameters_beyond_tolerance_are_both_named():
 def test_null_identical_companions_give_zero_spread_and_converged():
     main = quantities(_analysis())
     tol = tolerances(_analysis())
-    out = certify_quantities(main, [(p, dict(main)) for p in PARAMETER_ADVICE], tol)
+    out = certify_quantities(main, [(p, dict(main), 2.0) for p in PARAMETER_ADVICE], tol)
     assert set(out) == set(main)
     assert all(q.uncertainty == 0.0 and q.converged and q.note == "" for q in out.values())
 
 
 def test_a_companion_that_loses_a_reading_is_flagged():
-    out = certify_quantities({"harmonic_cutoff": 2.0}, [("time step", {"harmonic_cutoff": 2.0}),
-                                                        ("box", {})], _tol(harmonic_cutoff=0.057))
+    out = certify_quantities({"harmonic_cutoff": 2.0}, [("time step", {"harmonic_cutoff": 2.0}, 1.0),
+                                                        ("box", {}, 2.0)], _tol(harmonic_cutoff=0.057))
     q = out["harmonic_cutoff"]
     assert not q.converged and "box companion could not read it" in q.note and q.uncertainty == 0.0
     assert math.isnan(q.companion_values[1])
@@ -176,9 +205,12 @@ def test_end_to_end_certified_run_writes_and_reads_back(certified):
         assert f["certification/ground_state_energy/uncertainty"].attrs["units"] == "hartree"
         names = [n.decode() for n in f["certification/companions/name"][()]]
     assert names == ["time_step", "grid_spacing", "box"]
+    with h5py.File(done.path, "r") as f:
+        factors = f["certification/companions/error_factor"][()]
+    assert list(factors) == [1.0, 1.0, 2.0]  # order 2 -> 4 at the same step, spectral grid, first-order box
     for key, q in stored.items():
         assert q["unit"] == QUANTITY_UNITS[key]
-        assert q["uncertainty"] == pytest.approx(np.nanmax(np.abs(q["companion_values"] - q["value"])))
+        assert q["uncertainty"] == pytest.approx(np.nanmax(factors * np.abs(q["companion_values"] - q["value"])))
     # the kept companions are result files of the refined inputs
     for name in names:
         with h5py.File(done.kept / f"{name}.h5", "r") as f:

@@ -3,14 +3,19 @@ companion runs that each refine one numerical parameter.
 
 A certified run is the run as given (the *main* run) plus companions, each refining
 one numerical parameter (the time step, the grid spacing, the box with its absorber).
-For every reported quantity (:data:`QUANTITIES`) the numerical uncertainty is the
-largest move of the quantity from the main run to any companion,
-``max_c |q_c - q_main|``: the main run's value +- that spread contains every
-companion's value by construction, and when a quantity converges monotonically in a
-parameter (a refinement moves it towards the converged value, not past it) it contains
-the converged value too. A quantity that one companion moves by more than its
-tolerance (:func:`tolerances`) is flagged ``"not converged: ..."``, naming the
-parameter to refine.
+For every reported quantity (:data:`QUANTITIES`) the numerical uncertainty bounds the
+main run's own error from its move to each companion. A companion that refines a
+parameter by the ratio r, for a quantity whose error falls as the p-th power of that
+parameter, leaves the main run an error of ``(q_c - q_main) r^p / (r^p - 1)``
+(Richardson's extrapolation, L. F. Richardson, Phil. Trans. R. Soc. A 210, 307
+(1911)); the bare move ``q_c - q_main`` would fall short of the converged value by
+the companion's own remaining error whenever the quantity converges monotonically.
+So the uncertainty is ``max_c f_c |q_c - q_main|`` with the factor
+``f_c = r^p / (r^p - 1)`` of each companion (:func:`richardson_factor`; the
+companions and their factors are chosen in :mod:`tdse1d.scans.certify`), and the
+main run's value +- that contains every companion's value. A quantity that one
+companion moves (bare move) by more than its tolerance (:func:`tolerances`) is
+flagged ``"not converged: ..."``, naming the parameter to refine.
 
 Pure numerics: nothing here reads or writes a file (:mod:`tdse1d.io.certification_file`
 does) or runs anything (:mod:`tdse1d.scans.certify` does). Atomic units throughout:
@@ -28,7 +33,7 @@ import numpy as np
 from ..physics.ionization import CONVERGED_RELATIVE
 
 __all__ = ["QUANTITIES", "QUANTITY_UNITS", "PARAMETER_ADVICE", "Tolerance", "Certified", "quantities", "tolerances",
-           "certify_quantities", "not_converged_note"]
+           "certify_quantities", "not_converged_note", "richardson_factor"]
 
 #: the keys of the reported quantities, in report order, and their unit (as the result
 #: file writes units: "1" is a probability)
@@ -209,8 +214,8 @@ class Certified:
     value : float
         The main run's value.
     uncertainty : float
-        ``max_c |q_c - q_main|`` over the companions that read the quantity; NaN when
-        none did.
+        ``max_c f_c |q_c - q_main|`` over the companions that read the quantity
+        (:func:`certify_quantities`); NaN when none did.
     tolerance : Tolerance
     companion_values : tuple of float
         Each companion's value, in companion order (NaN where it could not read it).
@@ -239,40 +244,64 @@ def not_converged_note(parameters) -> str:
     return "not converged: " + "; ".join(PARAMETER_ADVICE.get(p, f"refine {p}") for p in parameters)
 
 
+def richardson_factor(ratio: float, order: float) -> float:
+    """``r^p / (r^p - 1)``: the main run's error in units of its move to a companion that
+    refines a parameter by the ratio ``r`` (> 1) for an error falling as its ``p``-th
+    power (Richardson 1911); 1 for an infinite ratio or order (a companion whose own
+    error is negligible).
+
+    Parameters
+    ----------
+    ratio : float
+        Refinement ratio r > 1 (2 for a halved step or a doubled box).
+    order : float
+        Order p > 0 of the error in the refined parameter.
+
+    Returns
+    -------
+    float
+    """
+    if not (ratio > 1 and order > 0):
+        raise ValueError(f"a refinement needs ratio > 1 and order > 0, got {ratio} and {order}")
+    gain = ratio**order
+    return 1.0 if math.isinf(gain) else gain / (gain - 1.0)
+
+
 def certify_quantities(main: dict, companions, tolerance: dict) -> dict[str, Certified]:
-    """The spread of every quantity of the main run across its companions.
+    """The uncertainty of every quantity of the main run from its companions.
 
     Parameters
     ----------
     main : dict of str to float
         :func:`quantities` of the main run.
-    companions : sequence of (str, dict)
-        Per companion: the parameter it refines (a key of :data:`PARAMETER_ADVICE`)
-        and its :func:`quantities`.
+    companions : sequence of (str, dict, float)
+        Per companion: the parameter it refines (a key of :data:`PARAMETER_ADVICE`),
+        its :func:`quantities`, and its :func:`richardson_factor`.
     tolerance : dict of str to Tolerance
         :func:`tolerances` of the main run.
 
     Returns
     -------
     dict of str to Certified
-        For each quantity the main run has. A companion that cannot read a quantity
-        the main run reads flags it too ("... could not read it"): a refinement that
-        loses a reading is no evidence of convergence.
+        For each quantity the main run has: uncertainty ``max_c f_c |q_c - q_main|``.
+        A companion that cannot read a quantity the main run reads flags it too
+        ("... could not read it"): a refinement that loses a reading is no evidence of
+        convergence.
     """
     out = {}
     for key, value in main.items():
-        moved, lost, values = [], [], []
-        for parameter, theirs in companions:
+        moved, lost, values, bounds = [], [], [], []
+        for parameter, theirs, factor in companions:
             q = theirs.get(key, math.nan)
             values.append(float(q))
             if not math.isfinite(q):
                 lost.append(parameter)
                 continue
+            bounds.append(factor * abs(q - value))
             tol = tolerance[key].value
             if math.isfinite(tol) and abs(q - value) > tol and parameter not in moved:
                 moved.append(parameter)
-        finite = [abs(v - value) for v in values if math.isfinite(v)]
-        spread = max(finite) if finite else math.nan
+        spread = max(bounds) if bounds else math.nan
         notes = []
         if moved:
             notes.append(not_converged_note(moved))

@@ -27,8 +27,9 @@ __all__ = ["write_certification", "read_numerical_uncertainties", "read_certific
 
 GROUP = group_of("certification@description")
 DESCRIPTION = ("numerical uncertainty of each quantity: the largest move from this run to a companion run that "
-               "refines one numerical parameter (time step, grid spacing, box with absorber); a move beyond the "
-               "quantity's tolerance is flagged 'not converged', naming the parameter")
+               "refines one numerical parameter (time step, grid spacing, box with absorber), each move times the "
+               "companion's error_factor (Richardson); a move beyond the quantity's tolerance is flagged "
+               "'not converged', naming the parameter")
 
 
 def _text(values):
@@ -46,6 +47,7 @@ def _write_group(f, certified, companions, wall_seconds, workers):
     write_dataset(c, "name", _text(x["name"] for x in companions))
     write_dataset(c, "parameter", _text(x["parameter"] for x in companions))
     write_dataset(c, "change", _text(x["change"] for x in companions))
+    write_dataset(c, "error_factor", np.array([float(x["error_factor"]) for x in companions]))
     write_dataset(c, "run_seconds", np.array([float(x["seconds"]) for x in companions]))
     write_dataset(c, "file", _text(x.get("file") or "" for x in companions))
     for key, q in certified.items():
@@ -68,7 +70,8 @@ def write_certification(path, certified: dict, companions: list, wall_seconds: f
         The main run's result file.
     certified : dict of str to tdse1d.analysis.certification.Certified
     companions : list of dict
-        Per companion: ``name``, ``parameter``, ``change`` (text), ``seconds`` (wall
+        Per companion: ``name``, ``parameter``, ``change`` (text), ``error_factor``,
+        ``seconds`` (wall
         time of its run, s), ``file`` (path relative to ``path``'s folder, or None).
     wall_seconds : float
         Wall time of the whole certified run (s).

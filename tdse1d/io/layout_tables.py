@@ -285,7 +285,8 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
     # ------------------------------------------- written by a certified run (tdse1d run --certify)
     *_entries("certification", CERTIFIED, (
         ("description", "text", "what the uncertainties are: the largest move of each quantity from this run "
-                                "to a companion run refining one numerical parameter (docs/output.md)"),
+                                "to a companion run refining one numerical parameter, times the companion's "
+                                "error_factor (docs/output.md)"),
         ("wall_seconds", "s", "wall time of the certified run: this run and its companions, in parallel"),
         ("workers", "count", "Dask worker processes the runs shared"),
     ), "attribute"),
@@ -293,6 +294,8 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
         ("name", "text", "companion run: time_step, grid_spacing or box", "(C,)"),
         ("parameter", "text", "the numerical parameter it refines", "(C,)"),
         ("change", "text", "what it changes, with the values (e.g. grid.spacing 0.2 -> 0.1333 bohr)", "(C,)"),
+        ("error_factor", "1", "this run's error in units of its move to the companion: r^p / (r^p - 1) for a "
+                              "refinement by r of an error of order p (Richardson)", "(C,)"),
         ("run_seconds", "s", "wall time of the companion's run", "(C,)"),
         ("file", "text", "its result file relative to this file's folder (empty when not kept)", "(C,)"),
     )),
@@ -300,7 +303,8 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
         ("value", VARIABLE_UNIT, "the quantity in this run (units: hartree for energies, atomic_unit_of_time "
                                  "for emission times, atomic_unit_of_momentum for the streaking shift, 1 for "
                                  "ionization_probability)"),
-        ("uncertainty", VARIABLE_UNIT, "numerical uncertainty: max over companions of |companion - value|"),
+        ("uncertainty", VARIABLE_UNIT, "numerical uncertainty: max over companions of "
+                                       "error_factor x |companion - value|"),
         ("tolerance", VARIABLE_UNIT, "largest move a companion may make with the quantity still converged"),
         ("companion_values", VARIABLE_UNIT, "the quantity in each companion (NaN: not read), companion order",
          "(C,)"),

@@ -9,16 +9,25 @@ changes that parameter alone):
     registry (``propagation.order = 4``) at the *same* step; a run already of order 4
     halves its step. The same step matters: the absorber acts once per step (a mask
     of a fixed exponent), so halving the step would also make it absorb more per unit
-    time and mix an absorber change into the time-step companion. The fourth-order
-    run's splitting error is far below the Strang run's at that step, so the move is
-    the Strang run's time-discretisation error.
+    time and mix an absorber change into the time-step companion (on the argon
+    example a halved step moved P_ion by 1.4e-3, the fourth-order run at the same step
+    by 2e-5). The fourth-order run's splitting error is far below the Strang run's at
+    that step, so the move is the Strang run's time-discretisation error: error
+    factor 1; a halved fourth-order step has the factor 2^4 / (2^4 - 1).
 ``grid_spacing``
     The spacing times :data:`SPACING_FACTOR` (2/3) over the same box: 1.5 times the
-    largest momentum of the grid.
+    largest momentum of the grid. A Fourier grid converges faster than any power of
+    the spacing for a smooth wavefunction (J. P. Boyd, Chebyshev and Fourier Spectral
+    Methods, 2nd ed. (2001), ch. 2), so the finer grid's own error is negligible:
+    error factor 1.
 ``box``
     The box half-width and the absorber width times :data:`BOX_FACTOR` (2), at the
     same spacing: the unabsorbed region doubles, so slow electrons and loosely bound
-    Rydberg population the small box absorbs stay in it.
+    Rydberg population the small box absorbs stay in it. A box of inner half-width L
+    holds the Rydberg states of extent ~ n^2 up to n ~ sqrt(L); with populations
+    falling as n^-3 (the density of Rydberg states) the population it loses falls as
+    sum over n > sqrt(L) of n^-3 ~ 1/L: first order, so the error factor of a doubled
+    box is 2 / (2 - 1) = 2 (:func:`~tdse1d.analysis.certification.richardson_factor`).
 
 The runs are Dask tasks on a local cluster of single-threaded worker processes
 (:func:`tdse1d.scans.execute.open_local_client`), longest first; each runs through
@@ -37,7 +46,7 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..analysis.certification import Certified, Tolerance, certify_quantities
+from ..analysis.certification import Certified, Tolerance, certify_quantities, richardson_factor
 from ..input.schema import RunConfig, parse_input
 from ..input.spec import apply_override
 from ..physics.grid import fast_fft_size
@@ -71,6 +80,9 @@ class Companion:
         What changes, with the values, for people.
     cost : float
         Grid points x time steps x sub-steps per step, relative to order the runs.
+    error_factor : float
+        The main run's error in units of its move to this companion
+        (:func:`~tdse1d.analysis.certification.richardson_factor`).
     """
 
     name: str
@@ -78,6 +90,7 @@ class Companion:
     overrides: tuple
     change: str
     cost: float
+    error_factor: float = 1.0
 
 
 def _cost(points, steps, substeps):
@@ -114,18 +127,21 @@ def plan_companions(problem) -> tuple[Companion, ...]:
             "time_step", "time step",
             (("propagation.order", 4), ("propagation.scheme", fourth), *step, *keep_width),
             f"propagation.order 2 -> 4 ({fourth}) at the same step {dt:.4g} a.u.",
-            _cost(n, steps, len(SCHEMES[fourth].weights))))
+            _cost(n, steps, len(SCHEMES[fourth].weights)), 1.0))
     else:
+        # the mask acts once per step: half its exponent keeps what it removes per unit time
+        mask = (("absorber.exponent", config.absorber.exponent / 2),) if config.absorber.type == "mask" else ()
         out.append(Companion(
-            "time_step", "time step", (("propagation.time_step", dt / 2), *keep_width),
-            f"propagation.time_step {dt:.4g} -> {dt / 2:.4g} a.u.", _cost(n, 2 * steps, substeps)))
+            "time_step", "time step", (("propagation.time_step", dt / 2), *keep_width, *mask),
+            f"propagation.time_step {dt:.4g} -> {dt / 2:.4g} a.u." + (", mask exponent halved" if mask else ""),
+            _cost(n, 2 * steps, substeps), richardson_factor(2.0, prop.order)))
     fine = dx * SPACING_FACTOR
     n_fine = fast_fft_size(int(math.ceil(n * dx / fine - 1e-9)))
     out.append(Companion(
         "grid_spacing", "grid spacing",
         (("grid.spacing", fine), ("grid.points", n_fine), *step, *keep_width),
         f"grid.spacing {dx:.4g} -> {fine:.4g} bohr ({n} -> {n_fine} points over the same box)",
-        _cost(n_fine, steps, substeps)))
+        _cost(n_fine, steps, substeps), 1.0))
     n_box = fast_fft_size(int(math.ceil(BOX_FACTOR * n - 1e-9)))
     absorber = ((("absorber.width", BOX_FACTOR * width),) if config.absorber.type != "none" else ())
     grown = f", absorber {width:.4g} -> {BOX_FACTOR * width:.4g} bohr" if absorber else ""
@@ -133,7 +149,7 @@ def plan_companions(problem) -> tuple[Companion, ...]:
         "box", "box",
         (("grid.spacing", dx), ("grid.points", n_box), *step, *absorber),
         f"box +-{grid.half_width:.4g} -> +-{0.5 * n_box * dx:.4g} bohr ({n} -> {n_box} points){grown}",
-        _cost(n_box, steps, substeps)))
+        _cost(n_box, steps, substeps), richardson_factor(BOX_FACTOR, 1.0)))
     return tuple(out)
 
 
@@ -366,10 +382,10 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
             raise CertificationFailed(f"{what} failed: {r.get('error', 'no result')}")
     main = records["main"]
     tolerance = {k: Tolerance(*v) for k, v in main["tolerances"].items()}
-    certified = certify_quantities(main["quantities"],
-                                   [(c.parameter, records[c.name]["quantities"]) for c in companions], tolerance)
+    moves = [(c.parameter, records[c.name]["quantities"], c.error_factor) for c in companions]
+    certified = certify_quantities(main["quantities"], moves, tolerance)
     wall = time.perf_counter() - started
-    rows = [{"name": c.name, "parameter": c.parameter, "change": c.change,
+    rows = [{"name": c.name, "parameter": c.parameter, "change": c.change, "error_factor": c.error_factor,
              "seconds": records[c.name].get("seconds", math.nan),
              "file": os.path.relpath(folder / f"{c.name}.h5", output.parent) if keep_companions else None}
             for c in companions]
