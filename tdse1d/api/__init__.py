@@ -20,6 +20,10 @@ command                function                    returns
 ``tdse1d validate``    :func:`validate`            :class:`~.campaigns.ValidationReport`
 =====================  ==========================  ===========================================
 
+``tdse1d run --certify`` calls :func:`certify`, which returns a
+:class:`~tdse1d.scans.certify.CertifiedRun` (the run, its companions, each quantity's
+numerical uncertainty).
+
 The modules are loaded on first use, so importing this package is cheap: the command
 line imports only the module its command needs. :mod:`~tdse1d.api.single_run` (one
 input) sits below the scan and the validation suite, which run through it;
@@ -32,10 +36,10 @@ import importlib
 _WHERE = {
     **dict.fromkeys(("report", "export", "Report", "Table"), "results"),
     **dict.fromkeys(("plot", "Figures"), "figures"),
-    **dict.fromkeys(("scan", "compare", "validate", "ScanOutcome", "ValidationReport"), "campaigns"),
+    **dict.fromkeys(("scan", "certify", "compare", "validate", "ScanOutcome", "ValidationReport"), "campaigns"),
 }
 
-__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "report", "plot",
+__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "certify", "report", "plot",
            "export", "scan", "compare", "validate"]
 
 

@@ -18,7 +18,7 @@ from pathlib import Path
 
 from ..input.spec import InputError
 
-__all__ = ["scan", "compare", "validate", "ScanOutcome", "ValidationReport"]
+__all__ = ["scan", "certify", "compare", "validate", "ScanOutcome", "ValidationReport"]
 
 
 # ------------------------------------------------------------------------ scan
@@ -151,6 +151,48 @@ def scan(plan, directory=None, *, point: int | None = None, gather: bool = False
         mode = "gather" if gather else "all"
     missing = tuple(p.index for p in plan.points if directory.state(p) != "done")
     return ScanOutcome(plan, root, mode, execution, summary, missing)
+
+
+# --------------------------------------------------------------------- certify
+
+
+def certify(config, output=None, *, overrides=(), keep_companions: bool | None = None, workers: int | None = None,
+            client=None):
+    """Run an input and its companion runs, and store each quantity's numerical
+    uncertainty in the result file (``tdse1d run --certify``, or
+    ``certification.enabled = true`` in the input).
+
+    Parameters
+    ----------
+    config : RunConfig, Problem or path
+        The input (a path is read with ``overrides``), or an assembled problem.
+    output : path, optional
+        The result file (:func:`tdse1d.api.single_run.output_path`).
+    keep_companions : bool, optional
+        Keep the companions' files in ``STEM.companions/`` beside it (default: the
+        input's ``certification.keep_companions``).
+    workers : int, optional
+        Worker processes of the local Dask cluster for the companions (default: the
+        cores, at most 3).
+    client : distributed.Client, optional
+        An existing Dask client to run on instead.
+
+    Returns
+    -------
+    tdse1d.scans.certify.CertifiedRun
+        Per quantity its value, uncertainty and tolerance (atomic units) and whether it
+        converged; the wall time (s).
+    """
+    from ..input.problem import Problem, build_problem
+    from ..input.schema import RunConfig, load_input
+    from ..scans.certify import certify_problem
+    from .single_run import output_path
+
+    problem = config if isinstance(config, Problem) else build_problem(
+        config if isinstance(config, RunConfig) else load_input(config, overrides))
+    keep = problem.config.certification.keep_companions if keep_companions is None else keep_companions
+    return certify_problem(problem, output_path(problem.config, output), keep_companions=keep, workers=workers,
+                           client=client)
 
 
 # ------------------------------------------------------------------------ compare

@@ -28,6 +28,11 @@ def add_arguments(parser):
                         help="continue from RESULT.h5.checkpoint left by an interrupted run of the same input")
     parser.add_argument("--strict", action="store_true",
                         help="treat numerical-health warnings as errors (exit status 1)")
+    parser.add_argument("--certify", action="store_true",
+                        help="also run companions that each refine one numerical parameter (time step, grid "
+                             "spacing, box) in parallel, and store each quantity's numerical uncertainty")
+    parser.add_argument("--keep-companions", action="store_true",
+                        help="with --certify: keep the companions' result files in STEM.companions/")
 
 
 class _ProgressBar:
@@ -58,6 +63,26 @@ class _ProgressBar:
             self.bar.close()
 
 
+def _certify(args, config):
+    """``--certify`` (or ``certification.enabled``): the run and its companions, summarised."""
+    from ..api.campaigns import certify
+    from ..scans.certify import CertificationFailed
+
+    keep = True if args.keep_companions else None
+    try:
+        done = certify(config, args.output, keep_companions=keep)
+    except CertificationFailed as exc:
+        print(f"tdse1d: error: {exc}", file=sys.stderr)
+        return 1
+    if not args.quiet:
+        names = ", ".join(c.name for c in done.companions)
+        print(f"wrote {done.path} in {done.wall:.1f} s, certified by {len(done.companions)} companion runs "
+              f"({names}) on {done.workers} workers" + (f"; companions kept in {done.kept}" if done.kept else ""))
+        for line in done.table():
+            print(f"  {line}")
+    return 0
+
+
 def main(args):
     from .. import units
     from ..api import single_run as api
@@ -65,6 +90,8 @@ def main(args):
     from ..io.wisdom import fftw_wisdom
 
     config = load_input(args.input, args.overrides)
+    if args.certify or config.certification.enabled:
+        return _certify(args, config)
     show = not args.quiet and sys.stderr.isatty()
     started = time.time()
     from ..input.problem import build_problem

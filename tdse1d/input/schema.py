@@ -229,6 +229,17 @@ class SpectraConfig:
 
 
 @dataclass(frozen=True)
+class CertificationConfig:
+    """A certified run (``[certification]``): companion runs that each refine one
+    numerical parameter give every quantity its numerical uncertainty
+    (:mod:`tdse1d.scans.certify`)."""
+
+    enabled: bool = key(Spec("bool", doc="run the companions and store each quantity's numerical uncertainty"),
+                        False)
+    keep_companions: bool = key(Spec("bool", doc="keep the companions' result files in STEM.companions/"), False)
+
+
+@dataclass(frozen=True)
 class RunConfig:
     """A validated run: every quantity in atomic units.
 
@@ -249,6 +260,7 @@ class RunConfig:
     absorber: AbsorberConfig = AbsorberConfig()
     output: OutputConfig = OutputConfig()
     spectra: SpectraConfig = SpectraConfig()
+    certification: CertificationConfig = CertificationConfig()
     raw: dict = field(default_factory=dict, compare=False, repr=False)
     source: str = "<string>"
     base_dir: Path = Path(".")
@@ -270,6 +282,7 @@ _SECTIONS = {
     "absorber": AbsorberConfig,
     "output": OutputConfig,
     "spectra": SpectraConfig,
+    "certification": CertificationConfig,
 }
 
 

@@ -75,6 +75,7 @@ FIELD_RUN = "a run with a field"
 XUV = "a run with an XUV pulse inside an IR field (streaking)"
 THREE_STEP = "a run whose field has a three-step analysis"
 SEVERAL_AXES = "a run on a grid of several axes"
+CERTIFIED = "a certified run (run --certify; {quantity}: each quantity it reads, docs/output.md)"
 
 #: the semiclassical numbers of a pulse (tdse1d.semiclassical.estimates.PulseEstimate)
 _ESTIMATES = (
@@ -285,6 +286,38 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
         ("peak_left", P, "momentum of the peak going left"),
         ("measured", P, "streaking shift measured from the peaks"),
     )),
+    # ------------------------------------------- written by a certified run (tdse1d run --certify)
+    *_entries("certification", CERTIFIED, (
+        ("description", "text", "what the uncertainties are: the largest move of each quantity from this run "
+                                "to a companion run refining one numerical parameter, times the companion's "
+                                "error_factor (docs/output.md)"),
+        ("wall_seconds", "s", "wall time of the certified run: this run and its companions, in parallel"),
+        ("workers", "count", "Dask worker processes the runs shared"),
+    ), "attribute"),
+    *_entries("certification/companions", CERTIFIED, (
+        ("name", "text", "companion run: time_step, grid_spacing or box", "(C,)"),
+        ("parameter", "text", "the numerical parameter it refines", "(C,)"),
+        ("change", "text", "what it changes, with the values (e.g. grid.spacing 0.2 -> 0.1333 bohr)", "(C,)"),
+        ("error_factor", "1", "this run's error in units of its move to the companion: r^p / (r^p - 1) for a "
+                              "refinement by r of an error of order p (Richardson)", "(C,)"),
+        ("run_seconds", "s", "wall time of the companion's run", "(C,)"),
+        ("file", "text", "its result file relative to this file's folder (empty when not kept)", "(C,)"),
+    )),
+    *_entries("certification/{quantity}", CERTIFIED, (
+        ("value", VARIABLE_UNIT, "the quantity in this run (units: hartree for energies, atomic_unit_of_time "
+                                 "for emission times, atomic_unit_of_momentum for the streaking shift, 1 for "
+                                 "ionization_probability)"),
+        ("uncertainty", VARIABLE_UNIT, "numerical uncertainty: max over companions of "
+                                       "error_factor x |companion - value|"),
+        ("tolerance", VARIABLE_UNIT, "largest move a companion may make with the quantity still converged"),
+        ("companion_values", VARIABLE_UNIT, "the quantity in each companion (NaN: not read), companion order",
+         "(C,)"),
+    )),
+    *_entries("certification/{quantity}", CERTIFIED, (
+        ("converged", "flag", "no companion moved the quantity beyond its tolerance, and each read it"),
+        ("note", "text", 'empty, or "not converged: ..." naming the parameter to refine'),
+        ("tolerance_reason", "text", "why the tolerance is what it is"),
+    ), "attribute"),
 )
 
 SCAN_RUN = "a scan that has at least one finished point"
