@@ -141,16 +141,25 @@ class SfaPhotoelectrons:
     total_right: np.ndarray
 
 
+@njit(cache=True, parallel=True, nogil=True)
+def _direct_kernel(p, t, a, e, p1, p2, ip, dt, table, start, inv_step, out):
+    """out[m] = -i dt sum_i E_i d(p_m + A_i) exp(i Phi_p(t_i))."""
+    for m in prange(p.size):
+        pk = p[m]
+        acc = 0.0j
+        for i in range(t.size):
+            if e[i] == 0.0:
+                continue
+            phase = 0.5 * pk * pk * (t[i] - t[0]) + pk * p1[i] + 0.5 * p2[i] + ip * t[i]
+            acc += e[i] * _interp(table, start, inv_step, pk + a[i]) * complex(math.cos(phase), math.sin(phase))
+        out[m] = -1j * dt * acc
+
+
 def _direct(field, dipole, ip, p):
     """M0(p) for an array of final momenta (a.u.)."""
-    t, a, e, dt = field.time, field.vector_potential, field.electric, field.step
-    on = np.flatnonzero(e != 0.0)
-    t, a, e = t[on], a[on], e[on]
-    p1, p2 = field.integral_a[on], field.integral_a2[on]
     out = np.empty(p.size, dtype=complex)
-    for i, pk in enumerate(p):
-        phase = 0.5 * pk * pk * (t - field.time[0]) + pk * p1 + 0.5 * p2 + ip * t
-        out[i] = -1j * dt * np.sum(e * dipole(pk + a) * np.exp(1j * phase))
+    _direct_kernel(p, field.time, field.vector_potential, field.electric, field.integral_a, field.integral_a2,
+                   ip, field.step, dipole.values, dipole.start, 1.0 / dipole.step, out)
     return out
 
 
