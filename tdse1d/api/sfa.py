@@ -57,10 +57,10 @@ class SfaOutcome:
 
     def __repr__(self) -> str:
         r, s = self.readings, self.spectra
-        return (f"SfaOutcome(cutoff={r.cutoff / s.omega0:.1f} orders, orbit cutoff="
+        return (f"<SfaOutcome cutoff={r.cutoff / s.omega0:.1f} orders, orbit cutoff="
                 f"{r.orbit_cutoff / s.omega0:.1f} orders, direct edge={r.direct_edge / s.ponderomotive_energy:.2f} Up, "
                 f"backscattered edge={r.backscattered_edge / s.ponderomotive_energy:.2f} Up, "
-                f"{sum(s.seconds.values()):.2f} s)")
+                f"{sum(s.seconds.values()):.2f} s>")
 
 
 def sfa(config: RunConfig | Problem | str, *, overrides=(), photoelectrons=True, rescattering=True,

@@ -30,7 +30,7 @@ from numba import njit, prange
 from scipy.interpolate import CubicSpline
 
 __all__ = ["DipoleTable", "dipole_table", "ExcursionWindow", "SampledField", "sample_field",
-           "SfaDipole", "sfa_dipole", "sfa_time_step", "PHASE_PER_STEP", "MAX_TIME_STEP"]
+           "SfaDipole", "sfa_dipole", "sfa_time_step", "saddle_terms", "PHASE_PER_STEP", "MAX_TIME_STEP"]
 
 #: largest phase (rad) the integrand's fastest oscillation, exp(-i (Ip + 4 Up) tau), turns
 #: through in one time step: the rectangle rule over tau then errs by about
@@ -136,15 +136,20 @@ class ExcursionWindow:
     taper: float = 0.15
     split: float = 0.66
     split_width: float = 0.05
+    #: excursions shorter than this are ramped in as sin^2 from 0 (default: none removed)
+    start: float = 0.0
 
     def __post_init__(self):
-        if not (self.end > 0 and self.taper >= 0 and 0 < self.split < self.end and self.split_width >= 0):
+        if not (self.end > 0 and self.taper >= 0 and 0 < self.split < self.end and self.split_width >= 0
+                and 0 <= self.start < self.end):
             raise ValueError(f"inconsistent excursion window {self}")
 
     def weights(self, tau, period):
         """(full, short, long) weights at excursion times ``tau`` (a.u.)."""
         s = np.asarray(tau, dtype=float) / period
         full = np.where(s <= self.end, 1.0, 0.0)
+        if self.start > 0:
+            full = full * np.sin(0.5 * np.pi * np.clip(s / self.start, 0.0, 1.0)) ** 2
         if self.taper > 0:
             ramp = (s > self.end) & (s < self.end + self.taper)
             full = np.where(ramp, np.cos(0.5 * np.pi * (s - self.end) / self.taper) ** 2, full)
@@ -328,3 +333,31 @@ def sfa_time_step(ionization_potential, ponderomotive_energy) -> float:
     """Default time step (a.u.): PHASE_PER_STEP / (Ip + 4 Up), at most MAX_TIME_STEP."""
     rate = float(ionization_potential) + 4.0 * float(ponderomotive_energy)
     return min(MAX_TIME_STEP, PHASE_PER_STEP / rate)
+
+
+def saddle_terms(field: SampledField, dipole: DipoleTable, ionization_potential, rows, steps):
+    """The momentum-integrated integrand of :func:`sfa_dipole`, pair by pair (plain numpy).
+
+    ``sqrt(2 pi / (i tau)) d*(p_s + A(t)) E(t') d(p_s + A(t')) exp(-i S)`` at return
+    times ``t = time[rows]`` and excursions ``tau = steps * dt`` (arrays broadcast
+    together; ``t' = t - tau`` on the grid). :func:`sfa_dipole` sums the same terms
+    with its quadrature and window weights in a compiled loop; this vectorised form is
+    the plain-numpy route of the same sum (the benchmark) and the unit the tests
+    check against a brute-force momentum integral.
+
+    Returns
+    -------
+    ndarray of complex
+    """
+    rows, steps = np.broadcast_arrays(np.asarray(rows, dtype=np.intp), np.asarray(steps, dtype=np.intp))
+    if np.any(steps < 1) or np.any(rows - steps < 0) or np.any(rows >= field.time.size):
+        raise ValueError("need 1 <= steps <= rows < len(time)")
+    ip = float(ionization_potential)
+    k = rows - steps
+    tau = steps * field.step
+    i1 = field.integral_a[rows] - field.integral_a[k]
+    ps = -i1 / tau
+    phase = ip * tau + 0.5 * (field.integral_a2[rows] - field.integral_a2[k]) + 0.5 * i1 * ps
+    a = field.vector_potential
+    return (np.sqrt(2 * np.pi / (1j * tau)) * np.conj(dipole(ps + a[rows])) * dipole(ps + a[k])
+            * field.electric[k] * np.exp(-1j * phase))
