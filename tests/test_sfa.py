@@ -308,3 +308,33 @@ def test_command_prints_what_the_library_returns(tmp_path, capsys):
     assert len(repr(outcome)) <= 300 and repr(outcome).startswith("<")
     # the same atom as the run: Ip is minus the ground state on the run's grid
     assert outcome.spectra.ionization_potential == pytest.approx(-outcome.problem.states.energies[0], rel=1e-12)
+
+
+def test_a_run_with_spectra_sfa_stores_the_declared_sfa_group(tmp_path):
+    """``spectra.sfa = true``: the run's file holds sfa/ with every dataset declared in
+    the layout (tdse1d.io.layout_check), the SFA photoelectron spectrum on the run's own
+    energy axis (up to 20 Up), and an Ip equal to the run's ground state."""
+    import h5py
+
+    import tdse1d
+    from tdse1d.input.schema import load_input
+    from tdse1d.io.layout_check import layout_problems
+    from tdse1d.io.sfa_file import read_sfa
+
+    text = TINY.replace("cycles = 4", "cycles = 2") + (
+        '[absorber]\nwidth = "15 bohr"\n[propagation]\ntime_step = 0.2\nafter_pulse = "0.2 fs"\n'
+        "[output]\nsnapshots = 2\n[spectra]\nsfa = true\n")
+    (tmp_path / "run.toml").write_text(text)
+    outcome = tdse1d.api.run(load_input(tmp_path / "run.toml"), tmp_path / "run.h5")
+    with h5py.File(outcome.path, "r") as f:
+        assert layout_problems(f) == []
+        sfa = read_sfa(f)
+        run_energy = f["spectra/photoelectron/surface_flux/energy"][()]
+        ground = f["states/energy"][0]
+    assert sfa["ionization_potential"] == pytest.approx(-ground, rel=1e-12)
+    e = sfa["photoelectron"]["energy"]
+    up = sfa["ponderomotive_energy"]
+    expected = run_energy[(run_energy > 0) & (run_energy <= 20 * up)]
+    assert np.array_equal(e, expected)
+    assert sfa["harmonic"]["power"].shape == sfa["harmonic"]["frequency"].shape
+    assert sfa["orbits"]["emission_short"].shape[1] == sfa["orbits"]["energy"].size

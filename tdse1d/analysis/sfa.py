@@ -20,8 +20,9 @@ from ..semiclassical import sfa_harmonic, sfa_orbits, sfa_photoelectron
 from ..spectra.cutoff import read_cutoff, running_mean
 from ..spectra.harmonic import HarmonicSpectrum, harmonic_spectrum
 from .photoelectrons import photoelectron_edges
+from .run_analysis import PHOTOELECTRON_METHOD_ORDER
 
-__all__ = ["SfaSpectra", "sfa_spectra", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
+__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
 
 #: the standalone photoelectron axis runs to this many Up: twice the 10 Up edge, so that
 #: the upper half of the axis, where the edge reader takes its flat noise floor
@@ -51,6 +52,8 @@ class SfaSpectra:
     photoelectrons : SfaPhotoelectrons or None
     seconds : dict
         Wall time of each part (s).
+    window : str
+        The spectral window of the harmonic spectra (the run's ``spectra.window``).
     """
 
     ionization_potential: float
@@ -64,6 +67,22 @@ class SfaSpectra:
     orbits: tuple
     photoelectrons: sfa_photoelectron.SfaPhotoelectrons | None
     seconds: dict
+    window: str = "hann"
+
+
+def run_energy_axis(result, ponderomotive_energy):
+    """The energy axis of a run's photoelectron spectrum (the first of the methods it
+    has, in the order of preference of the run's analysis) up to :data:`ENERGY_REACH`
+    Up, or None (hartree)."""
+    spectra = getattr(result, "photoelectrons", {})
+    for method in PHOTOELECTRON_METHOD_ORDER:
+        if method not in spectra:
+            continue
+        e = np.asarray(spectra[method].energy, dtype=float)
+        e = e[(e > 0) & (e <= ENERGY_REACH * ponderomotive_energy)]
+        if e.size >= 8:
+            return e
+    return None
 
 
 def sfa_spectra(problem, *, photoelectrons=True, rescattering=True, energy=None, time_step=None,
@@ -140,7 +159,7 @@ def sfa_spectra(problem, *, photoelectrons=True, rescattering=True, energy=None,
         pe = sfa_photoelectron.sfa_photoelectrons(short, table, potential, ip, period, energy,
                                                   rescattering=rescattering)
         seconds["photoelectrons"] = _clock.perf_counter() - clock
-    return SfaSpectra(ip, up, omega0, period, dipole, *spectra, orbits, pe, seconds)
+    return SfaSpectra(ip, up, omega0, period, dipole, *spectra, orbits, pe, seconds, win)
 
 
 #: decades below its peak at which the direct SFA spectrum is taken to have ended
