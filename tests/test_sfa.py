@@ -338,3 +338,19 @@ def test_a_run_with_spectra_sfa_stores_the_declared_sfa_group(tmp_path):
     assert np.array_equal(e, expected)
     assert sfa["harmonic"]["power"].shape == sfa["harmonic"]["frequency"].shape
     assert sfa["orbits"]["emission_short"].shape[1] == sfa["orbits"]["energy"].size
+
+
+def test_sfa_figures_of_a_run_file(tmp_path):
+    """The three ladder figures are offered for a run file; without an SFA stored they
+    draw the run alone (so ``tdse1d plot --what all`` works on every run)."""
+    import tdse1d
+    from tdse1d.input.schema import load_input
+
+    text = TINY.replace("cycles = 4", "cycles = 1") + (
+        '[absorber]\nwidth = "15 bohr"\n[propagation]\ntime_step = 0.2\nafter_pulse = "0.2 fs"\n'
+        "[output]\nsnapshots = 2\n")
+    (tmp_path / "run.toml").write_text(text)
+    outcome = tdse1d.api.run(load_input(tmp_path / "run.toml"), tmp_path / "run.h5")
+    for what in ("sfa-harmonic", "sfa-photoelectron", "sfa-time-frequency"):
+        figures = tdse1d.api.plot(outcome.path, what, tmp_path / f"{what}.png")
+        assert figures.files[what].stat().st_size > 1000
