@@ -22,7 +22,7 @@ from ..input.problem import Problem, build_problem
 from ..input.schema import RunConfig, load_input
 from .. import units
 
-__all__ = ["sfa", "SfaOutcome"]
+__all__ = ["sfa", "SfaOutcome", "sfa_scan", "SfaScan"]
 
 
 @dataclass(frozen=True)
@@ -118,3 +118,93 @@ def describe(outcome: SfaOutcome) -> str:
             lines.append(f"  {q:5.0f}  {r.emission_short[i] * fs:8.3f}  {r.emission_long[i] * fs:8.3f}")
     lines.append("wall time: " + ", ".join(f"{k} {v:.2f} s" for k, v in s.seconds.items()))
     return "\n".join(lines)
+
+
+@dataclass(frozen=True)
+class SfaScan:
+    """The SFA harmonic cutoff at every point of a scan plan, beside a run scan's if given.
+
+    Attributes (hartree)
+    ----------
+    ponderomotive_energy, cutoff, cutoff_uncertainty, orbit_cutoff : ndarray
+        Per point of the plan, in plan order.
+    ionization_potential : ndarray
+    run : dict or None
+        ``ponderomotive_energy``, ``cutoff`` (NaN: unresolved) of the run scan's summary.
+    figure : path or None
+        The cutoff-against-Up figure written.
+    seconds : float
+        Wall time of the SFA points.
+    """
+
+    ponderomotive_energy: np.ndarray
+    cutoff: np.ndarray
+    cutoff_uncertainty: np.ndarray
+    orbit_cutoff: np.ndarray
+    ionization_potential: np.ndarray
+    run: dict | None
+    figure: object
+    seconds: float
+
+    def __repr__(self) -> str:
+        beside = "" if self.run is None else f", beside {len(self.run['cutoff'])} run points"
+        return (f"<SfaScan {self.cutoff.size} points{beside}, {self.seconds:.1f} s"
+                + ("" if self.figure is None else f", figure {self.figure}") + ">")
+
+
+def sfa_scan(plan, *, summary=None, figure=None) -> SfaScan:
+    """SFA cutoffs over the points of a scan plan (the plan files of ``tdse1d scan``), and
+    the figure of cutoff against Up for the SFA and, given its ``summary.h5``, the run scan.
+
+    Parameters
+    ----------
+    plan : path
+        Scan plan (TOML); each point's input is the SFA's (no run is made).
+    summary : path, optional
+        ``summary.h5`` of the time-dependent scan of the same (or another) plan.
+    figure : path, optional
+        Where to write the figure (.png, .pdf, .svg).
+
+    Returns
+    -------
+    SfaScan
+    """
+    import time
+
+    from ..scans.plan import load_plan
+
+    loaded = load_plan(plan)
+    clock = time.perf_counter()
+    rows = []
+    for point in loaded.points:
+        out = sfa(point.config, photoelectrons=False)
+        r = out.readings
+        rows.append((out.spectra.ponderomotive_energy, r.cutoff, r.cutoff_uncertainty, r.orbit_cutoff,
+                     out.spectra.ionization_potential))
+    seconds = time.perf_counter() - clock
+    up, cut, err, orbit, ip = (np.array(c) for c in zip(*rows))
+    run = None
+    if summary is not None:
+        import h5py
+
+        ev = units.HARTREE_EV
+        with h5py.File(summary, "r") as f:
+            run = {"ponderomotive_energy": f["estimates/ponderomotive_energy_eV"][()] / ev,
+                   "cutoff": f["cutoff/cutoff_energy_eV"][()] / ev,
+                   "photon_energy": f["estimates/photon_energy_eV"][()] / ev}
+    written = None
+    if figure is not None:
+        import matplotlib
+
+        matplotlib.use("Agg")
+        from pathlib import Path
+
+        from ..plots.sfa_figures import cutoff_against_up_figure
+
+        rungs = [("SFA", up, cut, err), ("SFA quantum orbits", up, orbit, np.zeros_like(orbit))]
+        if run is not None:
+            rungs.insert(0, ("time-dependent run", run["ponderomotive_energy"], run["cutoff"], run["photon_energy"]))
+        fig = cutoff_against_up_figure(rungs, float(np.median(ip)))
+        written = Path(figure)
+        fig.savefig(written, dpi=200)
+    return SfaScan(up, cut, err, orbit, ip, run, written, seconds)
