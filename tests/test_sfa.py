@@ -319,7 +319,8 @@ def test_a_run_with_spectra_sfa_stores_the_declared_sfa_group(tmp_path):
     import tdse1d
     from tdse1d.input.schema import load_input
     from tdse1d.io.layout_check import layout_problems
-    from tdse1d.io.sfa_file import read_sfa
+    from tdse1d.analysis.sfa import sfa_readings, sfa_spectra
+    from tdse1d.io.sfa_file import read_sfa, read_sfa_readings
 
     text = TINY.replace("cycles = 4", "cycles = 2") + (
         '[absorber]\nwidth = "15 bohr"\n[propagation]\ntime_step = 0.2\nafter_pulse = "0.2 fs"\n'
@@ -329,6 +330,7 @@ def test_a_run_with_spectra_sfa_stores_the_declared_sfa_group(tmp_path):
     with h5py.File(outcome.path, "r") as f:
         assert layout_problems(f) == []
         sfa = read_sfa(f)
+        stored = read_sfa_readings(f)
         run_energy = f["spectra/photoelectron/surface_flux/energy"][()]
         ground = f["states/energy"][0]
     assert sfa["ionization_potential"] == pytest.approx(-ground, rel=1e-12)
@@ -338,6 +340,11 @@ def test_a_run_with_spectra_sfa_stores_the_declared_sfa_group(tmp_path):
     assert np.array_equal(e, expected)
     assert sfa["harmonic"]["power"].shape == sfa["harmonic"]["frequency"].shape
     assert sfa["orbits"]["emission_short"].shape[1] == sfa["orbits"]["energy"].size
+    # the readings read back are those computed for the same problem
+    fresh = sfa_readings(sfa_spectra(outcome.problem, energy=e))
+    for name in ("cutoff", "orbit_cutoff", "direct_edge", "backscattered_edge", "crest_time"):
+        assert getattr(stored, name) == pytest.approx(getattr(fresh, name), rel=1e-9, nan_ok=True), name
+    assert np.allclose(stored.emission_short, fresh.emission_short, equal_nan=True)
 
 
 def test_sfa_figures_of_a_run_file(tmp_path):

@@ -13,7 +13,7 @@ import numpy as np
 from ..analysis.sfa import SfaReadings, SfaSpectra
 from .result_file import write_dataset
 
-__all__ = ["write_sfa", "read_sfa"]
+__all__ = ["write_sfa", "read_sfa", "read_sfa_readings"]
 
 
 def write_sfa(h5file, spectra: SfaSpectra, readings: SfaReadings) -> None:
@@ -73,3 +73,27 @@ def read_sfa(h5file) -> dict | None:
         h["cutoff_reason"] = str(g["harmonic/cutoff_energy"].attrs.get("reason", ""))
         h["resolved"] = math.isfinite(h["cutoff_energy"])
     return out
+
+
+def read_sfa_readings(h5file) -> SfaReadings | None:
+    """The :class:`SfaReadings` stored in an open result file, or None without ``sfa/``.
+
+    The emission times are those of the half cycle with the largest local Up, as
+    :func:`tdse1d.analysis.sfa.sfa_readings` chooses them.
+    """
+    sfa = read_sfa(h5file)
+    if sfa is None:
+        return None
+    nan = math.nan
+    h = sfa.get("harmonic", {})
+    pe = sfa.get("photoelectron", {})
+    o = sfa.get("orbits")
+    energy = short = long_ = np.zeros(0)
+    crest = orbit_cutoff = nan
+    if o is not None and np.size(o["crest_time"]):
+        k = int(np.argmax(o["ponderomotive_energy"]))
+        crest, orbit_cutoff = float(o["crest_time"][k]), float(o["cutoff"][k])
+        energy, short, long_ = o["energy"], o["emission_short"][k], o["emission_long"][k]
+    return SfaReadings(float(h.get("cutoff_energy", nan)), float(h.get("cutoff_uncertainty", nan)), orbit_cutoff,
+                       float(pe.get("direct_edge", nan)), float(pe.get("backscattered_edge", nan)),
+                       energy, short, long_, crest, h.get("cutoff_reason", "no harmonic spectrum"))
