@@ -361,3 +361,27 @@ def test_sfa_figures_of_a_run_file(tmp_path):
     for what in ("sfa-harmonic", "sfa-photoelectron", "sfa-time-frequency"):
         figures = tdse1d.api.plot(outcome.path, what, tmp_path / f"{what}.png")
         assert figures.files[what].stat().st_size > 1000
+
+
+def test_plan_command_prints_what_sfa_scan_returns(tmp_path, capsys):
+    """``tdse1d sfa PLAN --plan`` against ``tdse1d.api.sfa.sfa_scan`` (one route against
+    the other), and the cutoff grows with Up along the plan (the 3.17 Up law's sign)."""
+    from tdse1d.api.sfa import sfa_scan
+    from tdse1d.cli import program
+
+    (tmp_path / "tiny.toml").write_text(TINY)
+    plan = tmp_path / "plan.toml"
+    plan.write_text('base = "tiny.toml"\n[[axis]]\nkey = "laser.0.peak_intensity"\n'
+                    'values = ["1e14 W/cm^2", "2e14 W/cm^2"]\n')
+    scan = sfa_scan(plan, figure=tmp_path / "cutoff.png")
+    assert (tmp_path / "cutoff.png").stat().st_size > 1000
+    assert program.main(["sfa", str(plan), "--plan"]) == 0
+    lines = capsys.readouterr().out.splitlines()[1:]
+    from tdse1d import units
+
+    for line, up, cut in zip(lines, scan.ponderomotive_energy, scan.cutoff):
+        fields = line.split()
+        assert float(fields[0]) == pytest.approx(up * units.HARTREE_EV, abs=1e-3)
+        assert float(fields[1]) == pytest.approx(cut * units.HARTREE_EV, abs=1e-2)
+    assert scan.orbit_cutoff[1] > scan.orbit_cutoff[0]
+    assert len(repr(scan)) <= 300 and repr(scan).startswith("<")

@@ -128,6 +128,8 @@ class SfaScan:
     ----------
     ponderomotive_energy, cutoff, cutoff_uncertainty, orbit_cutoff : ndarray
         Per point of the plan, in plan order.
+    local_ponderomotive_energy : ndarray
+        Up of the strongest half cycle (the orbits' field), per point.
     ionization_potential : ndarray
     run : dict or None
         ``ponderomotive_energy``, ``cutoff`` (NaN: unresolved) of the run scan's summary.
@@ -142,6 +144,7 @@ class SfaScan:
     cutoff_uncertainty: np.ndarray
     orbit_cutoff: np.ndarray
     ionization_potential: np.ndarray
+    local_ponderomotive_energy: np.ndarray
     run: dict | None
     figure: object
     seconds: float
@@ -179,10 +182,11 @@ def sfa_scan(plan, *, summary=None, figure=None) -> SfaScan:
     for point in loaded.points:
         out = sfa(point.config, photoelectrons=False)
         r = out.readings
+        local = max((o.ponderomotive_energy for o in out.spectra.orbits), default=math.nan)
         rows.append((out.spectra.ponderomotive_energy, r.cutoff, r.cutoff_uncertainty, r.orbit_cutoff,
-                     out.spectra.ionization_potential))
+                     out.spectra.ionization_potential, local))
     seconds = time.perf_counter() - clock
-    up, cut, err, orbit, ip = (np.array(c) for c in zip(*rows))
+    up, cut, err, orbit, ip, local_up = (np.array(c) for c in zip(*rows))
     run = None
     if summary is not None:
         import h5py
@@ -201,10 +205,11 @@ def sfa_scan(plan, *, summary=None, figure=None) -> SfaScan:
 
         from ..plots.sfa_figures import cutoff_against_up_figure
 
-        rungs = [("SFA", up, cut, err), ("SFA quantum orbits", up, orbit, np.zeros_like(orbit))]
+        # the orbits' cutoff belongs to the strongest half cycle, at its own (local) Up
+        rungs = [("SFA", up, cut, err), ("SFA quantum orbits (at the local Up)", local_up, orbit, np.zeros_like(orbit))]
         if run is not None:
             rungs.insert(0, ("time-dependent run", run["ponderomotive_energy"], run["cutoff"], run["photon_energy"]))
         fig = cutoff_against_up_figure(rungs, float(np.median(ip)))
         written = Path(figure)
         fig.savefig(written, dpi=200)
-    return SfaScan(up, cut, err, orbit, ip, run, written, seconds)
+    return SfaScan(up, cut, err, orbit, ip, local_up, run, written, seconds)
