@@ -4,7 +4,7 @@ strong laser fields, with the semiclassical picture laid beside the quantum resu
 Everything inside is in Hartree atomic units; :mod:`tdse1d.units` converts.
 
 The library functions (:mod:`tdse1d.api`: run, certify, states, estimate, report, plot, export,
-scan, compare, validate) are imported on first use: the command line imports this
+scan, compare, validate, sfa) are imported on first use: the command line imports this
 package before it can catch a Ctrl-C, so the package itself stays light. ``tdse1d.runs``,
 ``tdse1d.scans`` and ``tdse1d.validation`` are also the names of subpackages (once one of
 them is imported, the name is the subpackage), so call those three as ``tdse1d.api.run``,
@@ -14,7 +14,7 @@ them is imported, the name is the subpackage), so call those three as ``tdse1d.a
 __version__ = "0.1.0"
 
 _API = ("load_input", "find_states", "states", "estimate", "run", "certify", "report", "plot", "export", "scan", "compare",
-        "validate")
+        "validate", "sfa")
 
 __all__ = ["__version__", "api", *_API]
 

@@ -18,6 +18,7 @@ command                function                    returns
 ``tdse1d scan``        :func:`scan`                :class:`~.campaigns.ScanOutcome`
 ``tdse1d compare``     :func:`compare`             :class:`~tdse1d.scans.compare.Comparison`
 ``tdse1d validate``    :func:`validate`            :class:`~.campaigns.ValidationReport`
+``tdse1d sfa``         :func:`sfa`                 :class:`~.sfa.SfaOutcome`
 =====================  ==========================  ===========================================
 
 ``tdse1d run --certify`` calls :func:`certify`, which returns a
@@ -37,10 +38,11 @@ _WHERE = {
     **dict.fromkeys(("report", "export", "Report", "Table"), "results"),
     **dict.fromkeys(("plot", "Figures"), "figures"),
     **dict.fromkeys(("scan", "certify", "compare", "validate", "ScanOutcome", "ValidationReport"), "campaigns"),
+    **dict.fromkeys(("sfa", "SfaOutcome"), "sfa"),
 }
 
 __all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "certify", "report", "plot",
-           "export", "scan", "compare", "validate"]
+           "export", "scan", "compare", "validate", "sfa"]
 
 
 def __getattr__(name):

@@ -16,7 +16,8 @@ from pathlib import Path
 import numpy as np
 
 from ..input.spec import InputError
-from ..plots import run_figures, scan_figures
+from ..plots import run_figures, scan_figures, sfa_figures
+from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 __all__ = ["plot", "Figures", "KINDS", "all_figures", "output_files"]
 
@@ -134,6 +135,52 @@ def _photoelectron(f, cache):
                                       bands=bands)
 
 
+def _sfa_group(f, name):
+    from ..io.sfa_file import read_sfa
+
+    sfa = read_sfa(f)
+    return None if sfa is None else sfa.get(name)
+
+
+def _sfa_harmonic(f, cache):
+    a = _analysis(f, cache)
+    g = f["spectra/harmonic"]
+    cutoffs = [("Ip + 3.17 Up", a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
+               ("1.32 Ip + 3.17 Up", LEWENSTEIN_IP * a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
+               ("run, read off", a.harmonic_cutoff)]
+    sfa = _sfa_group(f, "harmonic")
+    if sfa is not None:
+        cutoffs.append(("SFA, read off", sfa["cutoff_energy"]))
+    return sfa_figures.harmonic_ladder_figure(g["frequency"][()], g["power"][()], a.omega0, a.ionization_potential,
+                                              cutoffs, sfa)
+
+
+def _sfa_photoelectron(f, cache):
+    a = _analysis(f, cache)
+    method = a.photoelectron_method
+    if method is None:
+        raise InputError("the file holds no photoelectron spectrum", "--what")
+    g = f[f"spectra/photoelectron/{method}"]
+    up = a.ponderomotive_energy
+    return sfa_figures.photoelectron_ladder_figure(g["energy"][()], g["energy_density_left"][()],
+                                                   g["energy_density_right"][()], up,
+                                                   [("2 Up", 2 * up), ("10 Up", 10 * up)],
+                                                   _sfa_group(f, "photoelectron"))
+
+
+def _sfa_time_frequency(f, cache):
+    a = _analysis(f, cache)
+    tf = a.time_frequency
+    if tf is None:
+        raise InputError("no time-frequency map: the run has no field", "--what")
+    s = a.three_step
+    branches = [("short", s.short_branch), ("long", s.long_branch)] if s is not None else []
+    return sfa_figures.sfa_time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
+                                                 s.cutoff_energy if s is not None else math.nan,
+                                                 f["field/time"][()], f["field/electric"][()],
+                                                 _sfa_group(f, "orbits"))
+
+
 def _populations(f, cache):
     return run_figures.populations_figure(f["observables/time"][()], f["observables/norm"][()],
                                     f["observables/population_time"][()], f["observables/bound_population"][()])
@@ -148,6 +195,9 @@ KINDS = {
         "time-frequency": _time_frequency,
         "photoelectron": _photoelectron,
         "populations": _populations,
+        "sfa-harmonic": _sfa_harmonic,
+        "sfa-photoelectron": _sfa_photoelectron,
+        "sfa-time-frequency": _sfa_time_frequency,
     },
     "scan-summary": scan_figures.FIGURES,
 }

@@ -301,6 +301,33 @@ def run(config: RunConfig | Problem | str, output=None, progress=None, overrides
     return run_problem(build_problem(config), output, progress, resume=resume, control=control, strict=strict)
 
 
+def _sfa_beside(problem: Problem, result):
+    """The SFA of the run's pulse and atom when the input asks for it (spectra.sfa), on
+    the run's photoelectron axis; None otherwise or when it cannot be computed (said)."""
+    if not problem.config.spectra.sfa:
+        return None
+    from ..analysis.sfa import run_energy_axis, sfa_readings, sfa_spectra
+
+    try:
+        up = float(problem.pulse_estimates[0].ponderomotive_energy)
+        spectra = sfa_spectra(problem, energy=run_energy_axis(result, up))
+        return spectra, sfa_readings(spectra)
+    except (ValueError, IndexError, ArithmeticError) as exc:
+        result.warnings.append(f"strong-field approximation not stored: {exc}")
+        return None
+
+
+def _write_extra(h5, analysis, sfa):
+    from ..io.analysis_file import write_analysis
+
+    if analysis is not None:
+        write_analysis(h5, analysis)
+    if sfa is not None:
+        from ..io.sfa_file import write_sfa
+
+        write_sfa(h5, *sfa)
+
+
 def default_control(config: RunConfig):
     """A :class:`~tdse1d.runs.runner.RunControl` with the input's checkpoint interval (in s)."""
     from .. import units
@@ -363,7 +390,8 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
             except (ValueError, IndexError, ArithmeticError) as exc:
                 analysis = None
                 result.warnings.append(f"semiclassical analysis not stored: {exc}")
-            writer.write_result(result, extra=None if analysis is None else lambda h5: write_analysis(h5, analysis))
+            sfa = _sfa_beside(problem, result)
+            writer.write_result(result, extra=lambda h5: _write_extra(h5, analysis, sfa))
             writer.close()
             notes = (writer.note,) if writer.note else ()
         sink.discard()

@@ -36,6 +36,7 @@ COMMANDS = {
     "plot": "tdse1d.cli.plot",
     "export": "tdse1d.cli.export",
     "validate": "tdse1d.cli.validate",
+    "sfa": "tdse1d.cli.sfa",
 }
 
 EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130

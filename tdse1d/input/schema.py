@@ -226,6 +226,8 @@ class SpectraConfig:
                               'flux method), the default'}),
         "surface_flux",
     )
+    sfa: bool = key(Spec("bool", doc="also compute the strong-field approximation of the same pulse and atom "
+                                     "and store it beside the run's spectra (docs/sfa.md)"), False)
 
 
 @dataclass(frozen=True)

@@ -96,6 +96,52 @@ _ESTIMATES = (
     ("barrier_suppression_intensity_W_cm2", "W/cm^2", "intensity at which the barrier top reaches the initial level"),
 )
 
+SFA = "a run with spectra.sfa = true"
+#: the strong-field approximation of the run's pulse and atom (tdse1d.analysis.sfa, docs/sfa.md)
+SFA_LAYOUT: tuple[Entry, ...] = (
+    *_entries("sfa", SFA, (
+        ("ionization_potential", "hartree", "Ip of the ground state on the run's grid, the SFA's"),
+        ("ponderomotive_energy", "hartree", "Up of the first pulse"),
+        ("photon_energy", "hartree", "carrier frequency w of the first pulse"),
+        ("time_step", T, "step of the SFA time grid (docs/sfa.md)"),
+        ("excursion_window", "text", "excursion window of the harmonic dipole, in optical periods"),
+    ), "attribute"),
+    *_entries("sfa/harmonic", SFA, (
+        ("frequency", "hartree", "angular frequency = photon energy", "(F',)"),
+        ("order", "1", "harmonic order: frequency / carrier frequency of the first pulse", "(F',)"),
+        ("power", "atomic_units", "|a|^2 of the SFA dipole, acceleration form, the run's window", "(F',)"),
+        ("power_short", "atomic_units", "the same for excursions in the short-branch window", "(F',)"),
+        ("power_long", "atomic_units", "the same for excursions in the long-branch window", "(F',)"),
+        ("cutoff_energy", "hartree", "cutoff read off power by the run's rule (NaN: see reason)"),
+        ("cutoff_uncertainty", "hartree", "half width of that reading: one harmonic order"),
+    )),
+    Entry("sfa/harmonic@window", "text", "the window W (spectra.window of the input)", when=SFA),
+    Entry("sfa/harmonic/cutoff_energy@reason", "text", "why the cutoff is NaN (empty if read)", when=SFA),
+    *_entries("sfa/orbits", SFA, (
+        ("crest_time", T, "field crest of each central half cycle", "(H,)"),
+        ("ponderomotive_energy", "hartree", "local Up of each half cycle (fitted A0^2 / 4)", "(H,)"),
+        ("cutoff", "hartree", "quantum-orbit cutoff of each half cycle (closest approach of the branches)",
+         "(H,)"),
+        ("energy", "hartree", "photon energies of the orbits", "(E,)"),
+        ("emission_short", T, "Re t of the return, short orbits (NaN beyond the cutoff)", "(H, E)"),
+        ("emission_long", T, "Re t of the return, long orbits (NaN beyond the cutoff)", "(H, E)"),
+        ("ionization_short", T, "Re t' of the ionization, short orbits", "(H, E)"),
+        ("ionization_long", T, "Re t' of the ionization, long orbits", "(H, E)"),
+    )),
+    *_entries("sfa/photoelectron", "a run with spectra.sfa = true and a photoelectron spectrum", (
+        ("energy", "hartree", "kinetic energy: the run's photoelectron axis up to 20 Up", "(K'',)"),
+        ("direct_left", "1/hartree", "dP/dE of the direct SFA amplitude, electrons going left (p < 0)", "(K'',)"),
+        ("direct_right", "1/hartree", "the same going right (p > 0)", "(K'',)"),
+        ("rescattered_left", "1/hartree", "dP/dE of the first-order Born rescattered amplitude, going left",
+         "(K'',)"),
+        ("rescattered_right", "1/hartree", "the same going right", "(K'',)"),
+        ("total_left", "1/hartree", "dP/dE of the coherent sum of both amplitudes, going left", "(K'',)"),
+        ("total_right", "1/hartree", "the same going right", "(K'',)"),
+        ("direct_edge", "hartree", "edge of the direct SFA spectrum (docs/sfa.md)"),
+        ("backscattered_edge", "hartree", "edge of the rescattered SFA spectrum, the run's rule (NaN: unresolved)"),
+    )),
+)
+
 _PHOTO = "spectra/photoelectron/{method}"
 
 RESULT_LAYOUT: tuple[Entry, ...] = (
@@ -318,6 +364,7 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
         ("note", "text", 'empty, or "not converged: ..." naming the parameter to refine'),
         ("tolerance_reason", "text", "why the tolerance is what it is"),
     ), "attribute"),
+    *SFA_LAYOUT,
 )
 
 SCAN_RUN = "a scan that has at least one finished point"

@@ -8,7 +8,7 @@
     :func:`run_suite` runs the cases and :func:`write_report` writes ``report.md``.
 """
 
-from . import kinds, scan_kinds  # noqa: F401  (registers the case kinds)
+from . import kinds, scan_kinds, sfa_kinds  # noqa: F401  (registers the case kinds)
 from .cases import (CASE_KINDS, PACKAGED_CASES, Case, CaseReport, Row, case_dirs_searched, default_cases_dir, discover,
                     register_case_kind)
 from .kinds import CaseKind
