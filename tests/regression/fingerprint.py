@@ -41,41 +41,6 @@ ROUND_OFF_KEYS = ("noise_floor_log10", "headroom", "seconds", "wall")
 READING_KEYS = ("emission", "edges", "cutoff", "plateau", "streaking", "ponderomotive")
 READING_RTOL = 1e-9
 
-#: paths renamed since the reference was written (old -> new; tdse1d.io.layout.RENAMED
-#: keeps the same list for reading old files): the reference's entries are compared
-#: under their new names, to the same tolerances
-REFERENCE_RENAMES = {
-    "@order": "@splitting_order",
-    "spectra/harmonic@cutoff_frequency": "spectra/harmonic@cutoff_energy",
-    "spectra/photon_energy": "spectra/photon_energy_eV",
-    "cutoff/spectrum": "cutoff/cutoff_energy_eV",
-    "cutoff/semiclassical": "cutoff/semiclassical_eV",
-    "cutoff/lewenstein": "cutoff/lewenstein_eV",
-    "estimates/ponderomotive_energy": "estimates/ponderomotive_energy_eV",
-    "estimates/ionization_potential": "estimates/ionization_potential_eV",
-    "estimates/photon_energy": "estimates/photon_energy_eV",
-    "estimates/peak_intensity": "estimates/peak_intensity_W_cm2",
-    "ionization/tunnelling_estimate": "ionization/tunnelling_yield",
-    "photoelectron/cutoff": "photoelectron/cutoff_energy_eV",
-    "photoelectron/direct_edge": "photoelectron/direct_edge_eV",
-    "photoelectron/backscattered_edge": "photoelectron/backscattered_edge_eV",
-    "photoelectron/direct_drift": "photoelectron/direct_drift_eV",
-    "photoelectron/backscattered_drift": "photoelectron/backscattered_drift_eV",
-}
-
-
-def renamed_key(key: str) -> str:
-    """A reference key (``case:path[#part]``) under the current name of its path."""
-    case, _, rest = key.rpartition(":")
-    path, hash_, part = rest.partition("#")
-    if path in REFERENCE_RENAMES:
-        path = REFERENCE_RENAMES[path]
-    elif "@" in path and path.split("@")[0] in REFERENCE_RENAMES:
-        where, attr = path.split("@")
-        path = f"{REFERENCE_RENAMES[where]}@{attr}"
-    return f"{case}:{path}{hash_}{part}" if case else f"{path}{hash_}{part}"
-
-
 HERE = Path(__file__).resolve().parent
 REFERENCE = HERE / "reference.npz"
 ROOT = HERE.parents[1]
@@ -136,10 +101,7 @@ def fingerprint(path) -> dict[str, np.ndarray]:
 
 
 def differences(reference: dict, current: dict, rtol: float = RTOL) -> list[str]:
-    """What moved: keys missing on either side, and entries beyond ``rtol``.
-
-    The reference's keys are first renamed by :data:`REFERENCE_RENAMES`."""
-    reference = {renamed_key(k): v for k, v in reference.items()}
+    """What moved: keys missing on either side, and entries beyond ``rtol``."""
     problems = [f"missing now: {k}" for k in sorted(set(reference) - set(current))]
     problems += [f"new: {k}" for k in sorted(set(current) - set(reference))]
     for k in sorted(set(reference) & set(current)):
