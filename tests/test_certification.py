@@ -244,3 +244,20 @@ def test_command_line_certify_prints_the_library_table(tmp_path, capsys, monkeyp
     assert read_certification(tmp_path / "c.h5")
     # companions not kept: only the result is left
     assert sorted(p.name for p in tmp_path.iterdir()) == ["c.h5", "tiny.toml"]
+
+
+def test_the_report_of_a_certified_file_carries_its_numerical_uncertainties(certified):
+    """The report reads the certification the file holds: each row of a certified quantity
+    has that spread as its numerical part; an uncertified run of the same input has none
+    (the null: the rows would be the same if the report ignored the certification)."""
+    from tdse1d import api
+
+    inp, done = certified
+    report = api.report(done.path)
+    assert report.numerical == {k: q.uncertainty for k, q in done.quantities.items() if math.isfinite(q.uncertainty)}
+    rows = [r for r in report.rows if r.key in report.numerical]
+    assert rows, "no row of a certified quantity"
+    for r in rows:
+        assert dict(r.parts)["numerical"] == pytest.approx(report.numerical[r.key])
+    plain = api.report(api.run(inp, inp.with_name("plain-for-report.h5")).path)
+    assert plain.numerical == {} and all(math.isnan(dict(r.parts).get("numerical", math.nan)) for r in plain.rows)

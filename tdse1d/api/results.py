@@ -83,9 +83,12 @@ def _numerical_uncertainties(path) -> tuple[dict, dict]:
     -------
     (dict, dict)
         Quantity key -> absolute spread (atomic units), and quantity key -> "not
-        converged: enlarge <parameter>". Empty until the file holds companion runs.
+        converged: enlarge <parameter>" (:func:`tdse1d.io.certification_file.read_numerical_uncertainties`);
+        both empty for a file that was not certified (``tdse1d run --certify``).
     """
-    return {}, {}
+    from ..io.certification_file import read_numerical_uncertainties
+
+    return read_numerical_uncertainties(path)
 
 
 def report(path) -> Report:
