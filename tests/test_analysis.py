@@ -368,6 +368,9 @@ def test_report_plot_export_on_every_example(example_runs, name, tmp_path):
     path = example_runs[name]
     report = api.report(path)
     data = report.to_json()
+    import json
+
+    json.dumps(data, allow_nan=False)  # strict JSON: no NaN, null where a value does not apply
     quantities = {r["quantity"] for r in data["rows"]}
     assert {"ground-state energy", "ionization potential Ip", "ionization probability"} <= quantities
     # rows that fit the run: the three-step rows only for a driving field with a
