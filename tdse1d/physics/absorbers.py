@@ -100,16 +100,25 @@ class Absorber:
 
 @register_absorber("mask")
 class CosineMask(Absorber):
-    """M(x) = cos^(1/8)(pi/2 * s) with s the depth into the layer (0 to 1).
+    """M(x) = cos^(e dt / dt0)(pi/2 * s) with s the depth into the layer (0 to 1).
 
     The mask of Krause, Schafer and Kulander, Phys. Rev. A 45, 4998 (1992), applied once
-    per time step; ``exponent`` (default 1/8) sets how sharply it bites.
+    per time step; ``exponent`` e (default 1/8) sets how sharply it bites at the
+    reference step dt0 = :attr:`REFERENCE_STEP`. A factor applied every step is the
+    propagator exp(-W dt) of an absorbing potential W = -ln(M) / dt: the exponent scales
+    with dt / dt0 so that W, the absorption per unit time, does not depend on the step
+    (a factor fixed per step would absorb twice as fast at half the step, and the
+    results would move with the step through the boundary alone; tests/test_absorbers.py).
     """
 
     own_keys = ("exponent",)
 
+    #: the step (a.u.) at which the mask is cos^e: the automatic step's largest value
+    #: (tdse1d.semiclassical.estimates.MAX_TIME_STEP), the step most runs take
+    REFERENCE_STEP = 0.05
+
     def layer_factor(self, depth, time_step):
-        m = np.cos(0.5 * np.pi * depth) ** self.exponent
+        m = np.cos(0.5 * np.pi * depth) ** (self.exponent * time_step / self.REFERENCE_STEP)
         # the grid's very edge would be exactly zero; keep the factor positive
         return np.maximum(m, 1e-30)
 
