@@ -364,9 +364,9 @@ def test_sfa_figures_of_a_run_file(tmp_path):
 
 
 def test_plan_command_prints_what_sfa_scan_returns(tmp_path, capsys):
-    """``tdse1d sfa PLAN --plan`` against ``tdse1d.api.sfa.sfa_scan`` (one route against
+    """``tdse1d sfa PLAN --plan`` against ``tdse1d.api.strong_field.sfa_scan`` (one route against
     the other), and the cutoff grows with Up along the plan (the 3.17 Up law's sign)."""
-    from tdse1d.api.sfa import sfa_scan
+    from tdse1d.api.strong_field import sfa_scan
     from tdse1d.cli import program
 
     (tmp_path / "tiny.toml").write_text(TINY)
@@ -385,3 +385,16 @@ def test_plan_command_prints_what_sfa_scan_returns(tmp_path, capsys):
         assert float(fields[1]) == pytest.approx(cut * units.HARTREE_EV, abs=1e-2)
     assert scan.orbit_cutoff[1] > scan.orbit_cutoff[0]
     assert len(repr(scan)) <= 300 and repr(scan).startswith("<")
+
+
+def test_tdse1d_sfa_stays_the_function_after_the_command_is_imported():
+    """The module of the command's function is not named ``sfa``: importing it would bind
+    ``tdse1d.api.sfa`` to the module (the shadowing tests/test_architecture.py guards
+    against for the layer packages)."""
+    import importlib
+
+    import tdse1d
+
+    importlib.import_module("tdse1d.cli.sfa")
+    importlib.import_module("tdse1d.api.strong_field")
+    assert callable(tdse1d.sfa) and callable(tdse1d.api.sfa) and callable(tdse1d.api.sfa_scan)
