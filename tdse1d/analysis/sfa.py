@@ -181,6 +181,16 @@ def direct_edge(energy, density, photon_energy, drop=DIRECT_DROP) -> float:
     return float(e[use][np.flatnonzero(s >= s.max() - drop)[-1]])
 
 
+def reading_reach(spectra: SfaSpectra) -> float:
+    """Top of the photon-energy axis the SFA cutoff is read on (hartree): twice
+    1.32 Ip + 3.17 Up plus 10 orders. Above it the SFA spectrum holds the round-off of
+    the dipole amplified by w^4 (the acceleration form), rising with w, which the
+    reading rule would take for its noise floor (the run's spectrum has a flat floor up
+    to its Nyquist energy); below it the spectrum has fallen exponentially from the
+    cutoff, so the upper half of this axis is the SFA's floor."""
+    return 2 * (1.32 * spectra.ionization_potential + 3.17 * spectra.ponderomotive_energy) + 10 * spectra.omega0
+
+
 @dataclass(frozen=True)
 class SfaReadings:
     """Numbers read off the SFA spectra, for the report's SFA column (atomic units).
@@ -231,7 +241,7 @@ def sfa_readings(spectra: SfaSpectra) -> SfaReadings:
     cutoff, reason = nan, "no harmonic spectrum"
     if spectra.harmonic is not None:
         h = spectra.harmonic
-        keep = h.frequency > 0
+        keep = (h.frequency > 0) & (h.frequency <= reading_reach(spectra))
         est = read_cutoff(h.frequency[keep], h.power[keep], spectra.omega0, spectra.ionization_potential)
         cutoff, reason = est.frequency, est.reason
     direct = back = nan
