@@ -22,7 +22,7 @@ from ..spectra.harmonic import HarmonicSpectrum, harmonic_spectrum
 from .photoelectrons import photoelectron_edges
 from .run_analysis import PHOTOELECTRON_METHOD_ORDER
 
-__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
+__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaEmissionDeviation", "emission_deviation", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
 
 #: the standalone photoelectron axis runs to this many Up: twice the 10 Up edge, so that
 #: the upper half of the axis, where the edge reader takes its flat noise floor
@@ -265,3 +265,59 @@ def sfa_readings(spectra: SfaSpectra) -> SfaReadings:
         energy, short, long_ = best.energy, best.emission_short, best.emission_long
     return SfaReadings(float(cutoff), spectra.omega0, float(orbit_cutoff), float(direct), float(back),
                        energy, short, long_, float(crest), reason)
+
+
+@dataclass(frozen=True)
+class SfaEmissionDeviation:
+    """Run emission times (Gabor maxima) against the SFA quantum orbits, per branch.
+
+    Attributes
+    ----------
+    short, long : float
+        Median over the run's plateau samples of (run time - quantum-orbit time of that
+        branch at the same photon energy, in the half cycle whose orbit lies nearest),
+        in optical cycles; NaN when no sample meets an orbit.
+    samples : int
+        Samples compared.
+    """
+
+    short: float
+    long: float
+    samples: int
+
+
+def emission_deviation(emission, orbits, period) -> SfaEmissionDeviation:
+    """Compare the run's emission times with the SFA quantum orbits of every half cycle.
+
+    Parameters
+    ----------
+    emission : tdse1d.analysis.EmissionTimes
+        ``frequency`` (hartree) and ``quantum`` (a.u.) of the run's Gabor maxima.
+    orbits : dict
+        ``energy`` (E,), ``emission_short`` and ``emission_long`` (H, E), a.u., as
+        stored under ``sfa/orbits`` (:func:`tdse1d.io.sfa_file.read_sfa`), or a tuple of
+        :class:`~tdse1d.semiclassical.sfa_orbits.HalfCycleOrbits`.
+    period : float
+        Optical period (a.u.).
+    """
+    if not isinstance(orbits, dict):
+        orbits = {"energy": orbits[0].energy if orbits else np.zeros(0),
+                  "emission_short": np.array([o.emission_short for o in orbits]),
+                  "emission_long": np.array([o.emission_long for o in orbits])}
+    energy = np.asarray(orbits["energy"], dtype=float)
+    out, count = {}, 0
+    for branch in ("short", "long"):
+        table = np.asarray(orbits[f"emission_{branch}"], dtype=float).reshape(-1, energy.size)
+        deviations = []
+        for f, t in zip(np.asarray(emission.frequency, float), np.asarray(emission.quantum, float)):
+            if table.size == 0 or not energy[0] <= f <= energy[-1]:
+                continue
+            at = np.array([np.interp(f, energy, row, left=np.nan, right=np.nan) for row in table])
+            if not np.any(np.isfinite(at)):
+                continue
+            k = int(np.nanargmin(np.abs(at - t)))
+            if abs(at[k] - t) <= 0.5 * period:
+                deviations.append((t - at[k]) / period)
+        out[branch] = float(np.median(deviations)) if deviations else math.nan
+        count = max(count, len(deviations))
+    return SfaEmissionDeviation(out["short"], out["long"], count)
