@@ -421,3 +421,17 @@ def test_emission_deviation_recovers_a_planted_shift():
     assert dev.long == pytest.approx(0.1, abs=1e-9)
     assert abs(dev.short - 0.1) > 0.05
     assert dev.samples > 20
+
+
+def test_deviating_rung_names_the_odd_one_out():
+    """Intervals that overlap agree; the rung outside names itself (each case built so
+    that exactly one answer is right, and NaN gives no verdict)."""
+    from tdse1d.analysis.sfa import deviating_rung
+
+    assert deviating_rung(54.93, 1.55, 55.21, 1.55, 45.78) == "classical"  # the argon readings, eV
+    assert deviating_rung(1.0, 0.1, 1.0, 0.1, 1.0) == "none"
+    assert deviating_rung(1.0, 0.1, 2.0, 0.1, 1.0) == "sfa"
+    assert deviating_rung(2.0, 0.1, 1.0, 0.1, 1.0) == "run"
+    assert deviating_rung(1.0, 0.1, 2.0, 0.1, 3.0) == "all"
+    assert deviating_rung(1.5, 0.5, 1.0, 0.1, 2.0, 0.1) == "unclear"
+    assert deviating_rung(math.nan, 0.1, 1.0, 0.1, 1.0) == "unknown"

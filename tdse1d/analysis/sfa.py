@@ -22,7 +22,7 @@ from ..spectra.harmonic import HarmonicSpectrum, harmonic_spectrum
 from .photoelectrons import photoelectron_edges
 from .run_analysis import PHOTOELECTRON_METHOD_ORDER
 
-__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaEmissionDeviation", "emission_deviation", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
+__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaEmissionDeviation", "emission_deviation", "deviating_rung", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
 
 #: the standalone photoelectron axis runs to this many Up: twice the 10 Up edge, so that
 #: the upper half of the axis, where the edge reader takes its flat noise floor
@@ -321,3 +321,34 @@ def emission_deviation(emission, orbits, period) -> SfaEmissionDeviation:
         out[branch] = float(np.median(deviations)) if deviations else math.nan
         count = max(count, len(deviations))
     return SfaEmissionDeviation(out["short"], out["long"], count)
+
+
+def deviating_rung(run, run_uncertainty, sfa, sfa_uncertainty, classical, classical_uncertainty=0.0) -> str:
+    """Which rung of the ladder disagrees, for one quantity (any unit, all the same).
+
+    Two values agree when they differ by no more than the sum of their half widths
+    (their intervals overlap). Returns ``"none"`` (all three agree), ``"classical"``
+    (run and SFA agree, the classical model does not), ``"sfa"`` (run and classical
+    agree, the SFA does not), ``"run"`` (SFA and classical agree, the run does not),
+    ``"all"`` (no two agree), ``"unclear"`` (the run agrees with both models, which
+    disagree with each other: it lies between them) or ``"unknown"`` (a value is NaN).
+    """
+    values = (run, sfa, classical)
+    if not all(math.isfinite(v) for v in values):
+        return "unknown"
+
+    def agree(a, ua, b, ub):
+        return abs(a - b) <= ua + ub
+
+    rs = agree(run, run_uncertainty, sfa, sfa_uncertainty)
+    rc = agree(run, run_uncertainty, classical, classical_uncertainty)
+    sc = agree(sfa, sfa_uncertainty, classical, classical_uncertainty)
+    if rs and rc and sc:
+        return "none"
+    if rs and not rc and not sc:
+        return "classical"
+    if rc and not rs and not sc:
+        return "sfa"
+    if sc and not rs and not rc:
+        return "run"
+    return "all" if not (rs or rc or sc) else "unclear"
