@@ -364,9 +364,9 @@ def test_sfa_figures_of_a_run_file(tmp_path):
 
 
 def test_plan_command_prints_what_sfa_scan_returns(tmp_path, capsys):
-    """``tdse1d sfa PLAN --plan`` against ``tdse1d.api.sfa.sfa_scan`` (one route against
+    """``tdse1d sfa PLAN --plan`` against ``tdse1d.api.strong_field.sfa_scan`` (one route against
     the other), and the cutoff grows with Up along the plan (the 3.17 Up law's sign)."""
-    from tdse1d.api.sfa import sfa_scan
+    from tdse1d.api.strong_field import sfa_scan
     from tdse1d.cli import program
 
     (tmp_path / "tiny.toml").write_text(TINY)
@@ -385,3 +385,53 @@ def test_plan_command_prints_what_sfa_scan_returns(tmp_path, capsys):
         assert float(fields[1]) == pytest.approx(cut * units.HARTREE_EV, abs=1e-2)
     assert scan.orbit_cutoff[1] > scan.orbit_cutoff[0]
     assert len(repr(scan)) <= 300 and repr(scan).startswith("<")
+
+
+def test_tdse1d_sfa_stays_the_function_after_the_command_is_imported():
+    """The module of the command's function is not named ``sfa``: importing it would bind
+    ``tdse1d.api.sfa`` to the module (the shadowing tests/test_architecture.py guards
+    against for the layer packages)."""
+    import importlib
+
+    import tdse1d
+
+    importlib.import_module("tdse1d.cli.sfa")
+    importlib.import_module("tdse1d.api.strong_field")
+    assert callable(tdse1d.sfa) and callable(tdse1d.api.sfa) and callable(tdse1d.api.sfa_scan)
+
+
+def test_emission_deviation_recovers_a_planted_shift():
+    """Run times planted on the long orbits shifted by 0.1 cycle read back as +0.1 for
+    the long branch (exact, by construction) and not for the short one (null)."""
+    import types
+
+    from tdse1d.analysis.sfa import emission_deviation
+    from tdse1d.semiclassical.sfa_orbits import pulse_orbits
+
+    e0 = 0.0534
+    t, e, a = sin2_field(e0, 6, 0.2)
+    orbits = pulse_orbits(t, e, a, OMEGA, 0.5)
+    energy = orbits[0].energy
+    plateau = (energy > 0.6) & (energy < 0.5 + 2.5 * e0 ** 2 / (4 * OMEGA ** 2))
+    freq = np.concatenate([energy[plateau] for _ in orbits])
+    quantum = np.concatenate([o.emission_long[plateau] + 0.1 * PERIOD for o in orbits])
+    keep = np.isfinite(quantum)
+    em = types.SimpleNamespace(frequency=freq[keep], quantum=quantum[keep])
+    dev = emission_deviation(em, orbits, PERIOD)
+    assert dev.long == pytest.approx(0.1, abs=1e-9)
+    assert abs(dev.short - 0.1) > 0.05
+    assert dev.samples > 20
+
+
+def test_deviating_rung_names_the_odd_one_out():
+    """Intervals that overlap agree; the rung outside names itself (each case built so
+    that exactly one answer is right, and NaN gives no verdict)."""
+    from tdse1d.analysis.sfa import deviating_rung
+
+    assert deviating_rung(54.93, 1.55, 55.21, 1.55, 45.78) == "classical"  # the argon readings, eV
+    assert deviating_rung(1.0, 0.1, 1.0, 0.1, 1.0) == "none"
+    assert deviating_rung(1.0, 0.1, 2.0, 0.1, 1.0) == "sfa"
+    assert deviating_rung(2.0, 0.1, 1.0, 0.1, 1.0) == "run"
+    assert deviating_rung(1.0, 0.1, 2.0, 0.1, 3.0) == "all"
+    assert deviating_rung(1.5, 0.5, 1.0, 0.1, 2.0, 0.1) == "unclear"
+    assert deviating_rung(math.nan, 0.1, 1.0, 0.1, 1.0) == "unknown"

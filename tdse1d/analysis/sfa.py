@@ -22,7 +22,7 @@ from ..spectra.harmonic import HarmonicSpectrum, harmonic_spectrum
 from .photoelectrons import photoelectron_edges
 from .run_analysis import PHOTOELECTRON_METHOD_ORDER
 
-__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
+__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaEmissionDeviation", "emission_deviation", "deviating_rung", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
 
 #: the standalone photoelectron axis runs to this many Up: twice the 10 Up edge, so that
 #: the upper half of the axis, where the edge reader takes its flat noise floor
@@ -181,6 +181,16 @@ def direct_edge(energy, density, photon_energy, drop=DIRECT_DROP) -> float:
     return float(e[use][np.flatnonzero(s >= s.max() - drop)[-1]])
 
 
+def reading_reach(spectra: SfaSpectra) -> float:
+    """Top of the photon-energy axis the SFA cutoff is read on (hartree): twice
+    1.32 Ip + 3.17 Up plus 10 orders. Above it the SFA spectrum holds the round-off of
+    the dipole amplified by w^4 (the acceleration form), rising with w, which the
+    reading rule would take for its noise floor (the run's spectrum has a flat floor up
+    to its Nyquist energy); below it the spectrum has fallen exponentially from the
+    cutoff, so the upper half of this axis is the SFA's floor."""
+    return 2 * (1.32 * spectra.ionization_potential + 3.17 * spectra.ponderomotive_energy) + 10 * spectra.omega0
+
+
 @dataclass(frozen=True)
 class SfaReadings:
     """Numbers read off the SFA spectra, for the report's SFA column (atomic units).
@@ -231,7 +241,7 @@ def sfa_readings(spectra: SfaSpectra) -> SfaReadings:
     cutoff, reason = nan, "no harmonic spectrum"
     if spectra.harmonic is not None:
         h = spectra.harmonic
-        keep = h.frequency > 0
+        keep = (h.frequency > 0) & (h.frequency <= reading_reach(spectra))
         est = read_cutoff(h.frequency[keep], h.power[keep], spectra.omega0, spectra.ionization_potential)
         cutoff, reason = est.frequency, est.reason
     direct = back = nan
@@ -255,3 +265,90 @@ def sfa_readings(spectra: SfaSpectra) -> SfaReadings:
         energy, short, long_ = best.energy, best.emission_short, best.emission_long
     return SfaReadings(float(cutoff), spectra.omega0, float(orbit_cutoff), float(direct), float(back),
                        energy, short, long_, float(crest), reason)
+
+
+@dataclass(frozen=True)
+class SfaEmissionDeviation:
+    """Run emission times (Gabor maxima) against the SFA quantum orbits, per branch.
+
+    Attributes
+    ----------
+    short, long : float
+        Median over the run's plateau samples of (run time - quantum-orbit time of that
+        branch at the same photon energy, in the half cycle whose orbit lies nearest),
+        in optical cycles; NaN when no sample meets an orbit.
+    samples : int
+        Samples compared.
+    """
+
+    short: float
+    long: float
+    samples: int
+
+
+def emission_deviation(emission, orbits, period) -> SfaEmissionDeviation:
+    """Compare the run's emission times with the SFA quantum orbits of every half cycle.
+
+    Parameters
+    ----------
+    emission : tdse1d.analysis.EmissionTimes
+        ``frequency`` (hartree) and ``quantum`` (a.u.) of the run's Gabor maxima.
+    orbits : dict
+        ``energy`` (E,), ``emission_short`` and ``emission_long`` (H, E), a.u., as
+        stored under ``sfa/orbits`` (:func:`tdse1d.io.sfa_file.read_sfa`), or a tuple of
+        :class:`~tdse1d.semiclassical.sfa_orbits.HalfCycleOrbits`.
+    period : float
+        Optical period (a.u.).
+    """
+    if not isinstance(orbits, dict):
+        orbits = {"energy": orbits[0].energy if orbits else np.zeros(0),
+                  "emission_short": np.array([o.emission_short for o in orbits]),
+                  "emission_long": np.array([o.emission_long for o in orbits])}
+    energy = np.asarray(orbits["energy"], dtype=float)
+    out, count = {}, 0
+    for branch in ("short", "long"):
+        table = np.asarray(orbits[f"emission_{branch}"], dtype=float).reshape(-1, energy.size)
+        deviations = []
+        for f, t in zip(np.asarray(emission.frequency, float), np.asarray(emission.quantum, float)):
+            if table.size == 0 or not energy[0] <= f <= energy[-1]:
+                continue
+            at = np.array([np.interp(f, energy, row, left=np.nan, right=np.nan) for row in table])
+            if not np.any(np.isfinite(at)):
+                continue
+            k = int(np.nanargmin(np.abs(at - t)))
+            if abs(at[k] - t) <= 0.5 * period:
+                deviations.append((t - at[k]) / period)
+        out[branch] = float(np.median(deviations)) if deviations else math.nan
+        count = max(count, len(deviations))
+    return SfaEmissionDeviation(out["short"], out["long"], count)
+
+
+def deviating_rung(run, run_uncertainty, sfa, sfa_uncertainty, classical, classical_uncertainty=0.0) -> str:
+    """Which rung of the ladder disagrees, for one quantity (any unit, all the same).
+
+    Two values agree when they differ by no more than the sum of their half widths
+    (their intervals overlap). Returns ``"none"`` (all three agree), ``"classical"``
+    (run and SFA agree, the classical model does not), ``"sfa"`` (run and classical
+    agree, the SFA does not), ``"run"`` (SFA and classical agree, the run does not),
+    ``"all"`` (no two agree), ``"unclear"`` (the run agrees with both models, which
+    disagree with each other: it lies between them) or ``"unknown"`` (a value is NaN).
+    """
+    values = (run, sfa, classical)
+    if not all(math.isfinite(v) for v in values):
+        return "unknown"
+
+    def agree(a, ua, b, ub):
+        return abs(a - b) <= ua + ub
+
+    rs = agree(run, run_uncertainty, sfa, sfa_uncertainty)
+    rc = agree(run, run_uncertainty, classical, classical_uncertainty)
+    sc = agree(sfa, sfa_uncertainty, classical, classical_uncertainty)
+    if rs and rc and sc:
+        return "none"
+    if rs and not rc and not sc:
+        return "classical"
+    if rc and not rs and not sc:
+        return "sfa"
+    if sc and not rs and not rc:
+        return "run"
+    return "all" if not (rs or rc or sc) else "unclear"

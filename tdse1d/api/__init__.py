@@ -18,7 +18,7 @@ command                function                    returns
 ``tdse1d scan``        :func:`scan`                :class:`~.campaigns.ScanOutcome`
 ``tdse1d compare``     :func:`compare`             :class:`~tdse1d.scans.compare.Comparison`
 ``tdse1d validate``    :func:`validate`            :class:`~.campaigns.ValidationReport`
-``tdse1d sfa``         :func:`sfa`                 :class:`~.sfa.SfaOutcome`
+``tdse1d sfa``         :func:`sfa`                 :class:`~.strong_field.SfaOutcome`
 =====================  ==========================  ===========================================
 
 ``tdse1d run --certify`` calls :func:`certify`, which returns a
@@ -38,11 +38,12 @@ _WHERE = {
     **dict.fromkeys(("report", "export", "Report", "Table"), "results"),
     **dict.fromkeys(("plot", "Figures"), "figures"),
     **dict.fromkeys(("scan", "certify", "compare", "validate", "ScanOutcome", "ValidationReport"), "campaigns"),
-    **dict.fromkeys(("sfa", "SfaOutcome"), "sfa"),
+    # the module is not named sfa: importing it would bind tdse1d.api.sfa to the module
+    **dict.fromkeys(("sfa", "SfaOutcome", "sfa_scan", "SfaScan"), "strong_field"),
 }
 
 __all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "certify", "report", "plot",
-           "export", "scan", "compare", "validate", "sfa"]
+           "export", "scan", "compare", "validate", "sfa", "sfa_scan"]
 
 
 def __getattr__(name):

@@ -22,7 +22,7 @@ def add_arguments(parser):
 
 
 def main(args):
-    from ..api import sfa as api
+    from ..api import strong_field as api
     from ..input.schema import load_input
 
     if args.plan:
