@@ -47,7 +47,7 @@ import math
 
 import numpy as np
 
-from . import kernels
+from . import kernels, time_loop
 from ..errors import NumericalError
 from .fft import InPlaceFFT
 from .grid import Grid
@@ -69,6 +69,21 @@ __all__ = [
     "Observables",
     "NumericalError",
 ]
+
+
+_NO_FLOAT, _NO_COMPLEX = np.zeros(2), np.zeros((4, 2))
+
+
+def _flux_arguments(flux):
+    """The surface-flux accumulator's work arrays as :func:`run_line` takes them (dummies if None)."""
+    if flux is None:
+        z = _NO_FLOAT
+        return (False, z, z, z, 1.0, 1, z, z, 0, 0, z, 1.0, 0.0, 0.0, _NO_COMPLEX, z, z, z, z, z, z, z)
+    v = flux._v
+    return (True, flux._dg, flux._dh, flux._p_first, flux._dp, flux.block, v["_coarse"], v["_fine"],
+            flux.right_index, flux.left_index, flux.stencil, flux.dx, flux.radius_right, flux.radius_left,
+            flux._scalars, v["volkov"], v["_step_phase"], flux.momenta, v["_surface_right"], v["amp_right"],
+            v["_surface_left"], v["amp_left"])
 
 
 class Propagator:
@@ -96,6 +111,11 @@ class Propagator:
     threads : int
         FFTW threads for a grid of several axes (a 1-D grid always uses one: its
         transforms are too short to gain).
+    compiled : bool
+        One electron on a line: run chunks of steps in the compiled loop of
+        :mod:`tdse1d.physics.time_loop` (default; bitwise the same steps as the
+        Python-driven loop, which runs when False, when a per-step observable is
+        measured by a Python callable, or when FFTW cannot be called directly).
 
     Notes
     -----
@@ -119,7 +139,7 @@ class Propagator:
         self._setup(system, *args, **kwargs)
 
     def _setup(self, system, field, times, gauge="length", scheme=None, fft_effort="FFTW_MEASURE",
-               surface_flux=None, threads=1):
+               surface_flux=None, threads=1, compiled=True):
         if gauge not in ("length", "velocity"):
             raise ValueError(f"gauge must be 'length' or 'velocity', got {gauge!r}")
         times = np.asarray(times, dtype=float)
@@ -136,6 +156,7 @@ class Propagator:
         self.time_step = h
         self.gauge = gauge
         self.scheme = scheme or Strang
+        self.compiled = bool(compiled)
         self._line = system.is_line
         if surface_flux is not None and not self._line:
             raise ValueError(f"the surface flux is computed for one electron on a line only, not for {system!r}")
@@ -221,6 +242,9 @@ class Propagator:
         self._v_ref = f(self._reference)
         self._v_ref_coarse, self._v_ref_fine = f(self._ref_coarse), f(self._ref_fine)
         self._v_ones_coarse, self._v_ones_fine = f(self._ones_coarse), f(self._ones_fine)
+        # the compiled loop's FFTW plans on the same array (None: the Python-driven loop)
+        self._plans = time_loop.LinePlans(self.psi, fft_effort) if self.compiled and time_loop.AVAILABLE else None
+        self._compiled_args = self._flux_args = None
 
     # ------------------------------------------------------------------ state
     @property
@@ -300,6 +324,8 @@ class Propagator:
         count = min(count, self.steps - self.step_index)
         if not self._line:
             return self._stepper.advance(count)
+        if self._plans is not None and not self._measured:
+            return self._advance_compiled(count)
         psi = self._v_psi
         fft = self._fft
         block = self.block
@@ -351,6 +377,44 @@ class Propagator:
                     if flux is not None:
                         flux.add(psi, n + 1, float(obs.vector_potential[n + 1]), h, advance=True)
             self._end_step(n, s0, s1, s2, complex(ovr, ovi))
+        return count
+
+    def _advance_compiled(self, count):
+        """``count`` steps in :func:`tdse1d.physics.time_loop.run_line` (bitwise the same steps)."""
+        if self._compiled_args is None:
+            kc = np.zeros((len(self._kick_parts), 2))
+            kj = np.zeros((len(self._kick_parts), 2), np.int64)
+            for i, parts in enumerate(self._kick_parts):
+                for q, (c, j) in enumerate(parts):
+                    kc[i, q], kj[i, q] = c, j
+            obs = self.observables
+            self._carry = np.zeros(2)
+            self._compiled_args = (
+                self._plans.forward, self._plans.backward, self._v_psi, np.array(self._v_kick),
+                np.array(self._v_kinetic), kc, kj, np.asarray(self._kinetic_weights, float), self.time_step,
+                self.grid.spacing, float(self.grid.k[1]), self.block, self.gauge == "length", self._charge_sum,
+                self._x_first, self._k_first, self._v_coarse, self._v_fine, self._v_ones_coarse, self._v_ones_fine,
+                self._v_ref_coarse, self._v_ref_fine, self._mask, self._x, self._grad, self._v_ref, self._k,
+                np.ascontiguousarray(self._e_mid), np.ascontiguousarray(self._a_mid), obs.electric,
+                obs.vector_potential, obs.norm, obs.dipole, obs.momentum, obs.acceleration,
+                obs.initial_population, self._carry)
+        flux = self.surface_flux
+        if self._flux_args is None or self._flux_args[0] is not flux:
+            self._flux_args = (flux, _flux_arguments(flux))
+        self._carry[:] = self._pending_momentum, self._force
+        n0 = self.step_index
+        taken = time_loop.run_line(count, n0, *self._compiled_args, *self._flux_args[1])
+        failed = taken < count
+        done = taken + 1 if failed else taken
+        self.step_index = n0 + done
+        if flux is not None:
+            flux.step += done
+        self._pending_momentum, self._force = float(self._carry[0]), float(self._carry[1])
+        if failed:
+            obs, n = self.observables, n0 + taken
+            what = "non-finite values in the wavefunction" if not np.isfinite(obs.norm[n + 1]) else (
+                f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")
+            raise NumericalError(what, n + 1, float(self.times[n + 1]))
         return count
 
     def _end_step(self, n, s0, s1, s2, overlap):
