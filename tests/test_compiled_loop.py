@@ -66,7 +66,7 @@ def run(gauge, scheme, compiled, flux=True, chunks=(250, 350)):
 def test_compiled_loop_is_bitwise_the_python_loop(gauge, scheme):
     fast, flux_fast = run(gauge, scheme, True)
     slow, flux_slow = run(gauge, scheme, False, chunks=(1, 599))
-    assert fast._plans is not None and slow._plans is None
+    assert fast._stepper.plans is not None and slow._stepper.plans is None
     assert np.array_equal(fast.psi, slow.psi)
     for name in slow.observables.names:
         if name == "momentum":
@@ -85,7 +85,7 @@ def test_compiled_loop_reports_a_growing_norm_at_its_step():
     steps = []
     for compiled in (True, False):
         prop = Propagator(GRID, POTENTIAL, FIELD, TIMES, "length", fft_effort="FFTW_ESTIMATE", compiled=compiled)
-        prop._mask[:] = 1.01  # past the constructor's check, as a bug would be
+        prop._stepper._mask[:] = 1.01  # past the constructor's check, as a bug would be
         prop.start(PSI0)
         with pytest.raises(NumericalError, match="norm grew"):
             prop.advance(50)

@@ -118,7 +118,6 @@ class GridStepper:
         kick_parts = p._kick_parts
         last = len(kick_parts) - 1
         charge_sum = p._charge_sum
-        obs = p.observables
         for _ in range(count):
             n = p.step_index
             e_mid = p._e_mid[n]
@@ -142,6 +141,10 @@ class GridStepper:
                     wh = p._kinetic_weights[i] * h
                     self._linear(wh * a_mid[i], self._k_axes, 0.5 * wh * charge_sum * a_mid[i] * a_mid[i])
                 fft.backward()
-            s0, s1, s2, overlap = self.position_moments(obs.vector_potential[n + 1])
+            if (n + 1) % p.record_every == 0:
+                s0, s1, s2, overlap = self.position_moments(p._a_t[n + 1])
+            else:
+                s0 = s1 = s2 = 0.0
+                overlap = 0j
             p._end_step(n, s0, s1, s2, overlap)
         return count

@@ -39,7 +39,7 @@ if AVAILABLE:
 
     @njit(cache=True, nogil=True, error_model="numpy")
     def run_line(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, kinetic_w,
-                 h, dx, dk, block, length, charge, x_first, k_first, coarse, fine, ones_c, ones_f,
+                 h, dx, dk, block, length, charge, every, x_first, k_first, coarse, fine, ones_c, ones_f,
                  ref_coarse, ref_fine, mask, x, grad, ref, k, e_mid, a_mid, electric, vecpot,
                  norm, dipole, momentum, acceleration, population, carry,
                  flux, f_dg, f_dh, f_first, f_dp, f_block, f_coarse, f_fine, f_right, f_left, stencil, f_dx,
@@ -49,9 +49,10 @@ if AVAILABLE:
         check failed (``count`` if none did).
 
         Arrays are float64 views of the propagator's and the flux accumulator's work
-        arrays (see :meth:`Propagator._compiled_arguments`); ``carry`` holds the
-        pending <k> of the first kinetic sub-step and <V'> of the last record, carried
-        from one call to the next.
+        arrays (see :class:`~tdse1d.physics.line_step.LineStepper`); ``vecpot`` is A at
+        every step, ``electric`` and the records at every ``every``-th step (record
+        j is step j * every); ``carry`` holds the pending <k> of the first kinetic
+        sub-step and <V'> of the last record, carried from one call to the next.
         """
         last = kick.shape[0] - 1
         # the linear-phase tables of the last angle (a Strang step's two kicks share their
@@ -89,13 +90,16 @@ if AVAILABLE:
                     fftw_execute(backward)
                 else:
                     a1 = vecpot[n + 1]
-                    if not length and a1 != 0.0:
-                        kernels.linear_phase(a1, x_first, dx, block, ref_coarse, ref_fine)
-                        rc, rf = ref_coarse, ref_fine
+                    if (n + 1) % every == 0:
+                        if not length and a1 != 0.0:
+                            kernels.linear_phase(a1, x_first, dx, block, ref_coarse, ref_fine)
+                            rc, rf = ref_coarse, ref_fine
+                        else:
+                            rc, rf = ones_c, ones_f
+                        s0, s1, s2, ovr, ovi = kernels.kick_observe(psi, kick[i], kc, kf, block, mask, x, grad,
+                                                                   ref, rc, rf)
                     else:
-                        rc, rf = ones_c, ones_f
-                    s0, s1, s2, ovr, ovi = kernels.kick_observe(psi, kick[i], kc, kf, block, mask, x, grad,
-                                                               ref, rc, rf)
+                        kernels.kick_absorb(psi, kick[i], kc, kf, block, mask)
                     if flux:
                         kernels.linear_phase(-f_dg[n], f_first, f_dp, f_block, f_coarse, f_fine, -0.5 * f_dh[n])
                         kernels.surface_terms(psi, f_right, stencil, f_dx, f_radius_right, a1, length, scalars, 0)
@@ -103,23 +107,27 @@ if AVAILABLE:
                         kernels.flux_accumulate(volkov, step_phase, f_coarse, f_fine, f_block, f_momenta, True,
                                                 h, scalars[0], scalars[1], surface_right, amp_right,
                                                 -h, scalars[2], scalars[3], surface_left, amp_left)
-            # <p>(t_n): as Propagator._record_momentum
-            kick_force = carry[1]
-            if length:
-                kick_force += charge * e_mid[n, 0] * norm[n]
-            p = carry[0] * norm[n] + kick_c[0, 0] * h * kick_force
-            if not length:
-                p += charge * vecpot[n] * norm[n]
-            momentum[n] = p
-            # the position records of t_{n+1}: as Propagator._record_position
-            norm[n + 1] = s0 * dx
-            dipole[n + 1] = s1 * dx
-            acceleration[n + 1] = -s2 * dx - charge * electric[n + 1] * s0 * dx
-            # abs(complex) ** 2 as CPython computes it: the C library's hypot and pow
-            population[n + 1] = c_pow(c_hypot(ovr * dx, ovi * dx), 2.0)
-            carry[1] = s2 * dx
-            if not (norm[n + 1] <= norm[n] * (1 + 1e-9) + 1e-12):
-                return step
+            if n % every == 0:
+                # <p>(t_n): as Propagator._record_momentum
+                j = n // every
+                kick_force = carry[1]
+                if length:
+                    kick_force += charge * e_mid[n, 0] * norm[j]
+                p = carry[0] * norm[j] + kick_c[0, 0] * h * kick_force
+                if not length:
+                    p += charge * vecpot[n] * norm[j]
+                momentum[j] = p
+            if (n + 1) % every == 0:
+                # the position records of t_{n+1}: as Propagator._record_position
+                j = (n + 1) // every
+                norm[j] = s0 * dx
+                dipole[j] = s1 * dx
+                acceleration[j] = -s2 * dx - charge * electric[j] * s0 * dx
+                # abs(complex) ** 2 as CPython computes it: the C library's hypot and pow
+                population[j] = c_pow(c_hypot(ovr * dx, ovi * dx), 2.0)
+                carry[1] = s2 * dx
+                if not (norm[j] <= norm[j - 1] * (1 + 1e-9) + 1e-12):
+                    return step
         return count
 
 else:  # pragma: no cover - only without the FFTW library pyfftw uses
