@@ -18,7 +18,7 @@ from numba import njit
 
 __all__ = [
     "block_size", "linear_phase", "kick", "kick_observe", "kick_absorb", "kinetic_moment",
-    "surface_values", "surface_terms", "flux_accumulate", "plane_wave_sum",
+    "density_moments", "observe", "surface_values", "surface_terms", "flux_accumulate", "plane_wave_sum",
 ]
 
 
@@ -159,6 +159,41 @@ def kinetic_moment(psi, phase, coarse, fine, block, k):
             s1 += d * k[i]
             psi[j], psi[j + 1] = _cmul(vr, vi, qr, qi)
     return s0, s1
+
+
+@njit(**_JIT)
+def density_moments(psi, u):
+    """(sum |psi_j|^2, sum u_j |psi_j|^2) of a float64 view ``psi`` and a real ``u`` (flat)."""
+    s0 = 0.0
+    s1 = 0.0
+    for i in range(u.shape[0]):
+        d = psi[2 * i] * psi[2 * i] + psi[2 * i + 1] * psi[2 * i + 1]
+        s0 += d
+        s1 += d * u[i]
+    return s0, s1
+
+
+@njit(**_JIT)
+def observe(psi, u, force, ref):
+    """(sum |psi|^2, sum u |psi|^2, sum force |psi|^2, Re and Im of sum conj(ref) psi),
+    all arrays flat (``psi``, ``ref``: float64 views of complex arrays)."""
+    s0 = 0.0
+    s1 = 0.0
+    s2 = 0.0
+    ovr = 0.0
+    ovi = 0.0
+    for i in range(u.shape[0]):
+        wr = psi[2 * i]
+        wi = psi[2 * i + 1]
+        d = wr * wr + wi * wi
+        s0 += d
+        s1 += d * u[i]
+        s2 += d * force[i]
+        rr = ref[2 * i]
+        ri = ref[2 * i + 1]
+        ovr += rr * wr + ri * wi
+        ovi += rr * wi - ri * wr
+    return s0, s1, s2, ovr, ovi
 
 
 @njit(**_JIT)
