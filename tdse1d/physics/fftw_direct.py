@@ -18,6 +18,7 @@ import ctypes
 import ctypes.util
 import glob
 import os
+import threading
 
 import pyfftw
 
@@ -68,6 +69,11 @@ if AVAILABLE:
         _SET_THREADS = ctypes.CDLL(_OMP[0]).fftw_plan_with_nthreads if _OMP else None
     except (OSError, AttributeError, IndexError):
         _SET_THREADS = None
+    try:  # pyfftw plans under its own lock, these plans under ours: let FFTW serialise both
+        ctypes.CDLL(_OMP[0]).fftw_make_planner_thread_safe()
+    except (OSError, AttributeError, IndexError, NameError):
+        pass
+    _PLAN_LOCK = threading.Lock()
 
 
 class LinePlans:
@@ -97,8 +103,9 @@ class LinePlans:
             _SET_THREADS(1)
         ptr = data.ctypes.data
         saved = data.copy()  # planning other than ESTIMATE overwrites the array
-        self.forward = _LIB.fftw_plan_dft_1d(data.size, ptr, ptr, _FORWARD, flags)
-        self.backward = _LIB.fftw_plan_dft_1d(data.size, ptr, ptr, _BACKWARD, flags)
+        with _PLAN_LOCK:
+            self.forward = _LIB.fftw_plan_dft_1d(data.size, ptr, ptr, _FORWARD, flags)
+            self.backward = _LIB.fftw_plan_dft_1d(data.size, ptr, ptr, _BACKWARD, flags)
         data[:] = saved
         if not self.forward or not self.backward:
             raise RuntimeError(f"FFTW made no plan for {data.size} points")
@@ -106,4 +113,5 @@ class LinePlans:
     def __del__(self):
         for plan in (getattr(self, "forward", None), getattr(self, "backward", None)):
             if plan and _LIB is not None:
-                _LIB.fftw_destroy_plan(plan)
+                with _PLAN_LOCK:
+                    _LIB.fftw_destroy_plan(plan)
