@@ -98,6 +98,11 @@ class Propagator:
         :mod:`tdse1d.physics.time_loop` (default; bitwise the same steps as the
         Python-driven loop, which runs when False, when a per-step observable is
         measured by a Python callable, or when FFTW cannot be called directly).
+    record_every : int
+        Record the per-step observables at every k-th step only (default 1: every
+        step); ``observables.time`` then holds those steps' times. Choose k with
+        :func:`tdse1d.physics.observables.record_stride`. A run starts, resumes and
+        (for the last momentum record) ends on a multiple of k.
 
     Notes
     -----
