@@ -221,3 +221,22 @@ def test_system_contract_checks_and_extra_observables():
         assert 0.5 < near[-1] <= prop.observables.norm[-1]
     finally:
         del SYSTEMS["test-pair"]
+
+
+def test_records_every_kth_step_on_the_plane():
+    """record_every = 3 on a 2-D system: the records are the full series' every 3rd
+    value (the same steps, so exactly; the state is the same)."""
+    v, force = two_electron_like()
+    psi0 = np.outer(PSI_A, PSI_B)
+    runs = []
+    for every in (1, 3):
+        prop = Propagator(System(PLANE, v, force, (1.0, 1.0), reference=psi0), FIELD, TIMES[:61], "velocity",
+                          fft_effort="FFTW_ESTIMATE", record_every=every)
+        prop.start(psi0)
+        prop.advance(60)
+        prop.finish()
+        runs.append(prop)
+    full, sparse = runs
+    assert np.array_equal(full.psi, sparse.psi)
+    for name in full.observables.names:
+        assert np.array_equal(getattr(sparse.observables, name), getattr(full.observables, name)[::3]), name

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import kernels
 from .fft import InPlaceFFT
 
 __all__ = ["GridStepper"]
@@ -46,7 +47,6 @@ class GridStepper:
         self.psi = self._fft.data
         nd = grid.ndim
         self._bshape = [tuple(-1 if b == a else 1 for b in range(nd)) for a in range(nd)]
-        self._others = [tuple(b for b in range(nd) if b != a) for a in range(nd)]
         self._x_axes = [grid.axis(a).x for a in range(nd)]
         self._k_axes = [grid.axis(a).k for a in range(nd)]
         self._coupled = [(a, w) for a, w in enumerate(system.field_weights) if w != 0.0]
@@ -56,10 +56,12 @@ class GridStepper:
         self._kick_phase = kicks
         t = grid.kinetic_energy()
         self._kinetic_phase = [np.exp(-1j * wi * h * t) / grid.size for wi in p._kinetic_weights]
-        self._force = system.force.ravel()
-        self._reference = system.reference
-        self._d = np.empty(self.shape)
-        self._d2 = np.empty(self.shape)
+        # flat arrays for the compiled sums (no BLAS: its threads stall on a shared machine)
+        self._force = np.ascontiguousarray(system.force).ravel()
+        self._coupling = np.ascontiguousarray(system.coupling()).ravel()
+        self._coupling_k = np.ascontiguousarray(system.coupling_momentum()).ravel()
+        self._reference = system.reference.ravel().view(np.float64)
+        self._flat = self.psi.reshape(-1).view(np.float64)
 
     # ------------------------------------------------------------ pieces
     def _linear(self, theta, coordinates, offset=0.0):
@@ -69,42 +71,26 @@ class GridStepper:
             f = np.exp(-1j * (theta * w * coordinates[a] + (offset if n == 0 else 0.0)))
             np.multiply(psi, f.reshape(self._bshape[a]), out=psi)
 
-    def _density(self):
-        d, d2 = self._d, self._d2
-        np.multiply(self.psi.real, self.psi.real, out=d)
-        np.multiply(self.psi.imag, self.psi.imag, out=d2)
-        np.add(d, d2, out=d)
-        return d
-
-    def _coupled_moment(self, d, coordinates):
-        """(sum d, sum d * sum_a w_a u_a) from the marginals of d along each coupled axis."""
-        s1 = 0.0
-        for a, w in self._coupled:
-            marginal = d.sum(axis=self._others[a]) if self._others[a] else d
-            s1 += w * float(marginal @ coordinates[a])
-        return float(d.sum()), s1
-
     def position_moments(self, a):
         """Sums (no volume element) of |psi|^2, X |psi|^2, F |psi|^2 and <ref|psi_L>.
 
         ``a`` is A(t) of the current state, used to compare a velocity-gauge state with
         the length-gauge reference: <ref|psi_L> = sum conj(ref) exp(i A X) psi_V.
         """
-        d = self._density()
-        s0, s1 = self._coupled_moment(d, self._x_axes)
-        s2 = float(d.ravel() @ self._force)
-        psi = self.psi
+        flat = self._flat
         if self.prop.gauge == "velocity" and a != 0.0:
-            psi = psi.copy()
+            psi = self.psi.copy()
             for a_, w in self._coupled:
                 psi *= np.exp(1j * a * w * self._x_axes[a_]).reshape(self._bshape[a_])
-        return s0, s1, s2, complex(np.vdot(self._reference, psi))
+            flat = psi.reshape(-1).view(np.float64)
+        s0, s1, s2, ovr, ovi = kernels.observe(flat, self._coupling, self._force, self._reference)
+        return s0, s1, s2, complex(ovr, ovi)
 
     def mean_momentum(self) -> float:
         """<K> of the current state (the state is left unchanged)."""
         saved = self.psi.copy()
         self._fft.forward()
-        s0, s1 = self._coupled_moment(self._density(), self._k_axes)
+        s0, s1 = kernels.density_moments(self._flat, self._coupling_k)
         self.psi[:] = saved
         return s1 / s0 if s0 > 0 else 0.0
 
@@ -118,7 +104,6 @@ class GridStepper:
         kick_parts = p._kick_parts
         last = len(kick_parts) - 1
         charge_sum = p._charge_sum
-        obs = p.observables
         for _ in range(count):
             n = p.step_index
             e_mid = p._e_mid[n]
@@ -134,7 +119,7 @@ class GridStepper:
                     break
                 fft.forward()
                 if i == 0:
-                    s0, s1 = self._coupled_moment(self._density(), self._k_axes)
+                    s0, s1 = kernels.density_moments(self._flat, self._coupling_k)
                     p._pending_momentum = s1 / s0 if s0 > 0 else 0.0
                 np.multiply(psi, self._kinetic_phase[i], out=psi)
                 if not length:
@@ -142,6 +127,10 @@ class GridStepper:
                     wh = p._kinetic_weights[i] * h
                     self._linear(wh * a_mid[i], self._k_axes, 0.5 * wh * charge_sum * a_mid[i] * a_mid[i])
                 fft.backward()
-            s0, s1, s2, overlap = self.position_moments(obs.vector_potential[n + 1])
+            if (n + 1) % p.record_every == 0:
+                s0, s1, s2, overlap = self.position_moments(p._a_t[n + 1])
+            else:
+                s0 = s1 = s2 = 0.0
+                overlap = 0j
             p._end_step(n, s0, s1, s2, overlap)
         return count

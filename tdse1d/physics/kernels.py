@@ -17,8 +17,8 @@ import numpy as np
 from numba import njit
 
 __all__ = [
-    "block_size", "linear_phase", "kick", "kick_observe", "kinetic_moment",
-    "surface_values", "surface_terms", "flux_accumulate", "plane_wave_sum",
+    "block_size", "linear_phase", "kick", "kick_observe", "kick_absorb", "kinetic_moment",
+    "density_moments", "observe", "surface_values", "surface_terms", "flux_accumulate", "plane_wave_sum",
 ]
 
 
@@ -118,6 +118,25 @@ def kick_observe(psi, phase, coarse, fine, block, mask, x, grad, ref, ref_coarse
 
 
 @njit(**_JIT)
+def kick_absorb(psi, phase, coarse, fine, block, mask):
+    """The last kick of a step and the absorber, as :func:`kick_observe` without the sums
+    (the steps whose observables are not recorded); the same products in the same order."""
+    nb = psi.shape[0] // (2 * block)
+    for b in range(nb):
+        cr = coarse[2 * b]
+        ci = coarse[2 * b + 1]
+        o = 2 * b * block
+        for m in range(block):
+            i = b * block + m
+            j = o + 2 * m
+            fr, fi = _cmul(fine[2 * m], fine[2 * m + 1], cr, ci)
+            qr, qi = _cmul(phase[j], phase[j + 1], fr, fi)
+            wr, wi = _cmul(psi[j], psi[j + 1], qr * mask[i], qi * mask[i])
+            psi[j] = wr
+            psi[j + 1] = wi
+
+
+@njit(**_JIT)
 def kinetic_moment(psi, phase, coarse, fine, block, k):
     """Kinetic step in momentum space, returning (sum |psi_k|^2, sum k |psi_k|^2)
     of the wave (the phase does not change |psi_k|)."""
@@ -140,6 +159,41 @@ def kinetic_moment(psi, phase, coarse, fine, block, k):
             s1 += d * k[i]
             psi[j], psi[j + 1] = _cmul(vr, vi, qr, qi)
     return s0, s1
+
+
+@njit(**_JIT)
+def density_moments(psi, u):
+    """(sum |psi_j|^2, sum u_j |psi_j|^2) of a float64 view ``psi`` and a real ``u`` (flat)."""
+    s0 = 0.0
+    s1 = 0.0
+    for i in range(u.shape[0]):
+        d = psi[2 * i] * psi[2 * i] + psi[2 * i + 1] * psi[2 * i + 1]
+        s0 += d
+        s1 += d * u[i]
+    return s0, s1
+
+
+@njit(**_JIT)
+def observe(psi, u, force, ref):
+    """(sum |psi|^2, sum u |psi|^2, sum force |psi|^2, Re and Im of sum conj(ref) psi),
+    all arrays flat (``psi``, ``ref``: float64 views of complex arrays)."""
+    s0 = 0.0
+    s1 = 0.0
+    s2 = 0.0
+    ovr = 0.0
+    ovi = 0.0
+    for i in range(u.shape[0]):
+        wr = psi[2 * i]
+        wi = psi[2 * i + 1]
+        d = wr * wr + wi * wi
+        s0 += d
+        s1 += d * u[i]
+        s2 += d * force[i]
+        rr = ref[2 * i]
+        ri = ref[2 * i + 1]
+        ovr += rr * wr + ri * wi
+        ovi += rr * wi - ri * wr
+    return s0, s1, s2, ovr, ovi
 
 
 @njit(**_JIT)

@@ -43,17 +43,14 @@ computed for one electron on a line only, and refused for other systems.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
-from . import kernels
 from ..errors import NumericalError
-from .fft import InPlaceFFT
 from .grid import Grid
+from .grid_step import GridStepper
+from .line_step import LineStepper
 from .observables import Observables, measured_entries
 from .systems import OneElectron, System
-from .grid_step import GridStepper
 from .schemes import DEFAULT_SCHEME_FOR_ORDER, SCHEMES, Strang, Suzuki4, SplittingScheme, Yoshida4, register_scheme
 
 __all__ = [
@@ -96,6 +93,16 @@ class Propagator:
     threads : int
         FFTW threads for a grid of several axes (a 1-D grid always uses one: its
         transforms are too short to gain).
+    compiled : bool
+        One electron on a line: run chunks of steps in the compiled loop of
+        :mod:`tdse1d.physics.time_loop` (default; bitwise the same steps as the
+        Python-driven loop, which runs when False, when a per-step observable is
+        measured by a Python callable, or when FFTW cannot be called directly).
+    record_every : int
+        Record the per-step observables at every k-th step only (default 1: every
+        step); ``observables.time`` then holds those steps' times. Choose k with
+        :func:`tdse1d.physics.observables.record_stride`. A run starts, resumes and
+        (for the last momentum record) ends on a multiple of k.
 
     Notes
     -----
@@ -119,7 +126,7 @@ class Propagator:
         self._setup(system, *args, **kwargs)
 
     def _setup(self, system, field, times, gauge="length", scheme=None, fft_effort="FFTW_MEASURE",
-               surface_flux=None, threads=1):
+               surface_flux=None, threads=1, compiled=True, record_every=1):
         if gauge not in ("length", "velocity"):
             raise ValueError(f"gauge must be 'length' or 'velocity', got {gauge!r}")
         times = np.asarray(times, dtype=float)
@@ -136,14 +143,15 @@ class Propagator:
         self.time_step = h
         self.gauge = gauge
         self.scheme = scheme or Strang
+        self.compiled = bool(compiled)
+        if int(record_every) != record_every or record_every < 1:
+            raise ValueError(f"record_every must be a positive integer, got {record_every}")
+        self.record_every = every = int(record_every)
         self._line = system.is_line
         if surface_flux is not None and not self._line:
             raise ValueError(f"the surface flux is computed for one electron on a line only, not for {system!r}")
         self.surface_flux = surface_flux
         self._charge_sum = system.charge_sum
-        self._mask = system.absorber_factor
-        self._reference = system.reference
-        self._grad = system.force
         # the sub-step plan: potential kicks with coefficients c (times h), kinetic
         # steps with weights w, and the midpoint times (fractions of h) of each
         w = np.asarray(self.scheme.weights)
@@ -170,57 +178,18 @@ class Propagator:
         # per-step observables measured by a callable rather than by the kernels
         extra = system.per_step_observables()
         self._measured = measured_entries() + tuple(extra)
-        self.observables = Observables.empty(times, np.asarray(e_t, float), np.asarray(a_t, float),
-                                             extra=tuple(e.name for e in extra))
+        # the field at every step (the loop's phases) and the records at every every-th
+        self._e_t, self._a_t = np.asarray(e_t, float), np.ascontiguousarray(a_t, dtype=float)
+        self.observables = Observables.empty(times[::every].copy(), self._e_t[::every].copy(),
+                                             self._a_t[::every].copy(), extra=tuple(e.name for e in extra))
         self.step_index = 0
         self._pending_momentum = 0.0  # <K> of the first kinetic sub-step, for <P>(t_n)
+        self._force = 0.0  # <F> at the last record
         if self._line:
-            self._setup_line(fft_effort)
+            self._stepper = LineStepper(self, fft_effort, self.compiled)
         else:
             self._stepper = GridStepper(self, fft_effort, threads)
-            self.psi = self._stepper.psi
-
-    def _setup_line(self, fft_effort):
-        """Work arrays of the fused 1-D kernels (one electron on a line)."""
-        grid, h = self.grid, self.time_step
-        n = grid.points
-        self.block = kernels.block_size(n)
-        nb = n // self.block
-        self._fft = InPlaceFFT(n, fft_effort)
-        self.psi = self._fft.data
-        x = grid.x
-        k = grid.k
-        v = self.system.potential
-        self._x = np.ascontiguousarray(x)
-        self._k = np.ascontiguousarray(k)
-        w = self._kinetic_weights
-        # static phases, one per distinct coefficient; 1/N of the inverse FFT folded in
-        def vphase(c):
-            return np.ascontiguousarray(np.exp(-1j * c * h * v))
-
-        self._kick_phase = [vphase(sum(c for c, _ in parts)) for parts in self._kick_parts]
-        self._kinetic_phase = [np.ascontiguousarray(np.exp(-1j * wi * h * 0.5 * k**2) / n) for wi in w]
-
-        # linear-phase tables (x in the length gauge, k in the velocity gauge)
-        starts = np.arange(nb) * self.block
-        self._x_first = x[starts].copy()
-        self._k_first = k[starts].copy()
-        self._coarse = np.ones(nb, complex)
-        self._fine = np.ones(self.block, complex)
-        self._ref_coarse = np.ones(nb, complex)
-        self._ref_fine = np.ones(self.block, complex)
-        self._ones_coarse = np.ones(nb, complex)
-        self._ones_fine = np.ones(self.block, complex)
-
-        # float64 views for the kernels (made once; views do not copy)
-        f = lambda a: a.view(np.float64)  # noqa: E731
-        self._v_psi = f(self.psi)
-        self._v_kick = [f(a) for a in self._kick_phase]
-        self._v_kinetic = [f(a) for a in self._kinetic_phase]
-        self._v_coarse, self._v_fine = f(self._coarse), f(self._fine)
-        self._v_ref = f(self._reference)
-        self._v_ref_coarse, self._v_ref_fine = f(self._ref_coarse), f(self._ref_fine)
-        self._v_ones_coarse, self._v_ones_fine = f(self._ones_coarse), f(self._ones_fine)
+        self.psi = self._stepper.psi
 
     # ------------------------------------------------------------------ state
     @property
@@ -242,13 +211,16 @@ class Propagator:
             raise ValueError(f"psi0 must have the grid's shape {self.grid.shape}, got {psi0.shape}")
         if not np.all(np.isfinite(psi0)):
             raise ValueError("psi0 holds non-finite values")
+        if step_index % self.record_every:
+            raise ValueError(f"a run starts or resumes at a record step (a multiple of {self.record_every}), "
+                             f"not at step {step_index}")
         self.psi[:] = psi0
         self.step_index = step_index
         self._record_position(step_index, *self._position_moments(step_index))
         self._record_measured(step_index)
         if self.surface_flux is not None and step_index == 0:
-            self.surface_flux.add(self._v_psi, 0, float(self.observables.vector_potential[0]),
-                                  0.5 * self.time_step, advance=False)
+            self.surface_flux.add(self._stepper.psi_view, 0, float(self._a_t[0]), 0.5 * self.time_step,
+                                  advance=False)
 
     def vector_potential_steps(self):
         """int A dt and int A^2 dt over each step, by the propagator's midpoint rule.
@@ -262,28 +234,13 @@ class Propagator:
         w = self._kinetic_weights * self.time_step
         return self._a_mid @ w, self._a_mid**2 @ w
 
-    def _velocity_reference_phase(self, a):
-        # psi_L = exp(i A x) psi_V, so <ref|psi_L> = sum conj(ref exp(-i A x)) psi_V:
-        # the kernel conjugates ref', so it is given ref' = ref exp(-i A x)
-        if self.gauge == "velocity" and a != 0.0:
-            kernels.linear_phase(a, self._x_first, self.grid.spacing, self.block, self._v_ref_coarse, self._v_ref_fine)
-            return self._v_ref_coarse, self._v_ref_fine
-        return self._v_ones_coarse, self._v_ones_fine
-
     def _position_moments(self, n):
-        if not self._line:
-            return self._stepper.position_moments(self.observables.vector_potential[n])
-        a = self.observables.vector_potential[n]
-        rc, rf = self._velocity_reference_phase(a)
-        psi = self.psi
-        d = psi.real**2 + psi.imag**2  # once per start/finish only, not in the loop
-        rc, rf = rc.view(complex), rf.view(complex)
-        r = self._reference * np.repeat(rc, self.block) * np.tile(rf, len(rc))
-        return float(d.sum()), float(d @ self._x), float(d @ self._grad), complex(np.vdot(r, psi))
+        return self._stepper.position_moments(self._a_t[n])
 
     def _record_position(self, n, s0, s1, s2, ov):
         dx = self.grid.volume_element
         obs = self.observables
+        n //= self.record_every
         obs.norm[n] = s0 * dx
         obs.dipole[n] = s1 * dx
         obs.acceleration[n] = -s2 * dx - self._charge_sum * obs.electric[n] * s0 * dx
@@ -292,123 +249,76 @@ class Propagator:
 
     def _record_measured(self, n):
         for entry in self._measured:
-            getattr(self.observables, entry.name)[n] = entry.measure(self)
+            getattr(self.observables, entry.name)[n // self.record_every] = entry.measure(self)
 
     # ------------------------------------------------------------------- loop
     def advance(self, count: int) -> int:
         """Take up to ``count`` steps; returns the number taken."""
         count = min(count, self.steps - self.step_index)
-        if not self._line:
-            return self._stepper.advance(count)
-        psi = self._v_psi
-        fft = self._fft
-        block = self.block
-        h = self.time_step
-        dx = self.grid.spacing
-        dk = self.grid.k[1]
-        length = self.gauge == "length"
-        obs = self.observables
-        x_first, k_first = self._x_first, self._k_first
-        coarse, fine = self._v_coarse, self._v_fine
-        ones_c, ones_f = self._v_ones_coarse, self._v_ones_fine
-        kick_parts = self._kick_parts
-        flux = self.surface_flux
-        last = len(kick_parts) - 1
-        for _ in range(count):
-            n = self.step_index
-            e_mid = self._e_mid[n]
-            a_mid = self._a_mid[n]
-            for i in range(last + 1):
-                if length:
-                    theta = 0.0
-                    for c, j in kick_parts[i]:
-                        theta += c * h * e_mid[j]
-                    kernels.linear_phase(theta, x_first, dx, block, coarse, fine)
-                    kc, kf = coarse, fine
-                else:
-                    kc, kf = ones_c, ones_f
-                if i < last:
-                    kernels.kick(psi, self._v_kick[i], kc, kf, block)
-                    fft.forward()
-                    if length:
-                        lc, lf = ones_c, ones_f
-                    else:
-                        wh = self._kinetic_weights[i] * h
-                        # exp(-i w h (k + A)^2 / 2) = static k^2 table * exp(-i w h (A k + A^2 / 2))
-                        kernels.linear_phase(wh * a_mid[i], k_first, dk, block, coarse, fine,
-                                             0.5 * wh * a_mid[i] * a_mid[i])
-                        lc, lf = coarse, fine
-                    s0, s1 = kernels.kinetic_moment(psi, self._v_kinetic[i], lc, lf, block, self._k)
-                    if i == 0:
-                        self._pending_momentum = s1 / s0 if s0 > 0 else 0.0
-                    fft.backward()
-                else:
-                    rc, rf = self._velocity_reference_phase(obs.vector_potential[n + 1])
-                    s0, s1, s2, ovr, ovi = kernels.kick_observe(
-                        psi, self._v_kick[i], kc, kf, block, self._mask,
-                        self._x, self._grad, self._v_ref, rc, rf,
-                    )
-                    if flux is not None:
-                        flux.add(psi, n + 1, float(obs.vector_potential[n + 1]), h, advance=True)
-            self._end_step(n, s0, s1, s2, complex(ovr, ovi))
-        return count
+        return self._stepper.advance(count)
 
     def _end_step(self, n, s0, s1, s2, overlap):
-        """Record step n + 1's observables (sums without the volume element) and check the norm."""
-        obs = self.observables
-        self._record_momentum(n)
+        """After step n: record <P>(t_n) and, at a record step, the position records of
+        t_{n+1} (sums without the volume element), and check the norm."""
+        every = self.record_every
+        if n % every == 0:
+            self._record_momentum(n)
         self.step_index = n + 1
+        if (n + 1) % every:
+            return
         self._record_position(n + 1, s0, s1, s2, overlap)
         if self._measured:
             self._record_measured(n + 1)
-        if not (obs.norm[n + 1] <= obs.norm[n] * (1 + 1e-9) + 1e-12):
-            what = "non-finite values in the wavefunction" if not np.isfinite(obs.norm[n + 1]) else (
-                f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")
-            raise NumericalError(what, n + 1, float(self.times[n + 1]))
+        j = (n + 1) // every
+        if not (self.observables.norm[j] <= self.observables.norm[j - 1] * (1 + 1e-9) + 1e-12):
+            self._norm_failure(n)
+
+    def _norm_failure(self, n):
+        """Raise for the norm record after step n (a record step)."""
+        norm, j = self.observables.norm, (n + 1) // self.record_every
+        what = "non-finite values in the wavefunction" if not np.isfinite(norm[j]) else (
+            f"the norm grew from {norm[j - 1]:.12g} to {norm[j]:.12g}")
+        raise NumericalError(what, n + 1, float(self.times[n + 1]))
 
     def _record_momentum(self, n):
         """<P>(t_n) from <K> after the first potential kick of step n: that kick changes
         <P> by exactly -c h <F + W E> (length) or -c h <F> (velocity) and not |psi|,
         with W = sum_a w_a^2 (1 for one electron)."""
         obs = self.observables
+        j = n // self.record_every
         c, _ = self._kick_parts[0][0]
         h = self.time_step
-        norm = obs.norm[n]
+        norm = obs.norm[j]
         kick = self._force
         if self.gauge == "length":
             kick += self._charge_sum * self._e_mid[n][0] * norm
         p = self._pending_momentum * norm + c * h * kick
         if self.gauge == "velocity":
-            p += self._charge_sum * obs.vector_potential[n] * norm
-        obs.momentum[n] = p
+            p += self._charge_sum * self._a_t[n] * norm
+        obs.momentum[j] = p
 
     def finish(self):
         """Record the momentum at the last step reached (needs one extra FFT), and
         complete the trapezoidal rule of the surface flux (call once)."""
         n = self.step_index
         if self.surface_flux is not None:
-            self.surface_flux.add(self._v_psi, n, float(self.observables.vector_potential[n]),
-                                  -0.5 * self.time_step, advance=False)
-        if self._line:
-            saved = self.psi.copy()
-            self._fft.forward()
-            d = self.psi.real**2 + self.psi.imag**2
-            s0 = d.sum()
-            mean_k = float(d @ self._k / s0) if s0 > 0 else 0.0
-            self.psi[:] = saved
-        else:
-            mean_k = self._stepper.mean_momentum()
-        norm = self.observables.norm[n]
+            self.surface_flux.add(self._stepper.psi_view, n, float(self._a_t[n]), -0.5 * self.time_step,
+                                  advance=False)
+        if n % self.record_every:
+            return  # the last step is not a record step
+        mean_k = self._stepper.mean_momentum()
+        j = n // self.record_every
+        norm = self.observables.norm[j]
         p = mean_k * norm
         if self.gauge == "velocity":
-            p += self._charge_sum * self.observables.vector_potential[n] * norm
-        self.observables.momentum[n] = p
+            p += self._charge_sum * self._a_t[n] * norm
+        self.observables.momentum[j] = p
 
     def length_gauge_state(self) -> np.ndarray:
         """The current state in the length gauge (a copy)."""
-        a = float(self.observables.vector_potential[self.step_index])
+        a = float(self._a_t[self.step_index])
         if self.gauge == "velocity" and a != 0.0:
-            x = self._x if self._line else self.system.coupling()
+            x = self.grid.x if self._line else self.system.coupling()
             return self.psi * np.exp(1j * a * x)
         return self.psi.copy()
 

@@ -150,7 +150,9 @@ def _split_position(total, left, right):
 
 
 #: Rules that tell left-going from right-going electrons, given the momentum
-#: amplitudes (FFT order) of the whole, of its x < 0 part and of its x > 0 part.
+#: amplitudes (FFT order) of the whole, of its x < 0 part and of its x > 0 part
+#: (each reads only what it needs: "momentum" the whole, "position" the two parts;
+#: :func:`plane_wave_spectrum` transforms only those and passes None for the rest).
 #: ``"momentum"``: by the sign of p; exact and the default.
 #: ``"position"``: by the side of the grid the electron is on (or was absorbed on),
 #: meaningful after a field-free time long enough for the sides to separate; the two
@@ -166,7 +168,7 @@ def _spectrum_from_amplitudes(total, left, right, dx, split) -> PhotoelectronSpe
     if split not in SPLITS:
         raise ValueError(f"unknown split {split!r}; choose one of {sorted(SPLITS)}")
     density_left, density_right = SPLITS[split](total, left, right)
-    momentum = _momentum_axis(total.size, dx)
+    momentum = _momentum_axis((total if total is not None else left).size, dx)
     energy = 0.5 * momentum**2
     with np.errstate(divide="ignore", invalid="ignore"):
         inverse_p = np.where(momentum > 0, 1.0 / momentum, np.nan)
@@ -231,7 +233,8 @@ def plane_wave_spectrum(x, psi_continuum, *, split="momentum") -> PhotoelectronS
     if split not in SPLITS:
         raise ValueError(f"unknown split {split!r}; choose one of {sorted(SPLITS)}")
     _, factor = _plane_wave_factor(x, dx)
+    # each split reads either the whole's amplitude or the two sides': transform only those
+    if split == "momentum":
+        return _spectrum_from_amplitudes(np.fft.fft(psi) * factor, None, None, dx, split)
     left, right = _sides(x, psi)
-    phi_left = np.fft.fft(left) * factor
-    phi_right = np.fft.fft(right) * factor
-    return _spectrum_from_amplitudes(np.fft.fft(psi) * factor, phi_left, phi_right, dx, split)
+    return _spectrum_from_amplitudes(None, np.fft.fft(left) * factor, np.fft.fft(right) * factor, dx, split)
