@@ -244,3 +244,15 @@ def test_command_line_certify_prints_the_library_table(tmp_path, capsys, monkeyp
     assert read_certification(tmp_path / "c.h5")
     # companions not kept: only the result is left
     assert sorted(p.name for p in tmp_path.iterdir()) == ["c.h5", "tiny.toml"]
+
+
+def test_command_line_refuses_what_a_certified_run_does_not_take(tmp_path, capsys, monkeypatch):
+    from tdse1d.cli import program as cli
+
+    monkeypatch.chdir(tmp_path)
+    inp = tmp_path / "tiny.toml"
+    inp.write_text(TINY)
+    assert cli.main(["run", str(inp), "--certify", "--strict", "-o", "c.h5"]) == 1
+    err = capsys.readouterr().err
+    assert err.startswith("tdse1d: error: ") and "--strict" in err and err.count("\n") == 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["tiny.toml"]
