@@ -359,7 +359,7 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
     check_absorber(problem)  # the checks of a plain run, before the companions start
     check_resources(problem, output)
     folder = companion_directory(output)
-    folder.mkdir(parents=True, exist_ok=True)
+    folder.mkdir(exist_ok=True)  # in the output's folder, which must exist (as for a plain run)
     main_file = folder / "main.h5"  # moved to output once certified
     companions = plan_companions(problem)
     tasks = [(c.name, companion_config(problem.config, c), folder / f"{c.name}.h5")
@@ -369,16 +369,18 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
     thread = threading.Thread(target=_run_companions, args=(tasks, n_workers, client, records, failure),
                               name="tdse1d-certify-companions", daemon=True)
     thread.start()
-    try:
-        records["main"] = _run_main(problem, main_file)
-    finally:
-        thread.join()  # the companions finish (or fail) before anything else happens
+    # a failure of the run as given (or Ctrl-C) propagates at once; the companions' thread
+    # is a daemon that closes its own cluster when its runs end, or ends with the process
+    records["main"] = _run_main(problem, main_file)
+    thread.join()
     if failure:
         raise failure[0]
     for name in ("main", *(c.name for c in companions)):
         r = records.get(name, {})
         if r.get("status") != "done":
             what = "the run as given" if name == "main" else f"the {name} companion"
+            if not keep_companions:
+                shutil.rmtree(folder, ignore_errors=True)
             raise CertificationFailed(f"{what} failed: {r.get('error', 'no result')}")
     main = records["main"]
     tolerance = {k: Tolerance(*v) for k, v in main["tolerances"].items()}
