@@ -261,3 +261,15 @@ def test_the_report_of_a_certified_file_carries_its_numerical_uncertainties(cert
         assert dict(r.parts)["numerical"] == pytest.approx(report.numerical[r.key])
     plain = api.report(api.run(inp, inp.with_name("plain-for-report.h5")).path)
     assert plain.numerical == {} and all(math.isnan(dict(r.parts).get("numerical", math.nan)) for r in plain.rows)
+
+
+def test_command_line_refuses_what_a_certified_run_does_not_take(tmp_path, capsys, monkeypatch):
+    from tdse1d.cli import program as cli
+
+    monkeypatch.chdir(tmp_path)
+    inp = tmp_path / "tiny.toml"
+    inp.write_text(TINY)
+    assert cli.main(["run", str(inp), "--certify", "--strict", "-o", "c.h5"]) == 1
+    err = capsys.readouterr().err
+    assert err.startswith("tdse1d: error: ") and "--strict" in err and err.count("\n") == 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["tiny.toml"]

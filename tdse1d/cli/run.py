@@ -67,7 +67,10 @@ def _certify(args, config):
     """``--certify`` (or ``certification.enabled``): the run and its companions, summarised."""
     from ..api.campaigns import certify
     from ..scans.certify import CertificationFailed
+    from .program import CommandError
 
+    if args.resume or args.strict:
+        raise CommandError("a certified run takes neither --resume nor --strict")
     keep = True if args.keep_companions else None
     try:
         done = certify(config, args.output, keep_companions=keep)
