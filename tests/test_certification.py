@@ -273,3 +273,25 @@ def test_command_line_refuses_what_a_certified_run_does_not_take(tmp_path, capsy
     err = capsys.readouterr().err
     assert err.startswith("tdse1d: error: ") and "--strict" in err and err.count("\n") == 1
     assert sorted(p.name for p in tmp_path.iterdir()) == ["tiny.toml"]
+
+
+def test_the_run_s_own_convergence_flag_of_p_ion_makes_its_row_unresolved(tmp_path):
+    """A run whose bound-state count says P_ion is not converged in the box (the file's
+    /ionization@converged) reports no value but the range, whether certified or not; the
+    same file with the flag set reports the value (the null)."""
+    import shutil
+
+    from tdse1d import api
+
+    inp = tmp_path / "tiny.toml"
+    inp.write_text(TINY)
+    out = api.run(inp, tmp_path / "plain.h5").path
+    flagged = tmp_path / "flagged.h5"
+    shutil.copy(out, flagged)
+    for path, converged in ((out, True), (flagged, False)):
+        with h5py.File(path, "r+") as f:
+            f["ionization"].attrs["converged"] = converged
+    ion = {p: next(r for r in api.report(p).rows if r.key == "ionization_probability") for p in (out, flagged)}
+    assert "enlarge the box" not in ion[out].reason and math.isfinite(ion[out].quantum)
+    assert ion[flagged].verdict == "unresolved" and math.isnan(ion[flagged].quantum)
+    assert "enlarge the box" in ion[flagged].reason and len(ion[flagged].unconverged_range) == 2

@@ -155,6 +155,13 @@ def test_row_builder_takes_numerical_spread_and_not_converged():
     assert cut.z == pytest.approx(2.0) and cut.verdict == "agrees"
     assert dict(cut.parts) == pytest.approx({"reading": 0.3, "numerical": 0.4})
     assert ion.verdict == "unresolved" and math.isnan(ion.quantum) and "enlarge grid.points" in ion.reason
+    # not a value, but the range a converged value is expected in: value +- uncertainty;
+    # a row below the noise floor gets no range (it has no value to widen), the converged
+    # cut-off row none either
+    assert ion.unconverged_range == pytest.approx((0.20, 0.22)) and cut.unconverged_range == ()
+    b.add("backscattered edge", "backscattered_edge", 1.0, "law", 1.1, "energy", reading_u=0.05,
+          reason="unresolved (within 0.4 decades of the noise floor)")
+    assert b.rows[-1].unconverged_range == () and b.rows[-1].verdict == "unresolved"
 
 
 # --------------------------------------------------------------------------- dressed line

@@ -59,6 +59,9 @@ class Row:
     headroom: float = math.nan
     spread: float = math.nan
     period: float = math.nan
+    #: (low, high) = the value +- its uncertainty of a quantity that is not converged: not a
+    #: value, but the range a converged one is expected in (empty otherwise)
+    unconverged_range: tuple = ()
 
     @property
     def unresolved(self) -> str:
@@ -82,6 +85,9 @@ class _Builder:
             reason = self.not_converged[key]
         u = combined_uncertainty(reading_u, numerical, model_u)
         v = verdict(prediction, quantum, u, effect=effect, unresolved=reason)
+        unconverged = ()
+        if reason and key in self.not_converged and math.isfinite(quantum) and math.isfinite(u):
+            unconverged = (float(quantum - u), float(quantum + u))
         if reason:
             quantum = math.nan  # no value below the noise floor or unconverged
         parts = tuple((name, float(x)) for name, x in (("reading", reading_u), ("numerical", numerical),
@@ -91,7 +97,7 @@ class _Builder:
             v.difference, v.z, reason or v.reason,
             reading.low if reading is not None else math.nan, reading.high if reading is not None else math.nan,
             tuple(sorted(reading.rules.items())) if reading is not None else (), parts,
-            reading.headroom if reading is not None else math.nan, spread, period))
+            reading.headroom if reading is not None else math.nan, spread, period, unconverged))
 
 
 def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "", ionization_band=None,
@@ -264,7 +270,8 @@ def to_json(table: list[Row], a: RunAnalysis) -> dict:
                "difference_in_uncertainties": clean(r.z), "reason": r.reason or None,
                "rule_range": [clean(r.low), clean(r.high)], "rules": {k: clean(v) for k, v in r.rules},
                "uncertainty_parts": {k: clean(v) for k, v in r.parts},
-               "noise_headroom_decades": clean(r.headroom)}
+               "noise_headroom_decades": clean(r.headroom),
+               "unconverged_range": [clean(x) for x in r.unconverged_range] or None}
         if r.kind in ("energy", "photon", "time"):
             row["in_other_units"] = {"prediction": also(r, r.prediction), "quantum": also(r, r.quantum),
                                      "uncertainty": also(r, r.uncertainty)}
@@ -290,6 +297,11 @@ def format_table(table: list[Row], a: RunAnalysis) -> str:
     body = []
     for r in table:
         quantum = _cell(r, r.quantum, a.omega0, with_u=True)
+        if r.unconverged_range:
+            low, high = r.unconverged_range
+            unit = _unit_label(r)
+            quantum = f"not converged: {_value(r, low, signed=False)} to {_value(r, high, signed=False)}" + (
+                f" {unit}" if unit else "")
         if r.kind == "time" and math.isfinite(r.spread) and math.isfinite(r.quantum):
             quantum += f", spread {r.spread / r.period:.2f}"
         z = f"{r.z:+.1f}" if math.isfinite(r.z) else "-"

@@ -115,7 +115,11 @@ def report(path) -> Report:
         target = target_ionization_potential(f.attrs.get("input", ""))
         note = ionization_note(f["ionization"]) if "ionization" in f else ""
         band = ionization_band(f["ionization"]) if "ionization" in f else None
+        converged = bool(f["ionization"].attrs.get("converged", True)) if "ionization" in f else True
     numerical, not_converged = _numerical_uncertainties(path)
+    if not converged:  # the run's own check of the bound-state count (docs/analysis.md)
+        not_converged.setdefault("ionization_probability", "not converged: enlarge the box (grid.points with "
+                                                           "absorber.width)")
     return Report(Path(path), analysis, target, note, band, numerical, not_converged)
 
 
