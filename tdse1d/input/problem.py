@@ -243,7 +243,7 @@ def model_estimates(potential: Potential, field: Field, ionization_potential: fl
 
 def _step_error(potential: Potential, propagation):
     """``(momentum, largest) -> StepError`` for the run's scheme and tolerance."""
-    from ..physics.propagation import DEFAULT_SCHEME_FOR_ORDER, SCHEMES
+    from ..physics.schemes import DEFAULT_SCHEME_FOR_ORDER, SCHEMES
     from ..semiclassical.step_error import DEFAULT_TOLERANCE, step_for_tolerance
 
     name = propagation.scheme_name if propagation is not None else DEFAULT_SCHEME_FOR_ORDER[2]

@@ -42,7 +42,7 @@ def _absorber_names():
 
 
 def _scheme_names():
-    from ..physics.propagation import SCHEMES
+    from ..physics.schemes import SCHEMES
 
     return tuple(SCHEMES)
 
@@ -150,7 +150,7 @@ class PropagationConfig:
         """The splitting scheme of the run: ``scheme`` if given, else the default for ``order``."""
         if self.scheme is not None:
             return self.scheme
-        from ..physics.propagation import DEFAULT_SCHEME_FOR_ORDER
+        from ..physics.schemes import DEFAULT_SCHEME_FOR_ORDER
 
         return DEFAULT_SCHEME_FOR_ORDER[self.order]
 
@@ -161,7 +161,7 @@ def _read_propagation(table, path):
     prop = _read_table(PropagationConfig, table, path)
     if prop.scheme is None:
         return prop
-    from ..physics.propagation import SCHEMES
+    from ..physics.schemes import SCHEMES
 
     order = SCHEMES[prop.scheme].order
     if "order" in table and prop.order != order:

@@ -36,7 +36,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.interpolate import CubicSpline
 
 from ..registry import registrar
 
@@ -305,6 +304,10 @@ class TabulatedPulse(Pulse):
     def __init__(self, time, field, omega, delay=0.0):
         time = np.asarray(time, dtype=float) + delay
         field = np.asarray(field, dtype=float)
+        # imported here: scipy.interpolate costs about half a second to import, and only
+        # a tabulated field needs it (an analytic pulse never does)
+        from scipy.interpolate import CubicSpline
+
         self._spline_e = CubicSpline(time, field, bc_type="natural")
         self._spline_a = self._spline_e.antiderivative()
         self.omega = float(omega)

@@ -122,7 +122,7 @@ def estimate_resources(problem) -> ResourceEstimate:
     ResourceEstimate
     """
     from ..semiclassical.three_step import _BLOCK_ELEMENTS, BIRTHS_PER_CYCLE
-    from ..physics.propagation import SCHEMES
+    from ..physics.schemes import SCHEMES
 
     cfg = problem.config
     steps = int(problem.time.steps)

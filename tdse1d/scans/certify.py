@@ -110,7 +110,7 @@ def plan_companions(problem) -> tuple[Companion, ...]:
     tuple of Companion
         ``time_step``, ``grid_spacing``, ``box``.
     """
-    from ..physics.propagation import DEFAULT_SCHEME_FOR_ORDER, SCHEMES
+    from ..physics.schemes import DEFAULT_SCHEME_FOR_ORDER, SCHEMES
 
     config, grid = problem.config, problem.grid
     prop = config.propagation
