@@ -201,14 +201,20 @@ def _readings(cutoff, u, reason=""):
 ANALYSIS = SimpleNamespace(omega0=0.057, emission=None)
 
 
+# half widths are 2 u (the verdict's band): run 2u, SFA 2u_sfa, classical 0
 @pytest.mark.parametrize("run, u, sfa, u_sfa, classical, expected", [
-    # run and SFA agree within the row's combined uncertainty (0.5); the classical value is 1.0 away
-    (1.4, 0.5, 1.0, 0.05, 2.0, "classical"),
+    # run and SFA agree within the row's combined uncertainty (0.4 <= 0.5 + 0.1); the
+    # classical value is 0.6 > 0.5 from the run
+    (1.4, 0.25, 1.0, 0.05, 2.0, "classical"),
     # the same numbers with the reading part alone (0.1) as the run's width: no two agree
     (1.4, 0.1, 1.0, 0.05, 2.0, "all"),
     (1.0, 0.1, 2.0, 0.05, 1.05, "sfa"),
     (3.0, 0.1, 1.0, 0.05, 1.02, "run"),
     (1.0, 0.1, 1.02, 0.05, 1.05, "none"),
+    # the run 1.5 u from the classical value (the verdict: agrees) and on the SFA value,
+    # the two models 6 SFA widths apart: the run cannot tell them apart. With a 1 u band
+    # the rung would name the classical model while the row's verdict says it agrees
+    (1.3, 0.2, 1.3, 0.05, 1.6, "unclear"),
     (math.nan, 0.1, 1.0, 0.05, 1.0, "unknown"),
 ])
 def test_rung_from_the_rows_combined_uncertainty_and_the_sfa_width(run, u, sfa, u_sfa, classical, expected):
@@ -219,7 +225,7 @@ def test_rung_from_the_rows_combined_uncertainty_and_the_sfa_width(run, u, sfa, 
 
 
 def test_rows_whose_prediction_is_not_classical_get_no_rung():
-    table = [_row("1.32 Ip + 3.17 Up", 1.4, 0.5, 2.0), _row(ORBIT_SOURCE, 1.4, 0.5, 2.0),
+    table = [_row("1.32 Ip + 3.17 Up", 1.4, 0.25, 2.0), _row(ORBIT_SOURCE, 1.4, 0.25, 2.0),
              _row("quasi-static WKB tunnelling", 0.1, 0.01, 0.2, key="ionization_probability")]
     out = with_sfa(table, ANALYSIS, _readings(1.0, 0.05))
     assert [r.rung for r in out] == ["", "", ""]

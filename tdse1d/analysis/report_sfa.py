@@ -16,6 +16,7 @@ from dataclasses import replace
 import numpy as np
 
 from .sfa import SfaReadings, deviating_rung, emission_deviation
+from .verdict import AGREE_WITHIN
 
 __all__ = ["with_sfa", "sfa_emission_after_crest", "CLASSICAL_SOURCES", "ORBIT_SOURCE"]
 
@@ -87,11 +88,16 @@ def _central(emission):
 
 
 def _rung(row, sfa_value, sfa_u):
-    """Which rung deviates on this row; empty where its prediction is not the classical rung."""
+    """Which rung deviates on this row; empty where its prediction is not the classical rung.
+
+    The half widths are AGREE_WITHIN (2) uncertainties, the verdict's band: run and
+    classical model then agree exactly when the row's verdict says so, and the rung never
+    contradicts it. The classical model for the given pulse is exact within itself: no width.
+    """
     if row.source not in CLASSICAL_SOURCES:
         return ""
-    # the classical model for the given pulse is exact within itself: no width
-    return deviating_rung(row.quantum, row.uncertainty, sfa_value, sfa_u, row.prediction, 0.0)
+    return deviating_rung(row.quantum, AGREE_WITHIN * row.uncertainty, sfa_value, AGREE_WITHIN * sfa_u,
+                          row.prediction, 0.0)
 
 
 def with_sfa(table, a, sfa: SfaReadings | None, orbits: dict | None = None) -> list:
