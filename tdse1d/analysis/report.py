@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from .. import units
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from .run_analysis import RunAnalysis
+from .report_sfa import ORBIT_SOURCE, with_sfa
 from .verdict import combined_uncertainty, verdict
 
 #: energy tolerance of the bound-state solver (hartree; tdse1d.physics.states): the
@@ -36,7 +37,10 @@ class Row:
     with its combined uncertainty (reading, numerical and, where the prediction holds
     only within a width, model parts: ``parts``); ``verdict`` is agrees, deviates,
     unresolved, or empty where there is no prediction; ``z`` the difference in units
-    of the uncertainty; ``reason`` why a row is unresolved.
+    of the uncertainty; ``reason`` why a row is unresolved. ``sfa +- sfa_uncertainty``
+    is the value read off the strong-field approximation for the same pulse (NaN, with
+    ``sfa_reason``, where the file holds no SFA or it was not read) and ``rung`` which of
+    run, SFA and classical model deviates (:mod:`.report_sfa`).
     """
 
     quantity: str
@@ -62,6 +66,10 @@ class Row:
     #: (low, high) = the value +- its uncertainty of a quantity that is not converged: not a
     #: value, but the range a converged one is expected in (empty otherwise)
     unconverged_range: tuple = ()
+    sfa: float = math.nan
+    sfa_uncertainty: float = math.nan
+    sfa_reason: str = ""
+    rung: str = ""
 
     @property
     def unresolved(self) -> str:
@@ -101,7 +109,8 @@ class _Builder:
 
 
 def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "", ionization_band=None,
-         numerical: Mapping[str, float] | None = None, not_converged: Mapping[str, str] | None = None) -> list[Row]:
+         numerical: Mapping[str, float] | None = None, not_converged: Mapping[str, str] | None = None,
+         sfa=None, orbits: Mapping | None = None) -> list[Row]:
     """The rows of a run's report.
 
     Parameters
@@ -117,6 +126,11 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "",
         Quantity key -> numerical uncertainty (absolute, atomic units) from companion runs.
     not_converged : mapping, optional
         Quantity key -> "not converged: enlarge <parameter>"; such rows are unresolved.
+    sfa : tdse1d.analysis.sfa.SfaReadings, optional
+        The SFA readings stored in the run's file: fill the SFA column
+        (:func:`tdse1d.analysis.report_sfa.with_sfa`) and add the quantum-orbit cutoff row.
+    orbits : mapping, optional
+        The stored quantum orbits (``sfa/orbits``), for the SFA emission times.
 
     Returns
     -------
@@ -138,6 +152,9 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "",
                               ("1.32 Ip + 3.17 Up", LEWENSTEIN_IP * ip + CUTOFF_UP * up)):
             b.add("harmonic cutoff", "harmonic_cutoff", value, source, math.nan, "photon", reading=r,
                   effect=value - ip, note=cut_note)
+        if sfa is not None and math.isfinite(sfa.orbit_cutoff):
+            b.add("harmonic cutoff", "harmonic_cutoff", sfa.orbit_cutoff, ORBIT_SOURCE, math.nan, "photon",
+                  reading=r, effect=sfa.orbit_cutoff - ip, note=cut_note)
     _ionization_row(b, a, ionization_note, ionization_band)
     if a.three_step_applies and a.regime == "" and a.direct_reading is not None:
         edge_note = "quantum: middle of the range of the edge rules, surface-flux spectrum (docs/analysis.md)"
@@ -162,7 +179,7 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "",
                     "cycle (rules: maximum, centroid); spread: half the interquartile range; the statistical "
                     "part of the uncertainty is the standard error of that median"))
     _xuv_rows(b, a)
-    return b.rows
+    return with_sfa(b.rows, a, sfa, orbits)
 
 
 def _scaled(reading, factor):
@@ -234,12 +251,13 @@ def _unit_label(row: Row) -> str:
     return {"energy": "eV", "photon": "eV", "probability": "", "momentum": "a.u.", "time": "cycle"}[row.kind]
 
 
-def _cell(row: Row, value: float, omega0: float, with_u=False) -> str:
+def _cell(row: Row, value: float, omega0: float, with_u=False, u=None) -> str:
     text = _value(row, value)
     if text == "-":
         return text
-    if with_u and math.isfinite(row.uncertainty):
-        text += f" +- {_value(row, row.uncertainty, signed=False)}"
+    u = row.uncertainty if u is None else u
+    if with_u and math.isfinite(u):
+        text += f" +- {_value(row, u, signed=False)}"
     unit = _unit_label(row)
     text += f" {unit}" if unit else ""
     if row.kind == "photon" and math.isfinite(omega0):
@@ -249,9 +267,10 @@ def _cell(row: Row, value: float, omega0: float, with_u=False) -> str:
     return text
 
 
-def to_json(table: list[Row], a: RunAnalysis) -> dict:
+def to_json(table: list[Row], a: RunAnalysis, sfa_column: bool = False) -> dict:
     """The rows as JSON-ready data: values in atomic units (``unit``), energies also in eV,
-    times also in fs and cycles; ``null`` where a value does not apply."""
+    times also in fs and cycles; ``null`` where a value does not apply (the SFA keys of
+    every row when ``sfa_column`` is False: the file holds no SFA)."""
     def clean(x):
         return None if isinstance(x, float) and not math.isfinite(x) else x
 
@@ -270,20 +289,24 @@ def to_json(table: list[Row], a: RunAnalysis) -> dict:
                "difference_in_uncertainties": clean(r.z), "reason": r.reason or None,
                "rule_range": [clean(r.low), clean(r.high)], "rules": {k: clean(v) for k, v in r.rules},
                "uncertainty_parts": {k: clean(v) for k, v in r.parts},
-               "noise_headroom_decades": clean(r.headroom),
+               "noise_headroom_decades": clean(r.headroom), "sfa": clean(r.sfa),
+               "sfa_uncertainty": clean(r.sfa_uncertainty), "sfa_reason": r.sfa_reason or None,
+               "deviating_rung": r.rung or None,
                "unconverged_range": [clean(x) for x in r.unconverged_range] or None}
         if r.kind in ("energy", "photon", "time"):
             row["in_other_units"] = {"prediction": also(r, r.prediction), "quantum": also(r, r.quantum),
-                                     "uncertainty": also(r, r.uncertainty)}
+                                     "uncertainty": also(r, r.uncertainty), "sfa": also(r, r.sfa),
+                                     "sfa_uncertainty": also(r, r.sfa_uncertainty)}
         if r.kind == "time":
             row["spread"] = clean(r.spread)
         out.append(row)
     return {"photon_energy_au": clean(a.omega0), "ponderomotive_energy_au": clean(a.ponderomotive_energy),
-            "rows": out, "notes": list(a.notes) + ([a.three_step_reason] if a.three_step_reason else [])}
+            "sfa_column": bool(sfa_column), "rows": out, "notes": list(a.notes) + ([a.three_step_reason] if a.three_step_reason else [])}
 
 
-def format_table(table: list[Row], a: RunAnalysis) -> str:
-    """The rows as plain text for people, footnotes marked on their rows."""
+def format_table(table: list[Row], a: RunAnalysis, sfa_column: bool = False) -> str:
+    """The rows as plain text for people, footnotes marked on their rows; with
+    ``sfa_column`` the SFA value and the deviating rung stand beside each row."""
     footnotes = []
 
     def mark(text):
@@ -293,7 +316,8 @@ def format_table(table: list[Row], a: RunAnalysis) -> str:
             footnotes.append(text)
         return f"[{footnotes.index(text) + 1}]"
 
-    head = ("quantity", "semiclassical prediction", "prediction", "quantum +- uncertainty", "(q-p)/u", "verdict")
+    head = ("quantity", "semiclassical prediction", "prediction", "SFA +- uncertainty", "quantum +- uncertainty",
+            "(q-p)/u", "verdict", "deviating rung")
     body = []
     for r in table:
         quantum = _cell(r, r.quantum, a.omega0, with_u=True)
@@ -306,8 +330,11 @@ def format_table(table: list[Row], a: RunAnalysis) -> str:
             quantum += f", spread {r.spread / r.period:.2f}"
         z = f"{r.z:+.1f}" if math.isfinite(r.z) else "-"
         marks = "".join(m for m in (mark(r.note), mark(r.reason)) if m)
-        body.append((r.quantity, r.source, _cell(r, r.prediction, a.omega0), quantum, z,
-                     f"{r.verdict or '-'} {marks}".rstrip()))
+        sfa = f"{_cell(r, r.sfa, a.omega0, with_u=True, u=r.sfa_uncertainty)} {mark(r.sfa_reason)}".rstrip()
+        body.append((r.quantity, r.source, _cell(r, r.prediction, a.omega0), sfa, quantum, z,
+                     f"{r.verdict or '-'} {marks}".rstrip(), r.rung or "-"))
+    if not sfa_column:  # a file without SFA reports as before
+        head, body = head[:3] + head[4:7], [cells[:3] + cells[4:7] for cells in body]
     widths = [max(len(x[i]) for x in [head, *body]) for i in range(len(head))]
     lines = []
     if math.isfinite(a.ponderomotive_energy):
@@ -319,6 +346,10 @@ def format_table(table: list[Row], a: RunAnalysis) -> str:
     lines += ["", "verdict: agrees when |quantum - prediction| <= 2 u, u the combined uncertainty (reading range, "
                   "numerical spread, model width, in quadrature); unresolved below the noise floor, not converged, "
                   "or when u is not smaller than the effect (docs/analysis.md)"]
+    if sfa_column:
+        lines += ["SFA: the strong-field approximation for the same pulse (docs/sfa.md); deviating rung: which of "
+                  "run, SFA and classical model disagrees (intervals that overlap agree): none, classical, sfa, run, "
+                  "all, or unclear (the run lies between the two models)"]
     lines += [f"[{k}] {text}" for k, text in enumerate(footnotes, 1)]
     lines += [f"* {n}" for n in list(a.notes) + ([f"three-step rows left out: {a.three_step_reason}"]
                                                  if a.three_step_reason else [])]

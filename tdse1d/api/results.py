@@ -47,25 +47,30 @@ class Report:
     """Quantity key -> numerical uncertainty (atomic units) from companion runs."""
     not_converged: dict = field(default_factory=dict, repr=False)
     """Quantity key -> "not converged: enlarge <parameter>"."""
+    sfa: object = field(default=None, repr=False)
+    """The SFA readings stored in the file (:class:`tdse1d.analysis.sfa.SfaReadings`), or
+    None for a run without ``spectra.sfa``: then the report has no SFA column."""
+    orbits: dict | None = field(default=None, repr=False)
+    """The stored quantum orbits (``sfa/orbits``, a.u.), or None."""
 
     @property
     def rows(self) -> list:
         from ..analysis.report import rows
 
         return rows(self.analysis, self.target_ionization_potential, self.ionization_note, self.ionization_band,
-                    self.numerical, self.not_converged)
+                    self.numerical, self.not_converged, self.sfa, self.orbits)
 
     def to_json(self) -> dict:
         """The rows for machines: atomic units, energies also in eV, times also in fs and cycles."""
         from ..analysis.report import to_json
 
-        return to_json(self.rows, self.analysis)
+        return to_json(self.rows, self.analysis, sfa_column=self.sfa is not None)
 
     def table(self) -> str:
         """The rows as plain text for people."""
         from ..analysis.report import format_table
 
-        return format_table(self.rows, self.analysis)
+        return format_table(self.rows, self.analysis, sfa_column=self.sfa is not None)
 
     __str__ = table
 
@@ -104,11 +109,14 @@ def report(path) -> Report:
     Report
         Rows of quantity, key, prediction and its source, quantum value, combined
         uncertainty, unit (atomic units), verdict (agrees, deviates, unresolved) and
-        note; the table and JSON show eV, fs, cycles and harmonic orders too.
+        note; the table and JSON show eV, fs, cycles and harmonic orders too. A file
+        with SFA spectra (``spectra.sfa = true``) adds the SFA column: each row's SFA
+        value and uncertainty and which rung (classical, SFA, run) deviates.
     """
     from ..io.analysis_file import (analyse_file, ionization_band, ionization_note,
                                     target_ionization_potential)
     from ..io.checked_open import open_result
+    from ..io.sfa_file import read_sfa, read_sfa_readings
 
     with open_result(path, kinds=("run",)) as f:
         analysis = analyse_file(f)
@@ -116,11 +124,13 @@ def report(path) -> Report:
         note = ionization_note(f["ionization"]) if "ionization" in f else ""
         band = ionization_band(f["ionization"]) if "ionization" in f else None
         converged = bool(f["ionization"].attrs.get("converged", True)) if "ionization" in f else True
+        sfa = read_sfa_readings(f)
+        orbits = (read_sfa(f) or {}).get("orbits")
     numerical, not_converged = _numerical_uncertainties(path)
     if not converged:  # the run's own check of the bound-state count (docs/analysis.md)
         not_converged.setdefault("ionization_probability", "not converged: enlarge the box (grid.points with "
                                                            "absorber.width)")
-    return Report(Path(path), analysis, target, note, band, numerical, not_converged)
+    return Report(Path(path), analysis, target, note, band, numerical, not_converged, sfa, orbits)
 
 
 # ------------------------------------------------------------------------ tables
