@@ -193,3 +193,53 @@ def test_new_observable_is_recorded_every_step(position_square):
     finally:
         obs_table.add_per_step_observable(obs_table.PerStepObservable(
             "position_square", "bohr^2", "<x^2>", lambda prop: 0.0))
+
+
+# ------------------------------------------------ a new spectrum shown by report, plot and export
+
+
+@pytest.fixture(scope="module")
+def derived_run(tmp_path_factory):
+    """A small run: every registered derived spectrum is written by the same writer."""
+    from conftest import small_input
+
+    from tdse1d import api
+    from tdse1d.input.schema import load_input
+
+    path = tmp_path_factory.mktemp("derived") / "d.h5"
+    api.run(load_input("d.toml", text=small_input(absorber_width=15.0)), path)
+    return path
+
+
+def test_a_registered_derived_spectrum_is_in_file_table_plot_export_and_report(derived_run, tmp_path):
+    """The recipe "a new spectrum shown by report, plot and export": the class in
+    tdse1d/spectra/ and its module in BUILT_IN are all it takes; each place reads the
+    registry. Followed by the shipped ``harmonic_forms``; checked for every registered one."""
+    import h5py
+
+    from tdse1d import api
+    from tdse1d.io.layout import RESULT_LAYOUT
+    from tdse1d.io.layout_check import layout_problems
+    from tdse1d.spectra.derived import DERIVED_SPECTRA
+
+    assert "harmonic_forms" in DERIVED_SPECTRA
+    declared = {e.path for e in RESULT_LAYOUT}
+    report = api.report(derived_run)
+    with h5py.File(derived_run, "r") as f:
+        assert layout_problems(f) == []
+        for name, spectrum in DERIVED_SPECTRA.items():
+            columns = (spectrum.axis, *spectrum.columns)
+            assert {f"spectra/{name}/{c.name}" for c in columns} <= declared
+            assert {f"spectra/{name}@{c.name}" for c in spectrum.readings_declared} <= declared
+            g = f[f"spectra/{name}"]
+            assert all(g[c.name].attrs["units"] == c.unit for c in columns)
+            what = name.replace("_", "-")
+            table = api.export(derived_run, what, "au", tmp_path / f"{what}.csv")
+            assert [n.split(" [")[0] for n in table.names] == [c.name for c in columns]
+            assert np.array_equal(table.column(columns[1].name), g[columns[1].name][()])
+            figures = api.plot(derived_run, what, tmp_path / f"{what}.png")
+            assert figures.paths and all(p.exists() for p in figures.paths)
+            shown = {r.key: r.quantum for r in report.rows}
+            for c in spectrum.readings_declared:
+                stored = float(g.attrs[c.name])
+                assert shown[f"{name}.{c.name}"] == stored or (math.isnan(stored) and math.isnan(shown[f"{name}.{c.name}"]))

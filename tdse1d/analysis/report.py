@@ -26,7 +26,7 @@ from .verdict import combined_uncertainty, verdict
 EIGENVALUE_TOLERANCE = 1e-10
 #: the unit of each kind of row, as written in the JSON
 UNITS = {"energy": "hartree", "photon": "hartree", "probability": "1", "momentum": "atomic_unit_of_momentum",
-         "time": "atomic_unit_of_time"}
+         "time": "atomic_unit_of_time", "number": "1"}
 
 
 @dataclass(frozen=True)
@@ -110,7 +110,7 @@ class _Builder:
 
 def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "", ionization_band=None,
          numerical: Mapping[str, float] | None = None, not_converged: Mapping[str, str] | None = None,
-         sfa=None, orbits: Mapping | None = None) -> list[Row]:
+         sfa=None, orbits: Mapping | None = None, derived: Mapping | None = None) -> list[Row]:
     """The rows of a run's report.
 
     Parameters
@@ -131,6 +131,10 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "",
         (:func:`tdse1d.analysis.report_sfa.with_sfa`) and add the quantum-orbit cutoff row.
     orbits : mapping, optional
         The stored quantum orbits (``sfa/orbits``), for the SFA emission times.
+    derived : mapping, optional
+        Derived spectrum name -> its readings as stored (reading name -> value in the
+        unit its class declares, :mod:`tdse1d.spectra.derived`): one row each, keyed
+        ``NAME.READING``, without a prediction.
 
     Returns
     -------
@@ -179,7 +183,21 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "",
                     "cycle (rules: maximum, centroid); spread: half the interquartile range; the statistical "
                     "part of the uncertainty is the standard error of that median"))
     _xuv_rows(b, a)
+    _derived_rows(b, derived or {})
     return with_sfa(b.rows, a, sfa, orbits)
+
+
+def _derived_rows(b, derived):
+    from ..spectra.derived import DERIVED_SPECTRA
+
+    kinds = {"hartree": "energy", "1": "number"}
+    for name, readings in derived.items():
+        spectrum = DERIVED_SPECTRA.get(name)
+        for column in spectrum.readings_declared if spectrum is not None else ():
+            if column.unit in kinds and column.name in readings:
+                b.add(f"{name.replace('_', ' ')}: {column.name.replace('_', ' ')}", f"{name}.{column.name}",
+                      math.nan, "", float(readings[column.name]), kinds[column.unit],
+                      note=f"{spectrum.title}: {column.description} (docs/output.md)")
 
 
 def _scaled(reading, factor):
@@ -242,13 +260,13 @@ def _value(row: Row, value: float, signed=True) -> str:
         return f"{value * units.HARTREE_EV:.3f}"
     if row.kind == "time":
         return f"{value / row.period:.3f}"
-    if row.kind == "probability":
+    if row.kind in ("probability", "number"):
         return f"{value:.4g}"
     return f"{value:+.4f}" if signed else f"{value:.4f}"
 
 
 def _unit_label(row: Row) -> str:
-    return {"energy": "eV", "photon": "eV", "probability": "", "momentum": "a.u.", "time": "cycle"}[row.kind]
+    return {"energy": "eV", "photon": "eV", "probability": "", "momentum": "a.u.", "time": "cycle", "number": ""}[row.kind]
 
 
 def _cell(row: Row, value: float, omega0: float, with_u=False, u=None) -> str:

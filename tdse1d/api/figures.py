@@ -17,6 +17,7 @@ import numpy as np
 
 from ..input.spec import InputError
 from ..plots import run_figures, scan_figures, sfa_figures
+from ..spectra.derived import DERIVED_SPECTRA
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
 __all__ = ["plot", "Figures", "KINDS", "all_figures", "output_files"]
@@ -186,6 +187,22 @@ def _populations(f, cache):
                                     f["observables/population_time"][()], f["observables/bound_population"][()])
 
 
+def _derived(name):
+    """The figure of the registered derived spectrum ``name`` (:mod:`tdse1d.spectra.derived`)."""
+
+    def draw(f, cache):
+        spectrum = DERIVED_SPECTRA[name]
+        if f"spectra/{name}" not in f:
+            raise InputError(f"the file holds no {name} spectrum (written by runs since it was registered)", "--what")
+        g = f[f"spectra/{name}"]
+        curves = [(c.description, g[c.name][()]) for c in spectrum.columns]
+        marks = [(c.description, float(g.attrs[c.name])) for c in spectrum.readings_declared if c.unit == "hartree"]
+        return run_figures.derived_spectrum_figure(g[spectrum.axis.name][()], spectrum.axis.unit, curves,
+                                                   spectrum.title, _analysis(f, cache).omega0, marks)
+
+    return draw
+
+
 #: file kind -> figure name -> function(open file, cache) -> Figure
 KINDS = {
     "run": {
@@ -198,6 +215,7 @@ KINDS = {
         "sfa-harmonic": _sfa_harmonic,
         "sfa-photoelectron": _sfa_photoelectron,
         "sfa-time-frequency": _sfa_time_frequency,
+        **{name.replace("_", "-"): _derived(name) for name in DERIVED_SPECTRA},
     },
     "scan-summary": scan_figures.FIGURES,
 }

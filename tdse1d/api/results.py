@@ -52,13 +52,15 @@ class Report:
     None for a run without ``spectra.sfa``: then the report has no SFA column."""
     orbits: dict | None = field(default=None, repr=False)
     """The stored quantum orbits (``sfa/orbits``, a.u.), or None."""
+    derived: dict = field(default_factory=dict, repr=False)
+    """Derived spectrum name -> its stored readings (:mod:`tdse1d.spectra.derived`)."""
 
     @property
     def rows(self) -> list:
         from ..analysis.report import rows
 
         return rows(self.analysis, self.target_ionization_potential, self.ionization_note, self.ionization_band,
-                    self.numerical, self.not_converged, self.sfa, self.orbits)
+                    self.numerical, self.not_converged, self.sfa, self.orbits, self.derived)
 
     def to_json(self) -> dict:
         """The rows for machines: atomic units, energies also in eV, times also in fs and cycles."""
@@ -96,6 +98,15 @@ def _numerical_uncertainties(path) -> tuple[dict, dict]:
     return read_numerical_uncertainties(path)
 
 
+def _derived_readings(f) -> dict:
+    """Derived spectrum name -> its readings as the file stores them (group attributes)."""
+    from ..spectra.derived import DERIVED_SPECTRA
+
+    return {name: {c.name: float(f[f"spectra/{name}"].attrs[c.name]) for c in spectrum.readings_declared
+                   if c.name in f[f"spectra/{name}"].attrs}
+            for name, spectrum in DERIVED_SPECTRA.items() if f"spectra/{name}" in f}
+
+
 def report(path) -> Report:
     """Each semiclassical prediction beside the quantum result of a run (``tdse1d report``).
 
@@ -126,11 +137,12 @@ def report(path) -> Report:
         converged = bool(f["ionization"].attrs.get("converged", True)) if "ionization" in f else True
         sfa = read_sfa_readings(f)
         orbits = (read_sfa(f) or {}).get("orbits")
+        derived = _derived_readings(f)
     numerical, not_converged = _numerical_uncertainties(path)
     if not converged:  # the run's own check of the bound-state count (docs/analysis.md)
         not_converged.setdefault("ionization_probability", "not converged: enlarge the box (grid.points with "
                                                            "absorber.width)")
-    return Report(Path(path), analysis, target, note, band, numerical, not_converged, sfa, orbits)
+    return Report(Path(path), analysis, target, note, band, numerical, not_converged, sfa, orbits, derived)
 
 
 # ------------------------------------------------------------------------ tables
@@ -168,9 +180,33 @@ def _time_frequency_columns(f):
                       ("power", p.ravel(), "a.u.")]
 
 
-#: spectrum name -> function(open file) -> (kind of energy, [(column, values in a.u., dimension)])
-SPECTRA = {"harmonic": _harmonic_columns, "photoelectron": _photoelectron_columns,
-           "time-frequency": _time_frequency_columns}
+def _derived_columns(name):
+    """The columns of the registered derived spectrum ``name`` (:mod:`tdse1d.spectra.derived`)."""
+    from ..spectra.derived import DERIVED_SPECTRA
+
+    def columns_of(f):
+        spectrum = DERIVED_SPECTRA[name]
+        if f"spectra/{name}" not in f:
+            raise InputError(f"the file holds no {name} spectrum (written by runs since it was registered)", "--what")
+        g = f[f"spectra/{name}"]
+        dimension = {"hartree": "energy", "atomic_unit_of_time": "time"}
+        return "photon", [(c.name, g[c.name][()], dimension.get(c.unit, "a.u."))
+                          for c in (spectrum.axis, *spectrum.columns)]
+
+    return columns_of
+
+
+def _spectra():
+    from ..spectra.derived import DERIVED_SPECTRA
+
+    return {"harmonic": _harmonic_columns, "photoelectron": _photoelectron_columns,
+            "time-frequency": _time_frequency_columns,
+            **{name.replace("_", "-"): _derived_columns(name) for name in DERIVED_SPECTRA}}
+
+
+#: spectrum name -> function(open file) -> (kind of energy, [(column, values in a.u., dimension)]);
+#: the registered derived spectra (tdse1d.spectra.derived) are named with hyphens
+SPECTRA = _spectra()
 
 
 def _energy_unit(choice, kind):

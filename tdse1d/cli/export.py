@@ -10,15 +10,15 @@ from __future__ import annotations
 
 import sys
 
-HELP = "write a spectrum (harmonic, photoelectron, time-frequency) to CSV"
-
-#: the spectra (tdse1d.api.results.SPECTRA), named here so the parser needs no numerics
-WHAT = ("harmonic", "photoelectron", "time-frequency")
+HELP = "write a spectrum (harmonic, photoelectron, time-frequency, ...) to CSV"
 
 
 def add_arguments(parser):
     parser.add_argument("result", metavar="RESULT.h5", help="result file of `tdse1d run`")
-    parser.add_argument("--what", choices=sorted(WHAT), default="harmonic", help="which spectrum (default harmonic)")
+    # checked by the library (tdse1d.api.results.SPECTRA), so the parser imports no numerics
+    parser.add_argument("--what", default="harmonic",
+                        help="which spectrum: harmonic (default), photoelectron, time-frequency, or a derived "
+                             "spectrum such as harmonic-forms (docs/output.md)")
     parser.add_argument("--units", choices=("eV", "au", "nm"), default="eV",
                         help="unit of the energy column (nm: photon wavelength); default eV")
     parser.add_argument("-o", "--output", metavar="FILE.csv", default=None, help="output file (default: stdout)")

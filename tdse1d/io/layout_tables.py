@@ -144,6 +144,22 @@ SFA_LAYOUT: tuple[Entry, ...] = (
 
 _PHOTO = "spectra/photoelectron/{method}"
 
+DERIVED = "a run of one electron (derived spectrum: tdse1d.spectra.derived)"
+
+
+def _derived_entries() -> tuple[Entry, ...]:
+    """The entries each registered derived spectrum declares (tdse1d.spectra.derived)."""
+    from ..spectra.derived import DERIVED_SPECTRA
+
+    out = []
+    for name, spectrum in DERIVED_SPECTRA.items():
+        out += _entries(f"spectra/{name}", DERIVED, [(c.name, c.unit, c.description, "(F'',)")
+                                                     for c in (spectrum.axis, *spectrum.columns)])
+        out += _entries(f"spectra/{name}", DERIVED, [(c.name, c.unit, c.description)
+                                                     for c in spectrum.readings_declared], "attribute")
+    return tuple(out)
+
+
 RESULT_LAYOUT: tuple[Entry, ...] = (
     *_entries("", ALWAYS, (
         ("input", "text", "the resolved input as TOML text (all --set overrides applied); "
@@ -365,6 +381,7 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
         ("tolerance_reason", "text", "why the tolerance is what it is"),
     ), "attribute"),
     *SFA_LAYOUT,
+    *_derived_entries(),
 )
 
 SCAN_RUN = "a scan that has at least one finished point"

@@ -269,6 +269,20 @@ class ResultWriter:
         self.check()
 
     # ------------------------------------------------------------- results
+    @staticmethod
+    def _write_derived(f, derived: dict) -> None:
+        """Each derived spectrum under /spectra/{name}: its columns and, as attributes, its
+        readings, as its class declares them (:mod:`tdse1d.spectra.derived`)."""
+        from ..spectra.derived import DERIVED_SPECTRA
+
+        for name, data in derived.items():
+            spectrum = DERIVED_SPECTRA[name]
+            g = f.create_group(f"spectra/{name}")
+            for column in (spectrum.axis, *spectrum.columns):
+                write_dataset(g, column.name, data[column.name])
+            for reading in spectrum.readings_declared:
+                g.attrs[reading.name] = float(data[reading.name])
+
     def write_result(self, result, extra=None):
         """Write the run's observables, spectra and ionization; ``extra`` is a callable
         given the open file to add analysis groups."""
@@ -298,6 +312,7 @@ class ResultWriter:
             h.attrs["cutoff_energy"] = result.cutoff.frequency
             h.attrs["cutoff_order"] = result.cutoff.order
             h.attrs["cutoff_resolved"] = bool(result.cutoff.resolved)
+        self._write_derived(f, getattr(result, "derived", {}))
         for method, spec in result.photoelectrons.items():
             g = f.create_group(f"spectra/photoelectron/{method}")
             g.attrs["method"] = method

@@ -327,3 +327,38 @@ def populations_figure(time, norm, population_time, populations, labels=None, ma
     bottom.set_ylabel("excited states")
     bottom.set_xlabel("time (fs)")
     return fig
+
+
+def derived_spectrum_figure(axis, axis_unit, curves, title, omega0=math.nan, marks=()):
+    """A derived spectrum (:mod:`tdse1d.spectra.derived`): its columns as curves on a log scale.
+
+    Parameters
+    ----------
+    axis : array_like
+        The x column; shown in eV (with a harmonic-order axis) when ``axis_unit`` is hartree.
+    axis_unit : str
+        The x column's unit as the result file states it.
+    curves : sequence of (label, values)
+        The y columns (non-positive values are not drawn).
+    title : str
+        The spectrum's title.
+    omega0 : float
+        Carrier frequency (a.u.) for the harmonic-order axis; NaN: none.
+    marks : sequence of (label, x)
+        Vertical lines in the axis' unit (hartree for an energy axis); non-finite skipped.
+    """
+    fig, (ax,) = _figure(1, FIGURE_SIZE[1])
+    energy = axis_unit == "hartree"
+    x = _ev(axis) if energy else np.asarray(axis, dtype=float)
+    for k, (label, values) in enumerate(curves):
+        y = np.asarray(values, dtype=float)
+        keep = (x > 0) & (y > 0)
+        ax.semilogy(x[keep], y[keep], lw=0.6, color=f"C{k}", label=label)
+    _cutoff_lines(ax, [(label, v) for label, v in marks] if energy else [])
+    ax.set_xlabel("photon energy (eV)" if energy else f"{axis_unit}")
+    ax.set_ylabel("power (a.u.)")
+    ax.set_title(title, fontsize="medium")
+    if energy and math.isfinite(omega0):
+        _order_axis(ax, omega0)
+    ax.legend(loc="lower left", fontsize="small", frameon=False)
+    return fig

@@ -65,6 +65,9 @@ class RunResult:
     cutoff : spectra.CutoffEstimate or None
     photoelectrons : dict
         Method name -> spectra.PhotoelectronSpectrum.
+    derived : dict
+        Name -> what each registered derived spectrum computed
+        (:mod:`tdse1d.spectra.derived`).
     warnings : list of str
     """
 
@@ -79,6 +82,7 @@ class RunResult:
     cutoff: object
     photoelectrons: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)
+    derived: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -342,6 +346,8 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         photo["surface_flux"] = flux.result(continuum * to_velocity, (final - continuum) * to_velocity,
                                             psi0 * np.exp(-1j * a_start * grid.x), split="momentum")
 
+    derived = derived_spectra(obs, omega0, cfg.spectra.window)
+
     return RunResult(
         observables=obs,
         population_time=times[pops],
@@ -354,7 +360,31 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         cutoff=cutoff,
         photoelectrons=photo,
         warnings=list(problem.warnings) + notes + monitor.warnings,
+        derived=derived,
     )
+
+
+def derived_spectra(observables, omega0: float, window: str) -> dict:
+    """Every registered derived spectrum of a run's recorded series (name -> its dict).
+
+    Parameters
+    ----------
+    observables : Observables
+        The run's recorded series (time, dipole, momentum, acceleration, norm, field).
+    omega0 : float
+        Carrier frequency of the first pulse (hartree).
+    window : str
+        The run's spectral window.
+
+    Returns
+    -------
+    dict of str to dict
+        :data:`tdse1d.spectra.derived.DERIVED_SPECTRA` name -> axis, columns, readings.
+    """
+    from ..spectra.derived import DERIVED_SPECTRA, SERIES
+
+    series = {name: np.asarray(getattr(observables, name)) for name in SERIES}
+    return {name: spectrum().compute(series, omega0, window) for name, spectrum in DERIVED_SPECTRA.items()}
 
 
 def _surface_flux(problem: Problem, prop: Propagator, mask):

@@ -73,8 +73,10 @@ def harmonic_spectrum(
     For ``form="velocity"`` or ``"dipole"`` the amplitude is multiplied by ``i w`` or
     ``(i w)^2`` so that the result is in the acceleration form, i.e. the power carries
     the factor w^2 or w^4 (Burnett et al., Phys. Rev. A 45, 3347 (1992), from memory).
-    The window is applied to the signal as given, before that factor; the forms then
-    agree exactly only if the signals vanish at both ends of the record.
+    The window W is applied to the signal as given, before that factor; the forms then
+    agree exactly only without a window (and signals that vanish at both ends of the
+    record): with one, F[(W v)'] = F[W a] + F[W' v] leaves a floor of relative size
+    ~ |W'/W| / w (tests/test_dipole_forms_spectrum.py).
 
     Parameters
     ----------
