@@ -24,7 +24,8 @@ from ..semiclassical.estimates import GridAdvice, PulseEstimate, estimates_json
 from ..input.problem import Problem, build_problem
 from ..physics.states import BoundStates
 
-__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
+__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "StatesResult", "PairStatesResult",
+           "EstimateResult", "RunOutcome", "output_path", "default_control"]
 
 
 @dataclass(frozen=True)
@@ -62,6 +63,45 @@ class StatesResult:
 
 
 @dataclass(frozen=True)
+class PairStatesResult:
+    """States of the two-electron atom of an input on its own 2-D grid, with its ion's."""
+
+    problem: object  # tdse1d.input.pair_problem.PairProblem
+
+    @property
+    def states(self):
+        return self.problem.states
+
+    @property
+    def rms_extent(self):
+        """Root-mean-square extent <x1^2>^1/2 of one electron in each state (bohr)."""
+        import numpy as np
+
+        grid = self.problem.grid
+        density = self.states.wavefunctions**2
+        return np.sqrt(np.sum(density * grid.x[None, :, None] ** 2, axis=(1, 2)) * grid.spacing**2)
+
+    def to_json(self) -> dict:
+        """The energies as the one-electron model's (``softening``, ``energies``), with the
+        model's other parameters, the ion's energies and both ionization potentials
+        (atomic units: bohr, hartree)."""
+        p = self.problem
+        return {"softening": p.atom.softening, "repulsion_softening": p.atom.repulsion_softening,
+                "charge": p.atom.charge, "spin": p.atom.spin,
+                "energies": [float(e) for e in self.states.energies],
+                "bound": [bool(b) for b in p.bound],
+                "ion_energies": [float(e) for e in p.ion_states.energies],
+                "ionization_potential": p.ionization_potential,
+                "ion_ionization_potential": p.ion_ionization_potential}
+
+    def __repr__(self) -> str:
+        e = self.states.energies
+        g = self.problem.grid
+        return (f"<PairStatesResult {len(e)} {self.problem.atom.spin} states on {g.points}^2 points, E0 {e[0]:.6f} Eh, "
+                f"Ip {self.problem.ionization_potential:.6f} / ion {self.problem.ion_ionization_potential:.6f} Eh>")
+
+
+@dataclass(frozen=True)
 class EstimateResult:
     """Semiclassical estimates of an input's pulses, the advised grid, and the memory and
     disk the run as given needs (:class:`tdse1d.runs.resources.ResourceEstimate`, bytes)."""
@@ -94,7 +134,7 @@ class EstimateResult:
         return f"<EstimateResult {', '.join(parts)}>"
 
 
-def find_states(config: RunConfig | str, count: int | None = None) -> StatesResult:
+def find_states(config: RunConfig | str, count: int | None = None) -> StatesResult | PairStatesResult:
     """Bound states of the model on the run's own grid (``tdse1d states``).
 
     Parameters
@@ -106,9 +146,10 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
 
     Returns
     -------
-    StatesResult
+    StatesResult or PairStatesResult
         Energies (hartree), wavefunctions, the fitted softening (bohr) and the
-        states' extent (bohr).
+        states' extent (bohr); for the two-electron atom (``PairStatesResult``) also
+        its ion's energies and the ionization potentials of atom and ion (hartree).
     """
     if not isinstance(config, RunConfig):
         config = load_input(config)
@@ -116,6 +157,10 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
         from dataclasses import replace
 
         config = replace(config, atom=replace(config.atom, bound_states=count))
+    from ..input.pair_problem import build_pair_problem, is_pair_model
+
+    if is_pair_model(config):
+        return PairStatesResult(build_pair_problem(config))
     return StatesResult(build_problem(config))
 
 
