@@ -74,6 +74,7 @@ FIELD = "atomic_unit_of_electric_field"
 FIELD_RUN = "a run with a field"
 XUV = "a run with an XUV pulse inside an IR field (streaking)"
 THREE_STEP = "a run whose field has a three-step analysis"
+SEVERAL_AXES = "a run on a grid of several axes"
 
 #: the semiclassical numbers of a pulse (tdse1d.semiclassical.estimates.PulseEstimate)
 _ESTIMATES = (
@@ -139,7 +140,10 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
     )),
     Entry("snapshots/time", T, "snapshot times, first and last step included", "(Q,)"),
     Entry("snapshots/x", "bohr", "positions of the stored points (every output.snapshot_stride-th)", "(N/stride,)"),
-    Entry("snapshots/psi", "bohr^-1/2", "complex wavefunction at each snapshot time, length gauge", "(Q, N/stride)"),
+    Entry("snapshots/x_{i}", "bohr", "positions of the stored points along axis i >= 1 of a grid of several axes",
+          "(N_i/stride,)", when=SEVERAL_AXES),
+    Entry("snapshots/psi", "bohr^-1/2", "complex wavefunction at each snapshot time, length gauge "
+          "(on a grid of d axes: shape (Q, N_0/stride, ..., N_d-1/stride), unit bohr^-d/2)", "(Q, N/stride)"),
     Entry("snapshots/psi@gauge", "text", '"length"'),
     Entry("final/psi", "bohr^-1/2", "complex wavefunction at the end, length gauge, full grid", "(N,)"),
     Entry("final/psi@gauge", "text", '"length"'),

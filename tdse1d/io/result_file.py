@@ -249,17 +249,22 @@ class ResultWriter:
         n_snap = len(snapshot_times)
         snaps = f.create_group("snapshots")
         self._snap_time = write_dataset(snaps, "time", np.asarray(snapshot_times, float))
-        x = p.grid.x[::stride]
-        write_dataset(snaps, "x", x)
-        self._stride = stride
-        self._snap = write_dataset(snaps, "psi", create=dict(shape=(n_snap, len(x)), dtype=np.complex128,
-                                                             chunks=(1, len(x)) if n_snap else None),
+        # every stride-th point along every axis: shape (Q, *grid.shape / stride)
+        grid = p.grid
+        self._every = (slice(None, None, stride),) * grid.ndim
+        axes = [grid.axis(a).x[::stride] for a in range(grid.ndim)]
+        write_dataset(snaps, "x", axes[0])
+        for a in range(1, grid.ndim):
+            write_dataset(snaps, f"x_{a}", axes[a])
+        shape = tuple(len(x) for x in axes)
+        self._snap = write_dataset(snaps, "psi", create=dict(shape=(n_snap, *shape), dtype=np.complex128,
+                                                             chunks=(1, *shape) if n_snap else None),
                                    gauge="length")
 
     # ---------------------------------------------------------------- sink
     def snapshot(self, index, time, psi):
         """Store snapshot ``index`` (length gauge) at ``time`` (a.u.)."""
-        self._snap[index] = psi[:: self._stride]
+        self._snap[index] = psi[self._every]
         self._snap_time[index] = time
         self.check()
 

@@ -14,10 +14,17 @@ The photoelectron spectrum is read at surfaces at the inner edges of the layers
 Absorbers are small classes registered in :data:`ABSORBERS` under the name used by
 ``absorber.type``. Contract for an implementer of :class:`Absorber`:
 
-* ``step_factor(grid, width, time_step)`` returns M(x) on the grid (float array,
-  values in (0, 1], exactly 1 outside the two absorbing layers of ``width`` bohr);
+* ``layer_factor(depth, time_step)`` returns the per-step factor in (0, 1] at the
+  given depths into a layer (0 at its inner edge, 1 at the grid's edge; exactly 1 at
+  depth 0);
 * ``own_keys`` names the ``[absorber]`` keys only this absorber reads (the input
   reader refuses them with another absorber, naming this one).
+
+:meth:`Absorber.step_factor` builds M on a grid of any number of axes: a layer of
+``width`` bohr at both edges of every axis, M = prod_a layer_factor(depth_a) (for a
+mask, the product of the 1-D masks; for a complex potential, the sum of the 1-D
+potentials, exp(-sum_a W(x_a) dt)). On a 2-D grid every one of the four edges
+absorbs, the corners twice.
 """
 
 from __future__ import annotations
@@ -36,7 +43,7 @@ register_absorber = registrar(ABSORBERS)
 
 
 def depth_into_layer(grid: Grid, width: float) -> np.ndarray:
-    """0 inside the box, rising to 1 at the grid's edge across a layer of ``width``."""
+    """0 inside the box, rising to 1 at the grid's edge across a layer of ``width`` (1-D grid)."""
     inner = grid.half_width - width
     return np.clip((np.abs(grid.x) - inner) / width, 0.0, 1.0)
 
@@ -61,8 +68,34 @@ class Absorber:
         self.exponent = exponent
         self.strength = strength
 
-    def step_factor(self, grid: Grid, width: float, time_step: float) -> np.ndarray:  # pragma: no cover
+    def layer_factor(self, depth: np.ndarray, time_step: float) -> np.ndarray:  # pragma: no cover
+        """Per-step factor in (0, 1] at ``depth`` (0 to 1) into a layer; ``time_step`` in a.u."""
         raise NotImplementedError
+
+    def step_factor(self, grid: Grid, width: float, time_step: float) -> np.ndarray:
+        """M on ``grid`` (shape ``grid.shape``): layers of ``width`` bohr on both edges of every axis.
+
+        Parameters
+        ----------
+        grid : Grid
+            Any number of axes.
+        width : float
+            Layer width (bohr), the same on every axis.
+        time_step : float
+            Propagation time step (a.u.).
+
+        Returns
+        -------
+        ndarray of float, shape ``grid.shape``
+            Values in (0, 1], exactly 1 outside the layers.
+        """
+        if grid.ndim == 1:
+            return self.layer_factor(depth_into_layer(grid, width), time_step)
+        total = np.ones(grid.shape)
+        for a in range(grid.ndim):
+            line = self.layer_factor(depth_into_layer(grid.axis(a), width), time_step)
+            total = total * line.reshape([-1 if b == a else 1 for b in range(grid.ndim)])
+        return total
 
 
 @register_absorber("mask")
@@ -75,9 +108,8 @@ class CosineMask(Absorber):
 
     own_keys = ("exponent",)
 
-    def step_factor(self, grid, width, time_step):
-        s = depth_into_layer(grid, width)
-        m = np.cos(0.5 * np.pi * s) ** self.exponent
+    def layer_factor(self, depth, time_step):
+        m = np.cos(0.5 * np.pi * depth) ** self.exponent
         # the grid's very edge would be exactly zero; keep the factor positive
         return np.maximum(m, 1e-30)
 
@@ -96,15 +128,14 @@ class ComplexPotential(Absorber):
 
     DEFAULT_STRENGTH = 1.0
 
-    def step_factor(self, grid, width, time_step):
-        s = depth_into_layer(grid, width)
+    def layer_factor(self, depth, time_step):
         w0 = self.DEFAULT_STRENGTH if self.strength is None else self.strength
-        return np.exp(-w0 * s**2 * time_step)
+        return np.exp(-w0 * depth**2 * time_step)
 
 
 @register_absorber("none")
 class NoAbsorber(Absorber):
     """No absorption: the box is periodic (for field-free checks and bound dynamics)."""
 
-    def step_factor(self, grid, width, time_step):
-        return np.ones(grid.points)
+    def layer_factor(self, depth, time_step):
+        return np.ones(np.shape(depth))

@@ -1,4 +1,4 @@
-"""In-place FFTW plans on aligned arrays (through pyfftw), made once per grid size.
+"""In-place FFTW plans on aligned arrays of any shape (through pyfftw), made once per grid.
 
 Plans are cached per process; :func:`export_wisdom` and :func:`import_wisdom` let the
 caller (the command-line layer) keep FFTW's wisdom between runs, so that measuring the
@@ -29,28 +29,38 @@ class WisdomError(ValueError):
 
 
 class InPlaceFFT:
-    """Forward and backward FFTW transforms of one aligned complex array, in place.
+    """Forward and backward FFTW transforms over every axis of one aligned complex array, in place.
 
     Parameters
     ----------
-    points : int
-        Transform length.
+    points : int or tuple of int
+        Transform length, or the array's shape (``grid.shape``) for a transform over
+        all its axes.
     effort : str
         FFTW planner flag: ``"FFTW_MEASURE"`` (default) or ``"FFTW_ESTIMATE"``.
+    threads : int
+        FFTW threads (default 1). One thread is fastest for 1-D grids of the sizes used
+        here; a 2-D grid gains from using every core.
 
     Attributes
     ----------
     data : ndarray of complex128
-        The aligned array both transforms act on. ``backward`` is *not* normalised
-        (the caller folds 1/N into a phase it multiplies anyway).
+        The aligned array both transforms act on, of shape ``points``. ``backward`` is
+        *not* normalised (the caller folds 1/size into a phase it multiplies anyway).
     """
 
-    def __init__(self, points: int, effort: str = "FFTW_MEASURE"):
-        self.data = pyfftw.empty_aligned(points, dtype="complex128")
+    def __init__(self, points, effort: str = "FFTW_MEASURE", threads: int = 1):
+        shape = (int(points),) if isinstance(points, (int,)) or getattr(points, "ndim", 1) == 0 else tuple(points)
+        if int(threads) != threads or threads < 1:
+            raise ValueError(f"FFT threads must be a positive integer, got {threads}")
+        self.data = pyfftw.empty_aligned(shape if len(shape) > 1 else shape[0], dtype="complex128")
         self.data[:] = 0
         flags = (effort, "FFTW_DESTROY_INPUT")
-        self._forward = pyfftw.FFTW(self.data, self.data, direction="FFTW_FORWARD", flags=flags, threads=1)
-        self._backward = pyfftw.FFTW(self.data, self.data, direction="FFTW_BACKWARD", flags=flags, threads=1)
+        axes = tuple(range(len(shape)))
+        self._forward = pyfftw.FFTW(self.data, self.data, axes=axes, direction="FFTW_FORWARD", flags=flags,
+                                    threads=int(threads))
+        self._backward = pyfftw.FFTW(self.data, self.data, axes=axes, direction="FFTW_BACKWARD", flags=flags,
+                                     threads=int(threads))
 
     def forward(self):
         """data <- FFT(data)."""

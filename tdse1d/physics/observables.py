@@ -7,7 +7,8 @@ is obtained. The propagator (:mod:`tdse1d.physics.propagation`), the runner's st
 resume (:mod:`tdse1d.runs.runner`), the checkpoint (:mod:`tdse1d.runs.checkpoint`) and the
 result-file table read this tuple; none keeps its own list.
 
-The first five are measured by the fused kernels of :mod:`tdse1d.physics.kernels`
+A system (:mod:`tdse1d.physics.systems`) may add entries of its own, recorded the same
+way by the propagator that moves it. The first five are measured by the fused kernels of :mod:`tdse1d.physics.kernels`
 inside the propagator's loop (``measure`` is None). An entry with a ``measure``
 callable is evaluated by the propagator after every step on the current state; that
 costs one Python call per step and is meant for quantities that are not yet worth a
@@ -101,15 +102,18 @@ class Observables:
     ----------
     time, electric, vector_potential : ndarray
         Step times (a.u.), E(t_n) and A(t_n) (a.u.).
+    extra : tuple of str
+        Names of per-step observables a system adds (:meth:`System.per_step_observables`)
+        beyond the table.
     **recorded : ndarray
         Arrays of per-step observables (each missing one starts as NaN).
     """
 
-    def __init__(self, time, electric, vector_potential, **recorded):
+    def __init__(self, time, electric, vector_potential, extra=(), **recorded):
         self.time = time
         self.electric = electric
         self.vector_potential = vector_potential
-        names = per_step_names()
+        names = per_step_names() + tuple(n for n in extra if n not in per_step_names())
         unknown = set(recorded) - set(names)
         if unknown:
             raise ValueError(f"not per-step observables: {sorted(unknown)}")
@@ -118,9 +122,9 @@ class Observables:
         self.names = names
 
     @classmethod
-    def empty(cls, times, electric, vector_potential):
-        """All per-step observables NaN."""
-        return cls(times, electric, vector_potential)
+    def empty(cls, times, electric, vector_potential, extra=()):
+        """All per-step observables NaN (``extra``: names a system adds)."""
+        return cls(times, electric, vector_potential, extra=extra)
 
     def as_dict(self) -> dict:
         """Copies of the per-step arrays by name (the field and times left out)."""

@@ -12,6 +12,11 @@ S2(w_1 h) ... S2(w_m h) (Yoshida, Phys. Lett. A 150, 262 (1990); Suzuki, Phys. L
 146, 319 (1990)), each sub-step at its own midpoint time. Adjacent potential halves
 within a step are merged.
 
+What is propagated is a :class:`~tdse1d.physics.systems.System`: a grid of any number
+of axes, its potential, and the coupling coordinate X = sum_a w_a x_a (x for one
+electron, x1 + x2 for two) with its momentum counterpart K. Below, for one electron,
+X = x and K = k; the general forms are in :mod:`tdse1d.physics.systems`.
+
 Gauges (electron charge -1, E = -dA/dt):
 
 * length gauge: V(x, t) = V(x) + x E(t); the grid momentum is the kinetic momentum;
@@ -29,8 +34,11 @@ harmonic spectra than differentiating the dipole; Burnett et al., Phys. Rev. A 4
 populations at a coarser cadence. Given a :class:`tdse1d.spectra.surface_flux.SurfaceFlux`,
 the propagator adds the flux through its surfaces at every step.
 
-The time loop allocates no arrays: every work array is made in the constructor, and the
-point-wise work is done by the fused kernels of :mod:`tdse1d.physics.kernels`.
+For one electron on a line the time loop allocates no arrays: every work array is made
+in the constructor, and the point-wise work is done by the fused kernels of
+:mod:`tdse1d.physics.kernels`. Other systems run the array loop of
+:mod:`tdse1d.physics.grid_step`, which takes the same sub-steps. The surface flux is
+computed for one electron on a line only, and refused for other systems.
 """
 
 from __future__ import annotations
@@ -44,7 +52,9 @@ from ..errors import NumericalError
 from .fft import InPlaceFFT
 from .grid import Grid
 from .observables import Observables, measured_entries
-from ..registry import registrar
+from .systems import OneElectron, System
+from .grid_step import GridStepper
+from .schemes import DEFAULT_SCHEME_FOR_ORDER, SCHEMES, Strang, Suzuki4, SplittingScheme, Yoshida4, register_scheme
 
 __all__ = [
     "SplittingScheme",
@@ -55,110 +65,61 @@ __all__ = [
     "register_scheme",
     "DEFAULT_SCHEME_FOR_ORDER",
     "Propagator",
+    "System",
     "Observables",
     "NumericalError",
 ]
 
-SCHEMES: dict[str, type["SplittingScheme"]] = {}
-
-
-register_scheme = registrar(SCHEMES)
-
-
-class SplittingScheme:
-    """A symmetric composition of midpoint Strang steps.
-
-    Contract for an implementer: ``weights`` is a palindromic tuple of floats summing
-    to 1 (sub-step i lasts ``weights[i] * h``; negative weights step backwards in time),
-    and ``order`` is the order of the composition.
-    """
-
-    name = "?"
-    order: int
-    weights: tuple[float, ...]
-
-    @classmethod
-    def check(cls):
-        w = np.asarray(cls.weights)
-        assert abs(w.sum() - 1) < 1e-14 and np.allclose(w, w[::-1]), cls
-
-
-@register_scheme("strang")
-class Strang(SplittingScheme):
-    """Strang splitting V/2 T V/2 (Strang, SIAM J. Numer. Anal. 5, 506 (1968)), 2nd order."""
-
-    order = 2
-    weights = (1.0,)
-
-
-_CBRT2 = 2 ** (1 / 3)
-
-
-@register_scheme("yoshida4")
-class Yoshida4(SplittingScheme):
-    """Triple jump w1, w0, w1 with w1 = 1/(2 - 2^(1/3)), w0 = 1 - 2 w1 (Yoshida 1990), 4th order."""
-
-    order = 4
-    weights = (1 / (2 - _CBRT2), 1 - 2 / (2 - _CBRT2), 1 / (2 - _CBRT2))
-
-
-_P5 = 1 / (4 - 4 ** (1 / 3))
-
-
-@register_scheme("suzuki4")
-class Suzuki4(SplittingScheme):
-    """Five-stage fractal p, p, 1 - 4p, p, p with p = 1/(4 - 4^(1/3)) (Suzuki 1990), 4th order.
-
-    Smaller error constant than the triple jump for the same order, at 5/3 of the cost.
-    """
-
-    order = 4
-    weights = (_P5, _P5, 1 - 4 * _P5, _P5, _P5)
-
-
-for _cls in SCHEMES.values():
-    _cls.check()
-
-#: scheme used for each ``propagation.order`` when ``propagation.scheme`` is not given
-#: (inputs written before that key existed give the same results)
-DEFAULT_SCHEME_FOR_ORDER = {2: "strang", 4: "yoshida4"}
-
 
 class Propagator:
-    """Split-operator propagator of one wavefunction on a Fourier grid.
+    """Split-operator propagator of one wavefunction of a :class:`System` on a Fourier grid.
 
     Parameters
     ----------
-    grid : Grid
-    potential : Potential
-        Field-free potential with ``value`` and ``gradient``.
+    system : System
+        What is propagated (:mod:`tdse1d.physics.systems`): grid of any number of axes,
+        potential, field coupling, absorber factor, reference state. The 1-D call form
+        ``Propagator(grid, potential, field, times, ..., absorber_factor=,
+        reference=)`` makes a :class:`~tdse1d.physics.systems.OneElectron`.
     field : Field
         Provides ``electric(t)`` and ``vector_potential(t)`` (a.u.).
     times : ndarray
         Uniform times t_0 ... t_N of the steps (a.u.).
     gauge : {"length", "velocity"}
     scheme : type of SplittingScheme
-    absorber_factor : ndarray, optional
-        Per-step absorber factor M(x) in (0, 1] (all ones if None).
-    reference : ndarray, optional
-        State whose population is recorded every step (the initial state).
     fft_effort : str
         FFTW planner flag.
     surface_flux : tdse1d.spectra.surface_flux.SurfaceFlux, optional
         Accumulates the flux through its surfaces: the propagator adds the state of
         every step to it (the first with :meth:`start`, the last half-weight
-        correction with :meth:`finish`).
+        correction with :meth:`finish`). One electron on a line only.
+    threads : int
+        FFTW threads for a grid of several axes (a 1-D grid always uses one: its
+        transforms are too short to gain).
 
     Notes
     -----
     Use :meth:`start` with the initial wavefunction, then :meth:`advance` as many steps
     as wanted (callers interleave snapshots, checkpoints and progress between calls),
-    and :meth:`finish` to record the last momentum. ``psi`` is the current state.
+    and :meth:`finish` to record the last momentum. ``psi`` is the current state, of
+    shape ``grid.shape``. One electron on a line runs the fused kernels of
+    :mod:`tdse1d.physics.kernels`; every other system the array loop of
+    :mod:`tdse1d.physics.grid_step`, which takes the same steps.
     """
 
-    def __init__(self, grid: Grid, potential, field, times, gauge="length", scheme=None,
-                 absorber_factor=None, reference=None, fft_effort="FFTW_MEASURE",
-                 surface_flux=None):
+    def __init__(self, system, *args, **kwargs):
+        if isinstance(system, Grid):  # the 1-D call form: Propagator(grid, potential, field, times, ...)
+            if not args:
+                raise TypeError("Propagator(grid, potential, field, times, ...) needs the potential")
+            potential, *args = args
+            system = OneElectron(system, potential, kwargs.pop("absorber_factor", None),
+                                 kwargs.pop("reference", None))
+        if not isinstance(system, System):
+            raise TypeError(f"Propagator needs a System (tdse1d.physics.systems), got {type(system).__name__}")
+        self._setup(system, *args, **kwargs)
+
+    def _setup(self, system, field, times, gauge="length", scheme=None, fft_effort="FFTW_MEASURE",
+               surface_flux=None, threads=1):
         if gauge not in ("length", "velocity"):
             raise ValueError(f"gauge must be 'length' or 'velocity', got {gauge!r}")
         times = np.asarray(times, dtype=float)
@@ -168,32 +129,21 @@ class Propagator:
         h = float(steps.mean())
         if not (h > 0 and np.allclose(steps, h, rtol=1e-9, atol=1e-12 * abs(h))):
             raise ValueError("times must be uniform and increasing")
-        self.grid = grid
+        self.system = system
+        self.grid = grid = system.grid
         self.field = field
         self.times = times
         self.time_step = h
         self.gauge = gauge
         self.scheme = scheme or Strang
-        n = grid.points
-        self.block = kernels.block_size(n)
-        nb = n // self.block
-        self._fft = InPlaceFFT(n, fft_effort)
-        self.psi = self._fft.data
-
-        x = grid.x
-        k = grid.k
-        v = potential.value(x)
-        self._x = np.ascontiguousarray(x)
-        self._k = np.ascontiguousarray(k)
-        self._grad = np.ascontiguousarray(potential.gradient(x))
-        self._mask = np.ones(n) if absorber_factor is None else np.ascontiguousarray(absorber_factor, dtype=float)
-        if self._mask.shape != (n,) or np.any(self._mask <= 0) or np.any(self._mask > 1):
-            raise ValueError("absorber_factor must hold values in (0, 1] on the grid")
+        self._line = system.is_line
+        if surface_flux is not None and not self._line:
+            raise ValueError(f"the surface flux is computed for one electron on a line only, not for {system!r}")
         self.surface_flux = surface_flux
-        self._reference = np.ascontiguousarray(
-            np.zeros(n, complex) if reference is None else np.asarray(reference, dtype=complex)
-        )
-
+        self._charge_sum = system.charge_sum
+        self._mask = system.absorber_factor
+        self._reference = system.reference
+        self._grad = system.force
         # the sub-step plan: potential kicks with coefficients c (times h), kinetic
         # steps with weights w, and the midpoint times (fractions of h) of each
         w = np.asarray(self.scheme.weights)
@@ -211,6 +161,39 @@ class Propagator:
                 parts.append((w[i] / 2, i))
             self._kick_parts.append(tuple(parts))
 
+        # field at every midpoint, precomputed so the loop does no field evaluation
+        mids = times[:-1, None] + h * self._kinetic_mid[None, :]
+        self._e_mid = np.asarray(field.electric(mids.ravel())).reshape(mids.shape) if field.pulses else np.zeros(mids.shape)
+        self._a_mid = np.asarray(field.vector_potential(mids.ravel())).reshape(mids.shape) if field.pulses else np.zeros(mids.shape)
+        e_t = field.electric(times) if field.pulses else np.zeros(len(times))
+        a_t = field.vector_potential(times) if field.pulses else np.zeros(len(times))
+        # per-step observables measured by a callable rather than by the kernels
+        extra = system.per_step_observables()
+        self._measured = measured_entries() + tuple(extra)
+        self.observables = Observables.empty(times, np.asarray(e_t, float), np.asarray(a_t, float),
+                                             extra=tuple(e.name for e in extra))
+        self.step_index = 0
+        self._pending_momentum = 0.0  # <K> of the first kinetic sub-step, for <P>(t_n)
+        if self._line:
+            self._setup_line(fft_effort)
+        else:
+            self._stepper = GridStepper(self, fft_effort, threads)
+            self.psi = self._stepper.psi
+
+    def _setup_line(self, fft_effort):
+        """Work arrays of the fused 1-D kernels (one electron on a line)."""
+        grid, h = self.grid, self.time_step
+        n = grid.points
+        self.block = kernels.block_size(n)
+        nb = n // self.block
+        self._fft = InPlaceFFT(n, fft_effort)
+        self.psi = self._fft.data
+        x = grid.x
+        k = grid.k
+        v = self.system.potential
+        self._x = np.ascontiguousarray(x)
+        self._k = np.ascontiguousarray(k)
+        w = self._kinetic_weights
         # static phases, one per distinct coefficient; 1/N of the inverse FFT folded in
         def vphase(c):
             return np.ascontiguousarray(np.exp(-1j * c * h * v))
@@ -239,18 +222,6 @@ class Propagator:
         self._v_ref_coarse, self._v_ref_fine = f(self._ref_coarse), f(self._ref_fine)
         self._v_ones_coarse, self._v_ones_fine = f(self._ones_coarse), f(self._ones_fine)
 
-        # field at every midpoint, precomputed so the loop does no field evaluation
-        mids = times[:-1, None] + h * self._kinetic_mid[None, :]
-        self._e_mid = np.asarray(field.electric(mids.ravel())).reshape(mids.shape) if field.pulses else np.zeros(mids.shape)
-        self._a_mid = np.asarray(field.vector_potential(mids.ravel())).reshape(mids.shape) if field.pulses else np.zeros(mids.shape)
-        e_t = field.electric(times) if field.pulses else np.zeros(len(times))
-        a_t = field.vector_potential(times) if field.pulses else np.zeros(len(times))
-        self.observables = Observables.empty(times, np.asarray(e_t, float), np.asarray(a_t, float))
-        # per-step observables measured by a callable rather than by the kernels
-        self._measured = measured_entries()
-        self.step_index = 0
-        self._pending_momentum = 0.0  # <k> of the first kinetic sub-step, for <p>(t_n)
-
     # ------------------------------------------------------------------ state
     @property
     def steps(self) -> int:
@@ -267,8 +238,8 @@ class Propagator:
         resumed run (step > 0) restores the accumulator from its checkpoint instead.
         """
         psi0 = np.asarray(psi0, dtype=complex)
-        if psi0.shape != (self.grid.points,):
-            raise ValueError(f"psi0 must have shape ({self.grid.points},), got {psi0.shape}")
+        if psi0.shape != self.grid.shape:
+            raise ValueError(f"psi0 must have the grid's shape {self.grid.shape}, got {psi0.shape}")
         if not np.all(np.isfinite(psi0)):
             raise ValueError("psi0 holds non-finite values")
         self.psi[:] = psi0
@@ -300,6 +271,8 @@ class Propagator:
         return self._v_ones_coarse, self._v_ones_fine
 
     def _position_moments(self, n):
+        if not self._line:
+            return self._stepper.position_moments(self.observables.vector_potential[n])
         a = self.observables.vector_potential[n]
         rc, rf = self._velocity_reference_phase(a)
         psi = self.psi
@@ -309,11 +282,11 @@ class Propagator:
         return float(d.sum()), float(d @ self._x), float(d @ self._grad), complex(np.vdot(r, psi))
 
     def _record_position(self, n, s0, s1, s2, ov):
-        dx = self.grid.spacing
+        dx = self.grid.volume_element
         obs = self.observables
         obs.norm[n] = s0 * dx
         obs.dipole[n] = s1 * dx
-        obs.acceleration[n] = -s2 * dx - obs.electric[n] * s0 * dx
+        obs.acceleration[n] = -s2 * dx - self._charge_sum * obs.electric[n] * s0 * dx
         obs.initial_population[n] = abs(ov * dx) ** 2
         self._force = s2 * dx  # <V'>_n, for the momentum of step n
 
@@ -325,6 +298,8 @@ class Propagator:
     def advance(self, count: int) -> int:
         """Take up to ``count`` steps; returns the number taken."""
         count = min(count, self.steps - self.step_index)
+        if not self._line:
+            return self._stepper.advance(count)
         psi = self._v_psi
         fft = self._fft
         block = self.block
@@ -375,30 +350,36 @@ class Propagator:
                     )
                     if flux is not None:
                         flux.add(psi, n + 1, float(obs.vector_potential[n + 1]), h, advance=True)
-            self._record_momentum(n)
-            self.step_index = n + 1
-            self._record_position(n + 1, s0, s1, s2, complex(ovr, ovi))
-            if self._measured:
-                self._record_measured(n + 1)
-            if not (obs.norm[n + 1] <= obs.norm[n] * (1 + 1e-9) + 1e-12):
-                what = "non-finite values in the wavefunction" if not np.isfinite(obs.norm[n + 1]) else (
-                    f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")
-                raise NumericalError(what, n + 1, float(self.times[n + 1]))
+            self._end_step(n, s0, s1, s2, complex(ovr, ovi))
         return count
 
+    def _end_step(self, n, s0, s1, s2, overlap):
+        """Record step n + 1's observables (sums without the volume element) and check the norm."""
+        obs = self.observables
+        self._record_momentum(n)
+        self.step_index = n + 1
+        self._record_position(n + 1, s0, s1, s2, overlap)
+        if self._measured:
+            self._record_measured(n + 1)
+        if not (obs.norm[n + 1] <= obs.norm[n] * (1 + 1e-9) + 1e-12):
+            what = "non-finite values in the wavefunction" if not np.isfinite(obs.norm[n + 1]) else (
+                f"the norm grew from {obs.norm[n]:.12g} to {obs.norm[n + 1]:.12g}")
+            raise NumericalError(what, n + 1, float(self.times[n + 1]))
+
     def _record_momentum(self, n):
-        """<p>(t_n) from <k> after the first potential kick of step n: that kick changes
-        <p> by exactly -c h <V' + E> (length) or -c h <V'> (velocity) and not |psi|."""
+        """<P>(t_n) from <K> after the first potential kick of step n: that kick changes
+        <P> by exactly -c h <F + W E> (length) or -c h <F> (velocity) and not |psi|,
+        with W = sum_a w_a^2 (1 for one electron)."""
         obs = self.observables
         c, _ = self._kick_parts[0][0]
         h = self.time_step
         norm = obs.norm[n]
         kick = self._force
         if self.gauge == "length":
-            kick += self._e_mid[n][0] * norm
+            kick += self._charge_sum * self._e_mid[n][0] * norm
         p = self._pending_momentum * norm + c * h * kick
         if self.gauge == "velocity":
-            p += obs.vector_potential[n] * norm
+            p += self._charge_sum * obs.vector_potential[n] * norm
         obs.momentum[n] = p
 
     def finish(self):
@@ -408,22 +389,26 @@ class Propagator:
         if self.surface_flux is not None:
             self.surface_flux.add(self._v_psi, n, float(self.observables.vector_potential[n]),
                                   -0.5 * self.time_step, advance=False)
-        saved = self.psi.copy()
-        self._fft.forward()
-        d = self.psi.real**2 + self.psi.imag**2
-        s0 = d.sum()
-        mean_k = float(d @ self._k / s0) if s0 > 0 else 0.0
-        self.psi[:] = saved
+        if self._line:
+            saved = self.psi.copy()
+            self._fft.forward()
+            d = self.psi.real**2 + self.psi.imag**2
+            s0 = d.sum()
+            mean_k = float(d @ self._k / s0) if s0 > 0 else 0.0
+            self.psi[:] = saved
+        else:
+            mean_k = self._stepper.mean_momentum()
         norm = self.observables.norm[n]
         p = mean_k * norm
         if self.gauge == "velocity":
-            p += self.observables.vector_potential[n] * norm
+            p += self._charge_sum * self.observables.vector_potential[n] * norm
         self.observables.momentum[n] = p
 
     def length_gauge_state(self) -> np.ndarray:
         """The current state in the length gauge (a copy)."""
         a = float(self.observables.vector_potential[self.step_index])
         if self.gauge == "velocity" and a != 0.0:
-            return self.psi * np.exp(1j * a * self._x)
+            x = self._x if self._line else self.system.coupling()
+            return self.psi * np.exp(1j * a * x)
         return self.psi.copy()
 

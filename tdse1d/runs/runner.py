@@ -31,6 +31,7 @@ from .. import spectra
 from ..spectra import surface_flux as _flux
 from ..physics.absorbers import ABSORBERS
 from ..physics.propagation import SCHEMES, Observables, Propagator
+from ..physics.systems import OneElectron
 from ..input.problem import Problem
 from ..physics.ionization import ionization as _ionization
 from ..physics.states import initial_wavefunction
@@ -238,11 +239,10 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     mask = absorber.step_factor(grid, problem.absorber_width, problem.time.step)
 
     prop = Propagator(
-        grid, problem.potential, problem.field, times,
+        OneElectron(grid, problem.potential, absorber_factor=mask, reference=psi0),
+        problem.field, times,
         gauge=cfg.propagation.gauge,
         scheme=SCHEMES[cfg.propagation.scheme_name],
-        absorber_factor=mask,
-        reference=psi0,
         fft_effort=fft_effort,
     )
     notes = []
