@@ -14,7 +14,10 @@ needs). Their automatic values follow the one-electron rules of
   1e-3 against an independent finite-difference solution);
 * box: inner half-width max(2 alpha, :data:`PAIR_MIN_INNER`) with alpha = E0/w^2 the
   quiver amplitude (2 alpha is the farthest a returning electron goes), plus an
-  absorber of max(:data:`PAIR_MIN_ABSORBER`, inner/4) on each side.
+  absorber of max(:data:`PAIR_MIN_ABSORBER`, inner/4) on each side;
+* time step: :data:`PAIR_TIME_STEP` (the one-electron rule's largest step; its
+  convergence for this model is measured in validation/, not assumed); field-free time
+  after the pulses as for one electron (2 cycles).
 
 The ionization potentials are those of the atom, E_ion - E_atom, and of the ion,
 -E_ion, with E_ion the ground state of the one-electron ion (soft-core, charge Z,
@@ -48,6 +51,8 @@ PAIR_MIN_ABSORBER = 20.0
 PAIR_MAX_POINTS = 4096
 #: states of the atom computed when atom.bound_states is auto
 PAIR_DEFAULT_STATES = 3
+#: automatic time step (a.u.)
+PAIR_TIME_STEP = 0.05
 
 
 def is_pair_model(config: RunConfig) -> bool:
@@ -69,6 +74,11 @@ class PairProblem:
         The lowest states of the atom, of its spin (Hartree).
     ion_states : BoundStates
         Every bound state of the one-electron ion on one axis of the grid (Hartree).
+    field : Field
+    time : TimeAxis
+        The run's steps (a.u.).
+    absorber_width : float
+        Width of the absorbing layer on each edge of each axis (bohr).
     warnings : tuple of str
     """
 
@@ -77,6 +87,9 @@ class PairProblem:
     atom: TwoElectronAtom
     states: PairStates
     ion_states: BoundStates
+    field: object = None
+    time: object = None
+    absorber_width: float = 0.0
     warnings: tuple[str, ...] = ()
 
     @property
@@ -105,16 +118,20 @@ class PairProblem:
         return np.asarray(self.states.energies) < self.ion_energy
 
 
+def _inner_half_width(field) -> float:
+    alpha = max((p.peak_field / p.omega**2 for p in field.pulses), default=0.0)
+    return max(2 * alpha, PAIR_MIN_INNER)
+
+
 def _pair_grid(config: RunConfig, field) -> Grid:
     """The grid of each axis: the input's, or the automatic rule of the module docstring."""
-    alpha = max((p.peak_field / p.omega**2 for p in field.pulses), default=0.0)
     up = max((p.peak_field**2 / (4 * p.omega**2) for p in field.pulses), default=0.0)
     spacing = config.grid.spacing
     if spacing is None:
         spacing = PAIR_MAX_SPACING if up == 0 else min(PAIR_MAX_SPACING, math.pi / (6 * math.sqrt(up)))
     points = config.grid.points
     if points is None:
-        inner = max(2 * alpha, PAIR_MIN_INNER)
+        inner = _inner_half_width(field)
         half_width = inner + max(PAIR_MIN_ABSORBER, inner / 4)
         points = fast_fft_size(int(math.ceil(2 * half_width / spacing)))
     if points > PAIR_MAX_POINTS:
@@ -142,7 +159,7 @@ def build_pair_problem(config: RunConfig, with_states: bool = True) -> PairProbl
     InputError
         For a grid the model cannot use, or an initial state not found.
     """
-    from .problem import build_field
+    from .problem import AFTER_PULSE_CYCLES, FIELD_FREE_DURATION, TimeAxis, build_field
 
     if not is_pair_model(config):
         raise InputError("is not a two-electron model", "atom.model", config.source)
@@ -160,4 +177,19 @@ def build_pair_problem(config: RunConfig, with_states: bool = True) -> PairProbl
                      "Hartree")
     if top > 0 and not states.energies[top] < ion_states.energies[0]:
         notes.append(f"the initial state {top} lies above the ion's ground state: it is not bound")
-    return PairProblem(config, grid, atom, states, ion_states, tuple(notes))
+    prop = config.propagation
+    dt = prop.time_step if prop.time_step is not None else PAIR_TIME_STEP
+    if prop.after_pulse is not None:
+        after = prop.after_pulse
+    else:
+        after = AFTER_PULSE_CYCLES * 2 * math.pi / field.omega if field.pulses else FIELD_FREE_DURATION
+    start, end = field.start, field.end + after
+    time = TimeAxis(start, end, max(1, int(math.ceil((end - start) / dt - 1e-9))))
+    width = config.absorber.width
+    if width is None:
+        width = max(PAIR_MIN_ABSORBER, _inner_half_width(field) / 4)
+    if config.absorber.type != "none" and not width < grid.half_width - 10.0:
+        raise InputError(f"absorbing layers of {width:.4g} bohr leave no room for the atom in a box of "
+                         f"+-{grid.half_width:.4g} bohr: narrow the absorber or enlarge the grid", "absorber.width",
+                         config.source)
+    return PairProblem(config, grid, atom, states, ion_states, field, time, width, tuple(notes))
