@@ -39,7 +39,7 @@ from ..physics.states import BoundStates, bound_states
 from ..physics.states_2d import PairStates, pair_states
 from ..physics.two_electron import TwoElectronAtom
 
-__all__ = ["PairProblem", "build_pair_problem", "is_pair_model", "PAIR_MAX_SPACING", "PAIR_MAX_POINTS"]
+__all__ = ["PairProblem", "build_pair_problem", "check_pair_absorber", "is_pair_model", "PAIR_MAX_SPACING", "PAIR_MAX_POINTS"]
 
 #: coarsest automatic spacing (bohr): the ground state within 2e-6 Hartree (see above)
 PAIR_MAX_SPACING = 0.4
@@ -188,8 +188,31 @@ def build_pair_problem(config: RunConfig, with_states: bool = True) -> PairProbl
     width = config.absorber.width
     if width is None:
         width = max(PAIR_MIN_ABSORBER, _inner_half_width(field) / 4)
-    if config.absorber.type != "none" and not width < grid.half_width - 10.0:
-        raise InputError(f"absorbing layers of {width:.4g} bohr leave no room for the atom in a box of "
-                         f"+-{grid.half_width:.4g} bohr: narrow the absorber or enlarge the grid", "absorber.width",
-                         config.source)
     return PairProblem(config, grid, atom, states, ion_states, field, time, width, tuple(notes))
+
+
+#: smallest unabsorbed half-width (bohr) a run may leave: the bound states (the
+#: neutral's outer electron decays as exp(-sqrt(2 Ip1) |x|), 1e-9 of its density beyond
+#: 8 bohr in the standard model) and the regions' radii (pair_regions.RADII, up to 15)
+PAIR_MIN_UNABSORBED = 16.0
+
+
+def check_pair_absorber(problem: PairProblem) -> None:
+    """Refuse, before a run (the states are found on any box), absorbing layers that
+    leave less than :data:`PAIR_MIN_UNABSORBED` bohr unabsorbed on each side.
+
+    Raises
+    ------
+    InputError
+        Naming ``absorber.width``.
+    """
+    config = problem.config
+    if config.absorber.type == "none":
+        return
+    inner = problem.grid.half_width - problem.absorber_width
+    if inner < PAIR_MIN_UNABSORBED:
+        given = "" if config.absorber.width is not None else " (the automatic width)"
+        raise InputError(f"absorbing layers of {problem.absorber_width:.4g} bohr{given} leave +-{inner:.4g} bohr "
+                         f"unabsorbed in a box of +-{problem.grid.half_width:.4g} bohr, less than the "
+                         f"{PAIR_MIN_UNABSORBED:g} bohr the atom and the regions of its readings need: narrow the "
+                         "absorber or enlarge the grid (grid.points)", "absorber.width", config.source)
