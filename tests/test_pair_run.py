@@ -106,3 +106,32 @@ def test_memory_flat_in_snapshots_and_snapshots_decimated():
     _run(dataclasses.replace(few, time=short),
          snapshot_sink=lambda i, t, d: got.append((i, t, d.shape, d.dtype)))
     assert [g[0] for g in got] == [0, 1] and all(g[2] == (24, 24) for g in got)
+
+
+def test_run_command_writes_the_declared_file(tmp_path, capsys):
+    import h5py
+
+    from tdse1d.cli import program as cli
+    from tdse1d.io.layout import RESULT_LAYOUT
+
+    path = tmp_path / "he.toml"
+    path.write_text('[atom]\nmodel = "two-electron"\n[[laser]]\nphoton_energy = "1 au"\npeak_field = 0.3\n'
+                    'cycles = 1\n[grid]\npoints = 96\nspacing = 0.4\n[absorber]\nwidth = "3 bohr"\n'
+                    '[propagation]\nafter_pulse = "1 au"\n[output]\nsnapshots = 3\nsnapshot_stride = 4\n')
+    out = tmp_path / "he.h5"
+    assert cli.main(["run", str(path), "-o", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "double / single" in text and "sequential estimate" in text
+    pair_paths = {e.path for e in RESULT_LAYOUT if e.path.startswith("two_electron")}
+    with h5py.File(out) as f:
+        assert f.attrs["complete"]
+        written = set()
+        f.visititems(lambda name, obj: written.add(name) if isinstance(obj, h5py.Dataset) else None)
+        datasets = {p for p in pair_paths if "@" not in p}
+        assert datasets <= written, datasets - written
+        assert f["two_electron/snapshots/density"].shape == (3, 24, 24)
+        r = f["two_electron/regions/double_ionization"]
+        assert r.shape == (3, f.attrs["steps"] + 1)
+    # a run of the same input with --resume is refused in one line (not offered yet)
+    assert cli.main(["run", str(path), "-o", str(tmp_path / "again.h5"), "--resume", "--quiet"]) == 2
+    assert "--resume is not offered" in capsys.readouterr().err

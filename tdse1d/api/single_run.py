@@ -25,7 +25,7 @@ from ..input.problem import Problem, build_problem
 from ..physics.states import BoundStates
 
 __all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "StatesResult", "PairStatesResult",
-           "EstimateResult", "RunOutcome", "output_path", "default_control"]
+           "EstimateResult", "RunOutcome", "PairRunOutcome", "run_pair_problem", "output_path", "default_control"]
 
 
 @dataclass(frozen=True)
@@ -309,11 +309,67 @@ def run(config: RunConfig | Problem | str, output=None, progress=None, overrides
     tdse1d.runs.runner.RunInterrupted
         When ``control`` asked to stop; the checkpoint is written, the partial file removed.
     """
+    from ..input.pair_problem import PairProblem, build_pair_problem, is_pair_model
+
     if isinstance(config, Problem):
         return run_problem(config, output, progress, resume=resume, control=control, strict=strict)
+    if isinstance(config, PairProblem):
+        return run_pair_problem(config, output, progress, resume=resume)
     if not isinstance(config, RunConfig):
         config = load_input(config, overrides)
+    if is_pair_model(config):
+        return run_pair_problem(build_pair_problem(config), output, progress, resume=resume)
     return run_problem(build_problem(config), output, progress, resume=resume, control=control, strict=strict)
+
+
+@dataclass(frozen=True)
+class PairRunOutcome:
+    """A finished run of the two-electron atom: its file, its problem and its result
+    (:class:`~tdse1d.runs.pair_runner.PairRunResult`)."""
+
+    path: Path
+    problem: object
+    result: object
+    notes: tuple = field(default=())
+    stopped_late: bool = False
+
+    def __repr__(self) -> str:
+        r = self.result
+        seq = "" if r.sequential is None else f", sequential {r.sequential.ratio:.3g}"
+        return (f"<PairRunOutcome {self.path.name}: {self.problem.time.steps} steps on {self.problem.grid.points}^2, "
+                f"single {r.final('single_ionization'):.3g}, double {r.final('double_ionization'):.3g}, "
+                f"ratio {r.ratio:.3g}{seq}>")
+
+
+def run_pair_problem(problem, output=None, progress=None, resume=False) -> PairRunOutcome:
+    """:func:`run` for a :class:`~tdse1d.input.pair_problem.PairProblem`: propagate the
+    two-electron atom and write its result file (``--resume`` is not offered yet)."""
+    from ..errors import OutputError
+    from ..input.pair_problem import check_pair_absorber
+    from ..input.spec import InputError
+    from ..io.guarded_file import describe_os_error
+    from ..io.pair_result_file import PairResultWriter
+    from ..io.result_file import refuse_reason
+    from ..runs.pair_runner import check_pair_memory, simulate_pair, snapshot_shape, snapshot_times
+
+    config = problem.config
+    if resume:
+        raise InputError("--resume is not offered for the two-electron atom yet: run it from the start",
+                         "atom.model", config.source)
+    path = output_path(config, output)
+    reason = refuse_reason(path)
+    if reason is not None:
+        raise InputError(reason, _output_key(config, output), config.source)
+    check_pair_absorber(problem)
+    check_pair_memory(problem)  # before anything is allocated
+    try:
+        with PairResultWriter(path, problem, snapshot_times(problem), snapshot_shape(problem)) as writer:
+            result = simulate_pair(problem, snapshot_sink=writer.snapshot, progress=progress)
+            writer.write_result(result)
+            writer.close()
+    except OSError as exc:
+        raise OutputError(describe_os_error(exc, path)) from None
+    return PairRunOutcome(path, problem, result)
 
 
 def default_control(config: RunConfig):

@@ -221,10 +221,9 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
     """
     atom = config.atom
     if getattr(POTENTIALS[atom.model], "dimensions", 1) != 1:
-        # its states: tdse1d.input.pair_problem; its propagation needs the N-D core
-        raise InputError(f"the {atom.model} model's wavefunction has two coordinates: 'tdse1d states' finds its "
-                         "states; time propagation of it is not available in this version", "atom.model",
-                         config.source)
+        # its states and its run: tdse1d.input.pair_problem, tdse1d.runs.pair_runner
+        raise InputError(f"the {atom.model} model's wavefunction has two coordinates: 'tdse1d states' and "
+                         "'tdse1d run' take it, this command does not yet", "atom.model", config.source)
     field = build_field(config)
     potential = _potential(config)
     notes = []

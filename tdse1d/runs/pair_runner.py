@@ -31,7 +31,8 @@ from ..physics.propagation import SCHEMES, Propagator
 from ..physics.states import _blas_controller
 from ..semiclassical.double_ionization import knee_estimate, sequential_double_ionization
 
-__all__ = ["PairRunResult", "simulate_pair", "pair_memory_bytes", "snapshot_shape", "THREADS"]
+__all__ = ["PairRunResult", "simulate_pair", "pair_memory_bytes", "check_pair_memory", "snapshot_shape",
+           "snapshot_steps", "snapshot_times", "THREADS", "MEMORY_SHARE"]
 
 #: FFTW threads of the 2-D step (the machine's cores, at most 2 unless told otherwise)
 THREADS = max(1, min(2, os.cpu_count() or 1))
@@ -57,6 +58,42 @@ def pair_memory_bytes(problem: PairProblem) -> int:
     states = len(problem.states) * size * 8
     snap = int(np.prod(snapshot_shape(problem))) * 4
     return (_COMPLEX_ARRAYS * 16 + _REAL_ARRAYS * 8) * size + states + snap + records
+
+
+#: largest share of the machine's available memory a run may plan to hold
+MEMORY_SHARE = 0.8
+
+
+def check_pair_memory(problem: PairProblem) -> None:
+    """Refuse, before anything is allocated, a run that would not fit in memory.
+
+    Raises
+    ------
+    InputError
+        Naming ``grid.points``, with the estimate and what is available.
+    """
+    from ..input.spec import InputError
+
+    need = pair_memory_bytes(problem)
+    try:
+        available = os.sysconf("SC_AVPHYS_PAGES") * os.sysconf("SC_PAGE_SIZE")
+    except (ValueError, OSError, AttributeError):  # not offered on this system
+        return
+    if need > MEMORY_SHARE * available:
+        raise InputError(f"the run would hold about {need / 2**30:.2f} GiB ({problem.grid.points}^2 points), more "
+                         f"than {MEMORY_SHARE:.0%} of the {available / 2**30:.2f} GiB available: use fewer points",
+                         "grid.points", problem.config.source)
+
+
+def snapshot_steps(problem: PairProblem) -> np.ndarray:
+    """Steps of the ``output.snapshots`` snapshots, first and last included."""
+    count, steps = problem.config.output.snapshots, problem.time.steps
+    return np.unique(np.round(np.linspace(0, steps, count)).astype(int)) if count > 0 else np.zeros(0, int)
+
+
+def snapshot_times(problem: PairProblem) -> np.ndarray:
+    """Times (a.u.) of the snapshots."""
+    return problem.time.times[snapshot_steps(problem)]
 
 
 @dataclass
@@ -165,8 +202,7 @@ def _propagate(problem, prop, psi0, snapshot_sink, progress, radii, clock):
     times = problem.time.times
     prop.start(psi0)
     steps = problem.time.steps
-    count = cfg.output.snapshots
-    snaps = np.unique(np.round(np.linspace(0, steps, count)).astype(int)) if count > 0 else np.zeros(0, int)
+    snaps = snapshot_steps(problem)
     stride = cfg.output.snapshot_stride
     events = np.unique(np.concatenate([snaps, [steps], np.arange(0, steps, max(1, steps // 100))]))
     snap_index = {int(s): i for i, s in enumerate(snaps)}
