@@ -56,10 +56,13 @@ def test_radius_outside_the_range_fails(pieces, radius):
     assert not np.allclose(got, WEIGHTS, atol=1e-2), got
 
 
-def test_recorder_attributes_the_absorbed_norm_to_its_region(pieces):
-    # an absorber that takes half of the density beyond |x| = 30 (on either axis)
+@pytest.mark.parametrize("separable", [True, False])
+def test_recorder_attributes_the_absorbed_norm_to_its_region(pieces, separable):
+    # an absorber that takes half of the density beyond |x| = 30 on either axis (a
+    # product of one layer per axis, the recorder's fast path), or half of it beyond
+    # 30 bohr on any axis taken once (not a product: the general path)
     keep = np.where(np.abs(X) > 30, np.sqrt(0.5), 1.0)
-    m = keep[:, None] * keep[None, :]
+    m = keep[:, None] * keep[None, :] if separable else np.minimum(keep[:, None], keep[None, :])
     recorder = RegionRecorder(X, GRID.spacing, m, radii=RADII)
     before = recorder.record(pieces, after_step=False)  # the initial state
     after = recorder.record(pieces * m)
