@@ -132,6 +132,49 @@ def test_run_command_writes_the_declared_file(tmp_path, capsys):
         assert f["two_electron/snapshots/density"].shape == (3, 24, 24)
         r = f["two_electron/regions/double_ionization"]
         assert r.shape == (3, f.attrs["steps"] + 1)
-    # a run of the same input with --resume is refused in one line (not offered yet)
-    assert cli.main(["run", str(path), "-o", str(tmp_path / "again.h5"), "--resume", "--quiet"]) == 2
-    assert "--resume is not offered" in capsys.readouterr().err
+    # --resume has no checkpoint to continue from (none is written yet): it says so
+    assert cli.main(["run", str(path), "-o", str(tmp_path / "again.h5"), "--resume", "--quiet"]) == 0
+    assert "writes no checkpoint yet" in capsys.readouterr().err
+
+
+def test_knee_scan_gathers_and_draws(tmp_path, capsys):
+    import h5py
+
+    from tdse1d.cli import program as cli
+
+    base = tmp_path / "he.toml"
+    base.write_text('[atom]\nmodel = "two-electron"\n[[laser]]\nphoton_energy = "1 au"\npeak_field = 0.2\n'
+                    'cycles = 1\n[grid]\npoints = 96\nspacing = 0.4\n[absorber]\nwidth = "3 bohr"\n'
+                    '[propagation]\nafter_pulse = "1 au"\n[output]\nsnapshots = 0\n')
+    plan = tmp_path / "plan.toml"
+    plan.write_text('base = "he.toml"\nmode = "grid"\n[[axis]]\nkey = "laser.0.peak_field"\nvalues = [0.2, 0.4]\n')
+    out = tmp_path / "scan"
+    for k in (0, 1):
+        assert cli.main(["scan", str(plan), "-o", str(out), "--point", str(k), "--quiet"]) == 0
+    assert cli.main(["scan", str(plan), "-o", str(out), "--gather", "--quiet"]) == 0
+    with h5py.File(out / "summary.h5") as f:
+        single, double = f["knee/single"][()], f["knee/double"][()]
+        assert np.all(double > 0) and np.all(single > double)
+        # law: a stronger field ionizes more, once and twice
+        assert single[1] > single[0] and double[1] > double[0]
+    capsys.readouterr()
+    assert cli.main(["plot", str(out / "summary.h5"), "--what", "knee", "-o", str(tmp_path / "knee.png")]) == 0
+    assert (tmp_path / "knee.png").stat().st_size > 1000
+
+
+def test_a_stop_request_ends_the_run_and_leaves_no_file(tmp_path):
+    from tdse1d.api import single_run as api
+    from tdse1d.runs.pair_runner import PairRunStopped
+    from tdse1d.runs.runner import RunControl
+
+    problem = _problem(absorber__width=3.0)
+    control = RunControl(None)
+
+    def stop_after_first_chunk(step, steps):
+        if step > 0:
+            control.request_stop()
+
+    out = tmp_path / "stopped.h5"
+    with pytest.raises(PairRunStopped):
+        api.run(problem, out, progress=stop_after_first_chunk, control=control)
+    assert list(tmp_path.iterdir()) == []  # neither the file nor its .part nor the lock

@@ -601,6 +601,8 @@ SHORTER = {
                                 "output.snapshots=4"],
     "molecular_ion_800nm.toml": ["laser.0.cycles=2", "laser.0.ramp_cycles=0.5", 'propagation.after_pulse="0.5 fs"',
                                  "output.snapshots=4"],
+    "helium_780nm.toml": ["laser.0.cycles=0.2", "grid.points=96", "grid.spacing=0.4", 'absorber.width="3 bohr"',
+                          'propagation.after_pulse="1 au"', "output.snapshots=2"],
 }
 
 

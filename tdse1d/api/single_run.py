@@ -314,11 +314,11 @@ def run(config: RunConfig | Problem | str, output=None, progress=None, overrides
     if isinstance(config, Problem):
         return run_problem(config, output, progress, resume=resume, control=control, strict=strict)
     if isinstance(config, PairProblem):
-        return run_pair_problem(config, output, progress, resume=resume)
+        return run_pair_problem(config, output, progress, resume=resume, control=control)
     if not isinstance(config, RunConfig):
         config = load_input(config, overrides)
     if is_pair_model(config):
-        return run_pair_problem(build_pair_problem(config), output, progress, resume=resume)
+        return run_pair_problem(build_pair_problem(config), output, progress, resume=resume, control=control)
     return run_problem(build_problem(config), output, progress, resume=resume, control=control, strict=strict)
 
 
@@ -341,9 +341,9 @@ class PairRunOutcome:
                 f"ratio {r.ratio:.3g}{seq}>")
 
 
-def run_pair_problem(problem, output=None, progress=None, resume=False) -> PairRunOutcome:
+def run_pair_problem(problem, output=None, progress=None, resume=False, control=None) -> PairRunOutcome:
     """:func:`run` for a :class:`~tdse1d.input.pair_problem.PairProblem`: propagate the
-    two-electron atom and write its result file (``--resume`` is not offered yet)."""
+    two-electron atom and write its result file (no checkpoint yet: ``resume`` runs from the start)."""
     from ..errors import OutputError
     from ..input.pair_problem import check_pair_absorber
     from ..input.spec import InputError
@@ -353,9 +353,9 @@ def run_pair_problem(problem, output=None, progress=None, resume=False) -> PairR
     from ..runs.pair_runner import check_pair_memory, simulate_pair, snapshot_shape, snapshot_times
 
     config = problem.config
-    if resume:
-        raise InputError("--resume is not offered for the two-electron atom yet: run it from the start",
-                         "atom.model", config.source)
+    # no checkpoint is written for the two-electron atom yet, so there is none to resume
+    # from: a run from the start, as for a one-electron run without a checkpoint
+    notes = ("the two-electron atom writes no checkpoint yet: --resume ran it from the start",) if resume else ()
     path = output_path(config, output)
     reason = refuse_reason(path)
     if reason is not None:
@@ -364,12 +364,12 @@ def run_pair_problem(problem, output=None, progress=None, resume=False) -> PairR
     check_pair_memory(problem)  # before anything is allocated
     try:
         with PairResultWriter(path, problem, snapshot_times(problem), snapshot_shape(problem)) as writer:
-            result = simulate_pair(problem, snapshot_sink=writer.snapshot, progress=progress)
+            result = simulate_pair(problem, snapshot_sink=writer.snapshot, progress=progress, control=control)
             writer.write_result(result)
             writer.close()
     except OSError as exc:
         raise OutputError(describe_os_error(exc, path)) from None
-    return PairRunOutcome(path, problem, result)
+    return PairRunOutcome(path, problem, result, notes=notes)
 
 
 def default_control(config: RunConfig):

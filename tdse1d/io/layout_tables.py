@@ -140,10 +140,6 @@ _PAIR_ROWS = (
         ("knockout_field", FIELD, "peak field where 3.17 Up = Ip2"),
         ("knockout_intensity_W_cm2", "W/cm^2", "peak intensity where 3.17 Up = Ip2"),
     ), "attribute"),
-    *_entries("two_electron/harmonic", PAIR, (
-        ("order", "1", "harmonic order of the total dipole acceleration's spectrum", "(F,)"),
-        ("power", "atomic_units", "|FFT of the windowed total acceleration|^2", "(F,)"),
-    )),
     *_entries("two_electron/snapshots", PAIR, (
         ("time", T, "snapshot times", "(Q,)"),
         ("x", "bohr", "positions of the stored points of each axis (every snapshot_stride-th)", "(N/stride,)"),
@@ -343,7 +339,19 @@ RESULT_LAYOUT: tuple[Entry, ...] = (
 )
 
 SCAN_RUN = "a scan that has at least one finished point"
+PAIR_SCAN = "a scan of the two-electron atom"
 SUMMARY_LAYOUT: tuple[Entry, ...] = (
+    *_entries("knee", PAIR_SCAN, (
+        ("single", "1", "single ionization of each point after its run (reported radius; NaN: not finished)",
+         "(points,)"),
+        ("double", "1", "double ionization of each point after its run", "(points,)"),
+        ("ratio", "1", "double over single ionization of each point", "(points,)"),
+        ("ratio_low", "1", "lowest double-to-single ratio over the region radii", "(points,)"),
+        ("ratio_high", "1", "highest double-to-single ratio over the region radii", "(points,)"),
+        ("sequential_single", "1", "singly charged ions of the sequential estimate", "(points,)"),
+        ("sequential_double", "1", "doubly charged ions of the sequential estimate", "(points,)"),
+        ("peak_intensity_W_cm2", "W/cm^2", "peak intensity of each point", "(points,)"),
+    )),
     *_entries("", ALWAYS, (
         ("kind", "text", '"scan-summary"'),
         ("complete", "flag", "true (a summary is written under a temporary name, then renamed)"),

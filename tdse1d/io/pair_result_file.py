@@ -82,8 +82,9 @@ class PairResultWriter:
         snaps = g.require_group("snapshots")
         write_dataset(snaps, "time", snapshot_times)
         write_dataset(snaps, "x", p.grid.x[::cfg.output.snapshot_stride])
+        chunks = (1,) + shape if len(snapshot_times) else None  # HDF5 refuses chunks of an empty dataset
         self._density = write_dataset(snaps, "density", create=dict(
-            shape=(len(snapshot_times),) + shape, dtype="f4", chunks=(1,) + shape))
+            shape=(len(snapshot_times),) + shape, dtype="f4", chunks=chunks))
 
     def snapshot(self, index, time, density):
         """Store one density snapshot (the run's ``snapshot_sink``)."""
@@ -126,11 +127,32 @@ class PairResultWriter:
                             "return_energy": result.knee.return_energy,
                             "knockout_field": result.knee.knockout_field,
                             "knockout_intensity_W_cm2": units.field_to_intensity(result.knee.knockout_field)})
-        if result.harmonic is not None:
-            h = g.require_group("harmonic")
+        if result.harmonic is not None:  # the spectrum of the total acceleration, where every run's is
+            h = f.require_group("spectra").require_group("harmonic")
+            write_dataset(h, "frequency", result.harmonic.frequency)
             write_dataset(h, "order", result.harmonic.order)
             write_dataset(h, "power", result.harmonic.power)
+            h.attrs["window"] = self.problem.config.spectra.window
+        ion = f.require_group("ionization")  # every run's total: single plus double
+        write_dataset(ion, "probability", 1.0 - result.final("neutral"))
+        write_dataset(ion, "absorbed", 1.0 - float(obs.norm[-1]))
+        self._estimates(result)
         f.attrs["warnings"] = "\n".join(result.warnings)
+
+    def _estimates(self, result):
+        """The semiclassical numbers of each pulse for the atom's Ip1 (where every run keeps
+        them; the barrier-suppression field of the atom is not computed: NaN)."""
+        from ..semiclassical.estimates import as_attributes, pulse_estimate
+
+        p = self.problem
+        pulses = [pulse_estimate(q.omega, q.peak_field, p.ionization_potential, math.nan) for q in p.field.pulses]
+        if not pulses:
+            return
+        est = self.file.require_group("estimates")
+        est.attrs["units"] = "atomic units unless the name says otherwise"
+        est.attrs.update(as_attributes(pulses[0]))
+        for i, q in enumerate(pulses):
+            est.require_group(f"pulse_{i}").attrs.update(as_attributes(q))
 
     def close(self):
         """Mark the file complete (last), sync, rename it to its final name, release the lock."""
