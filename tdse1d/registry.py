@@ -39,8 +39,9 @@ class Parameter:
     ----------
     name : str
         The key, e.g. ``"depth_parameter"``.
-    kind : {"float", "int", "quantity"}
-        How the value is read (a quantity takes a unit, e.g. ``"1.4 bohr"``).
+    kind : {"float", "int", "quantity", "choice"}
+        How the value is read (a quantity takes a unit, e.g. ``"1.4 bohr"``; a choice
+        is one of the strings ``choices``).
     default : object
         Value when the key is absent (None: required or chosen elsewhere).
     doc : str
@@ -49,10 +50,12 @@ class Parameter:
         For quantities, a key of :data:`tdse1d.units.DIMENSIONS` (``"length"``...).
     minimum, maximum : float, optional
         Allowed range; ``strict`` makes the minimum exclusive.
+    choices : tuple of str, optional
+        The allowed values of a ``"choice"`` key.
     """
 
     def __init__(self, name, kind, default=None, doc="", dimension=None, minimum=None, maximum=None,
-                 strict=True):
+                 strict=True, choices=()):
         self.name = name
         self.kind = kind
         self.default = default
@@ -61,6 +64,7 @@ class Parameter:
         self.minimum = minimum
         self.maximum = maximum
         self.strict = strict
+        self.choices = tuple(choices)
 
     def __repr__(self):
         return f"Parameter({self.name!r}, {self.kind!r}, default={self.default!r})"

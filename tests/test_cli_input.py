@@ -223,7 +223,11 @@ def test_examples_are_found():
 @pytest.mark.parametrize("name", run_inputs())
 def test_states_json(name):
     result = json_of("states", str(INPUTS / name), "--json")
-    assert set(result) == {"softening", "energies"}
+    raw = tomllib.loads((INPUTS / name).read_text())
+    if raw["atom"].get("model") == "two-electron":  # also its ion's energies and both Ips
+        assert set(result) >= {"softening", "energies", "ion_energies", "ionization_potential"}
+    else:
+        assert set(result) == {"softening", "energies"}
     energies = np.array(result["energies"])
     assert len(energies) >= 1 and np.all(np.diff(energies) > 0) and np.all(energies < 0)
     assert result["softening"] is None or result["softening"] > 0
@@ -250,7 +254,12 @@ ESTIMATE_KEYS = {
 }
 
 
-@pytest.mark.parametrize("name", run_inputs())
+def one_electron_inputs():
+    # 'tdse1d estimate' is not offered for the two-electron atom yet (docs/input.md)
+    return [n for n in run_inputs() if tomllib.loads((INPUTS / n).read_text())["atom"].get("model") != "two-electron"]
+
+
+@pytest.mark.parametrize("name", one_electron_inputs())
 def test_estimate_json(name):
     result = json_of("estimate", str(INPUTS / name), "--json")
     assert ESTIMATE_KEYS <= set(result)

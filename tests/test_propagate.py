@@ -604,6 +604,8 @@ SHORTER = {
     "xuv_line_in_infrared.toml": ["laser.0.cycles=6", 'laser.1.fwhm="2 fs"', "grid.points=512", "grid.spacing=0.3",
                                   "propagation.time_step=0.1", 'propagation.after_pulse="0.3 fs"',
                                   "output.snapshots=4"],
+    "helium_780nm.toml": ["laser.0.cycles=0.2", "grid.points=96", "grid.spacing=0.4", 'absorber.width="3 bohr"',
+                          'propagation.after_pulse="1 au"', "output.snapshots=2"],
 }
 
 

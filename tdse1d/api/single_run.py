@@ -24,7 +24,8 @@ from ..semiclassical.estimates import GridAdvice, PulseEstimate, estimates_json
 from ..input.problem import Problem, build_problem
 from ..physics.states import BoundStates
 
-__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "StatesResult", "EstimateResult", "RunOutcome", "output_path", "default_control"]
+__all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "StatesResult", "PairStatesResult",
+           "EstimateResult", "RunOutcome", "PairRunOutcome", "run_pair_problem", "output_path", "default_control"]
 
 
 @dataclass(frozen=True)
@@ -62,6 +63,45 @@ class StatesResult:
 
 
 @dataclass(frozen=True)
+class PairStatesResult:
+    """States of the two-electron atom of an input on its own 2-D grid, with its ion's."""
+
+    problem: object  # tdse1d.input.pair_problem.PairProblem
+
+    @property
+    def states(self):
+        return self.problem.states
+
+    @property
+    def rms_extent(self):
+        """Root-mean-square extent <x1^2>^1/2 of one electron in each state (bohr)."""
+        import numpy as np
+
+        grid = self.problem.grid
+        density = self.states.wavefunctions**2
+        return np.sqrt(np.sum(density * grid.x[None, :, None] ** 2, axis=(1, 2)) * grid.spacing**2)
+
+    def to_json(self) -> dict:
+        """The energies as the one-electron model's (``softening``, ``energies``), with the
+        model's other parameters, the ion's energies and both ionization potentials
+        (atomic units: bohr, hartree)."""
+        p = self.problem
+        return {"softening": p.atom.softening, "repulsion_softening": p.atom.repulsion_softening,
+                "charge": p.atom.charge, "spin": p.atom.spin,
+                "energies": [float(e) for e in self.states.energies],
+                "bound": [bool(b) for b in p.bound],
+                "ion_energies": [float(e) for e in p.ion_states.energies],
+                "ionization_potential": p.ionization_potential,
+                "ion_ionization_potential": p.ion_ionization_potential}
+
+    def __repr__(self) -> str:
+        e = self.states.energies
+        g = self.problem.grid
+        return (f"<PairStatesResult {len(e)} {self.problem.atom.spin} states on {g.points}^2 points, E0 {e[0]:.6f} Eh, "
+                f"Ip {self.problem.ionization_potential:.6f} / ion {self.problem.ion_ionization_potential:.6f} Eh>")
+
+
+@dataclass(frozen=True)
 class EstimateResult:
     """Semiclassical estimates of an input's pulses, the advised grid, and the memory and
     disk the run as given needs (:class:`tdse1d.runs.resources.ResourceEstimate`, bytes)."""
@@ -94,7 +134,7 @@ class EstimateResult:
         return f"<EstimateResult {', '.join(parts)}>"
 
 
-def find_states(config: RunConfig | str, count: int | None = None) -> StatesResult:
+def find_states(config: RunConfig | str, count: int | None = None) -> StatesResult | PairStatesResult:
     """Bound states of the model on the run's own grid (``tdse1d states``).
 
     Parameters
@@ -106,9 +146,10 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
 
     Returns
     -------
-    StatesResult
+    StatesResult or PairStatesResult
         Energies (hartree), wavefunctions, the fitted softening (bohr) and the
-        states' extent (bohr).
+        states' extent (bohr); for the two-electron atom (``PairStatesResult``) also
+        its ion's energies and the ionization potentials of atom and ion (hartree).
     """
     if not isinstance(config, RunConfig):
         config = load_input(config)
@@ -116,6 +157,10 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
         from dataclasses import replace
 
         config = replace(config, atom=replace(config.atom, bound_states=count))
+    from ..input.pair_problem import build_pair_problem, is_pair_model
+
+    if is_pair_model(config):
+        return PairStatesResult(build_pair_problem(config))
     return StatesResult(build_problem(config))
 
 
@@ -294,10 +339,16 @@ def run(config: RunConfig | Problem | str, output=None, progress=None, overrides
     tdse1d.runs.runner.RunInterrupted
         When ``control`` asked to stop; the checkpoint is written, the partial file removed.
     """
+    from ..input.pair_problem import PairProblem, build_pair_problem, is_pair_model
+
     if isinstance(config, Problem):
         return run_problem(config, output, progress, resume=resume, control=control, strict=strict)
+    if isinstance(config, PairProblem):
+        return run_pair_problem(config, output, progress, resume=resume, control=control)
     if not isinstance(config, RunConfig):
         config = load_input(config, overrides)
+    if is_pair_model(config):
+        return run_pair_problem(build_pair_problem(config), output, progress, resume=resume, control=control)
     return run_problem(build_problem(config), output, progress, resume=resume, control=control, strict=strict)
 
 
@@ -326,6 +377,56 @@ def _write_extra(h5, analysis, sfa):
         from ..io.sfa_file import write_sfa
 
         write_sfa(h5, *sfa)
+
+
+@dataclass(frozen=True)
+class PairRunOutcome:
+    """A finished run of the two-electron atom: its file, its problem and its result
+    (:class:`~tdse1d.runs.pair_runner.PairRunResult`)."""
+
+    path: Path
+    problem: object
+    result: object
+    notes: tuple = field(default=())
+    stopped_late: bool = False
+
+    def __repr__(self) -> str:
+        r = self.result
+        seq = "" if r.sequential is None else f", sequential {r.sequential.ratio:.3g}"
+        return (f"<PairRunOutcome {self.path.name}: {self.problem.time.steps} steps on {self.problem.grid.points}^2, "
+                f"single {r.final('single_ionization'):.3g}, double {r.final('double_ionization'):.3g}, "
+                f"ratio {r.ratio:.3g}{seq}>")
+
+
+def run_pair_problem(problem, output=None, progress=None, resume=False, control=None) -> PairRunOutcome:
+    """:func:`run` for a :class:`~tdse1d.input.pair_problem.PairProblem`: propagate the
+    two-electron atom and write its result file (no checkpoint yet: ``resume`` runs from the start)."""
+    from ..errors import OutputError
+    from ..input.pair_problem import check_pair_absorber
+    from ..input.spec import InputError
+    from ..io.guarded_file import describe_os_error
+    from ..io.pair_result_file import PairResultWriter
+    from ..io.result_file import refuse_reason
+    from ..runs.pair_runner import check_pair_memory, simulate_pair, snapshot_shape, snapshot_times
+
+    config = problem.config
+    # no checkpoint is written for the two-electron atom yet, so there is none to resume
+    # from: a run from the start, as for a one-electron run without a checkpoint
+    notes = ("the two-electron atom writes no checkpoint yet: --resume ran it from the start",) if resume else ()
+    path = output_path(config, output)
+    reason = refuse_reason(path)
+    if reason is not None:
+        raise InputError(reason, _output_key(config, output), config.source)
+    check_pair_absorber(problem)
+    check_pair_memory(problem)  # before anything is allocated
+    try:
+        with PairResultWriter(path, problem, snapshot_times(problem), snapshot_shape(problem)) as writer:
+            result = simulate_pair(problem, snapshot_sink=writer.snapshot, progress=progress, control=control)
+            writer.write_result(result)
+            writer.close()
+    except OSError as exc:
+        raise OutputError(describe_os_error(exc, path)) from None
+    return PairRunOutcome(path, problem, result, notes=notes)
 
 
 def default_control(config: RunConfig):

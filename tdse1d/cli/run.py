@@ -99,9 +99,12 @@ def main(args):
     started = time.time()
     from ..input.problem import build_problem
 
+    from ..runs.pair_runner import PairRunStopped
     from ..runs.runner import RunInterrupted
 
-    problem = build_problem(config)
+    from ..input.pair_problem import build_pair_problem, is_pair_model
+
+    problem = build_pair_problem(config) if is_pair_model(config) else build_problem(config)
     for w in problem.warnings:
         print(f"tdse1d: warning: {w}", file=sys.stderr)
     bar = _ProgressBar(problem, show)
@@ -111,6 +114,10 @@ def main(args):
         with fftw_wisdom():
             outcome = api.run(problem, args.output, progress=bar, resume=args.resume,
                                       control=control, strict=args.strict)
+    except PairRunStopped as exc:  # no checkpoint: the partial file is removed
+        bar.close()
+        print(f"tdse1d: {exc}", file=sys.stderr)
+        return EXIT_INTERRUPTED
     except RunInterrupted as exc:
         bar.close()
         from ..runs.checkpoint import checkpoint_path
@@ -131,6 +138,8 @@ def main(args):
         print(f"tdse1d: warning: {w}", file=sys.stderr)
     if args.quiet:
         return 0
+    if isinstance(outcome, api.PairRunOutcome):
+        return _pair_summary(outcome, started)
     p, r = outcome.problem, outcome.result
     ev = units.HARTREE_EV
     print(f"wrote {outcome.path} in {time.time() - started:.1f} s "
@@ -146,4 +155,29 @@ def main(args):
                 if cut.frequency == cut.frequency else cut.reason)
         print(f"  harmonic cutoff        Ip + 3.17 Up = {est.cutoff_energy * ev:.2f} eV (order {est.cutoff_order:.1f}); "
               f"read off the spectrum: {read}")
+    return 0
+
+
+def _pair_summary(outcome, started):
+    """The summary of a run of the two-electron atom."""
+    p, r = outcome.problem, outcome.result
+    ev = units.HARTREE_EV
+    print(f"wrote {outcome.path} in {time.time() - started:.1f} s ({p.time.steps} steps on {p.grid.points}^2 points)")
+    print(f"  Ip of the atom / ion   {p.ionization_potential * ev:.4f} / {p.ion_ionization_potential * ev:.4f} eV")
+    print(f"  final norm             {r.observables.norm[-1]:.6f}")
+    radius = r.radii[0]
+    for kind in ("neutral", "single_ionization", "double_ionization"):
+        values = [r.final(kind, k) for k in range(len(r.radii))]
+        print(f"  {kind.replace('_', ' '):<22} {values[0]:.4e}  (R = {radius:g} bohr; {min(values):.3e} to "
+              f"{max(values):.3e} over R = {', '.join(f'{x:g}' for x in r.radii)} bohr)")
+    low, high = r.ratio_spread
+    print(f"  double / single        {r.ratio:.3e}  ({low:.3e} to {high:.3e} over R)")
+    if r.sequential is not None:
+        print(f"  sequential estimate    {r.sequential.ratio:.3e}  (independent tunnelling of atom, then ion)")
+    if r.knee is not None:
+        k = r.knee
+        verdict = "above" if k.direct_knockout else "below"
+        print(f"  3.17 Up = {k.return_energy * ev:.2f} eV is {verdict} the ion's Ip "
+              f"{k.ion_ip * ev:.2f} eV (direct knock-out from "
+              f"{units.field_to_intensity(k.knockout_field):.3g} W/cm^2)")
     return 0

@@ -273,6 +273,10 @@ def build_problem(config: RunConfig, with_states: bool = True) -> Problem:
         an initial state that does not exist.
     """
     atom = config.atom
+    if getattr(POTENTIALS[atom.model], "dimensions", 1) != 1:
+        # its states and its run: tdse1d.input.pair_problem, tdse1d.runs.pair_runner
+        raise InputError(f"the {atom.model} model's wavefunction has two coordinates: 'tdse1d states' and "
+                         "'tdse1d run' take it, this command does not yet", "atom.model", config.source)
     field = build_field(config)
     potential = _potential(config)
     notes = []

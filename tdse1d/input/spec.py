@@ -114,7 +114,7 @@ def parameter_spec(parameter) -> Spec:
     """The :class:`Spec` of a key declared by a registered part as a
     :class:`tdse1d.registry.Parameter`."""
     return Spec(parameter.kind, parameter.dimension, minimum=parameter.minimum, strict=parameter.strict,
-                maximum=parameter.maximum, doc=parameter.doc)
+                maximum=parameter.maximum, doc=parameter.doc, choices=getattr(parameter, "choices", ()))
 
 
 def _check_range(value, spec: Spec, path: str):

@@ -236,3 +236,8 @@ class HarmonicOscillator(Potential):
 
     def describe(self):
         return f"harmonic oscillator, w={self.frequency:g}"
+
+
+# the two-electron atom lives in its own module; importing it here registers it with
+# every other model, before any input is read
+from . import two_electron  # noqa: E402,F401

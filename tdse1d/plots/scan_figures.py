@@ -8,6 +8,12 @@ it through the command's table of file kinds. Styling follows :mod:`tdse1d.plots
     Harmonic spectrum (log colour, each row normalised to its maximum) against photon
     energy and the scanned parameter, with the semiclassical cutoff Ip + 3.17 Up drawn
     over it and the cutoffs read off the spectra as markers.
+``knee``
+    A scan of the two-electron atom: single and double ionization against the scanned
+    parameter, with the sequential estimate of each (independent tunnelling of the
+    atom, then the ion), and the double-to-single ratio with its spread over the region
+    radii against the sequential one (the "knee": Walker et al., Phys. Rev. Lett. 73,
+    1227 (1994), from memory, for the measured effect).
 ``cutoff-fit``
     Cutoff read off each spectrum against Up, the least-squares line through them, and
     the semiclassical lines Ip + 3.17 Up (Krause, Schafer and Kulander, Phys. Rev. Lett.
@@ -24,7 +30,7 @@ from ..io.layout import find
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from .run_figures import DENSITY_CMAP, LOG_RANGE_SPECTROGRAM, _figure
 
-__all__ = ["FIGURES", "map_figure", "cutoff_fit_figure"]
+__all__ = ["FIGURES", "map_figure", "cutoff_fit_figure", "knee_figure"]
 
 
 def _scan_axis(f):
@@ -106,5 +112,40 @@ def cutoff_fit_figure(f, cache=None):
     return fig
 
 
+def knee_figure(f, cache=None):
+    """Single and double ionization, and their ratio, against the scanned parameter, with
+    the sequential estimate (a scan of the two-electron atom)."""
+    if "knee" not in f:
+        fig, (ax,) = _figure(1)
+        ax.text(0.5, 0.5, "not a scan of the two-electron atom", ha="center", va="center", transform=ax.transAxes)
+        return fig
+    k = f["knee"]
+    values, label = _scan_axis(f)
+    order = np.argsort(values)
+    v = values[order]
+    fig, (top, bottom) = _figure(2, height=6.5)
+    for name, seq, colour, text in (("single", "sequential_single", "tab:blue", "single"),
+                                    ("double", "sequential_double", "tab:red", "double")):
+        top.plot(v, k[name][()][order], "o-", color=colour, label=f"{text} ionization (TDSE)")
+        top.plot(v, k[seq][()][order], "--", color=colour, label=f"{text}, sequential estimate")
+    top.set_yscale("log")
+    top.set_ylabel("probability")
+    top.legend(fontsize=8, frameon=False)
+    ratio = k["ratio"][()][order]
+    low, high = k["ratio_low"][()][order], k["ratio_high"][()][order]
+    bottom.errorbar(v, ratio, yerr=[np.clip(ratio - low, 0, None), np.clip(high - ratio, 0, None)], fmt="o-",
+                    color="black", capsize=3, label="double / single (TDSE; bars: region radii)")
+    seq = k["sequential_double"][()][order] / k["sequential_single"][()][order]
+    bottom.plot(v, seq, "--", color="grey", label="sequential estimate")
+    bottom.set_yscale("log")
+    bottom.set_ylabel("double / single")
+    bottom.set_xlabel(label)
+    bottom.legend(fontsize=8, frameon=False)
+    for ax in (top, bottom):
+        if np.all(v > 0) and v[-1] / v[0] > 5:
+            ax.set_xscale("log")
+    return fig
+
+
 #: figure name -> function(open summary file, cache) -> Figure
-FIGURES = {"map": map_figure, "cutoff-fit": cutoff_fit_figure}
+FIGURES = {"map": map_figure, "cutoff-fit": cutoff_fit_figure, "knee": knee_figure}

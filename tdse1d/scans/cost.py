@@ -28,6 +28,15 @@ def estimate_cost(config: RunConfig) -> float:
         fld = build_field(config)
     except InputError:
         return math.nan
+    from ..input.pair_problem import PAIR_TIME_STEP, _pair_grid, is_pair_model
+
+    if is_pair_model(config):  # the two-electron atom: points^2 per step
+        grid = _pair_grid(config, fld)
+        dt = config.propagation.time_step or PAIR_TIME_STEP
+        after = config.propagation.after_pulse
+        if after is None:
+            after = AFTER_PULSE_CYCLES * 2 * math.pi / fld.omega if fld.pulses else FIELD_FREE_DURATION
+        return float(grid.points**2 * max((fld.end + after - fld.start) / dt, 1.0))
     ip = config.atom.ionization_potential or 0.5
     _, advice = model_estimates(_potential(config), fld, ip)
     spacing = config.grid.spacing or advice.spacing

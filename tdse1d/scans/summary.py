@@ -74,12 +74,28 @@ def _read_point(path) -> _PointData:
             "direct_edge": _scalar(f, layout_path("spectra/photoelectron/edges/direct")),
             "backscattered_edge": _scalar(f, layout_path("spectra/photoelectron/edges/backscattered")),
             "tunnelling": _last(f, layout_path("classical/tunnelling/probability")),
+            "pair": _pair_yields(f),
         }
         stored_w, stored = f[layout_path("spectra/harmonic/frequency")][()], f[layout_path("spectra/harmonic/power")][()]
     if stored.shape != spec.power.shape or not np.allclose(stored, spec.power, rtol=1e-8, atol=0):
         # the run computed its spectrum differently: keep its power, no phase
         return _PointData(stored_w * units.HARTREE_EV, stored, np.full(stored.shape, np.nan + 0j), attrs)
     return _PointData(spec.frequency * units.HARTREE_EV, spec.power, spec.amplitude, attrs)
+
+
+def _pair_yields(f) -> dict | None:
+    """Single and double ionization of a two-electron run with its sequential estimate
+    (None for a one-electron run)."""
+    if "two_electron/regions" not in f:
+        return None
+    g = f["two_electron"]
+    seq = g["sequential"] if "sequential" in g else None
+    ratio = g["ratio"].attrs
+    return {"single": float(g["regions/single_ionization"][0, -1]), "double": float(g["regions/double_ionization"][0, -1]),
+            "ratio": float(ratio["quantum"]), "ratio_low": float(ratio["quantum_low"]),
+            "ratio_high": float(ratio["quantum_high"]),
+            "sequential_single": float(seq["single"][-1]) if seq is not None else math.nan,
+            "sequential_double": float(seq["double"][-1]) if seq is not None else math.nan}
 
 
 def _or_nan(value) -> float:
@@ -278,6 +294,14 @@ def write_summary(plan, directory) -> Summary:
                                   "resolved cutoff; semiclassical: slope 3.17, intercept Ip (or 1.32 Ip)")
         for k, v in (fit or {}).items():
             g.attrs[k] = v
+        if any(d.attrs.get("pair") for d in present):  # a scan of the two-electron atom: the knee
+            knee = f.create_group("knee")
+            for name in ("single", "double", "ratio", "ratio_low", "ratio_high", "sequential_single",
+                         "sequential_double"):
+                write_dataset(knee, name, column(lambda d, r, name=name: (d.attrs["pair"] or {}).get(name, math.nan)),
+                              layout=SUMMARY_LAYOUT)
+            write_dataset(knee, "peak_intensity_W_cm2", column(
+                lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)), layout=SUMMARY_LAYOUT)
         _write_focal(f, plan, energy, power, amplitude)
     os.replace(tmp, sd.summary)
     return Summary(sd.summary, fit)

@@ -264,5 +264,5 @@ def _tunnelling_yield(outcome) -> float:
     try:
         return float(tunnelling_yield(obs.time, obs.electric, outcome.problem.potential,
                                       -outcome.problem.ionization_potential)[-1])
-    except (ValueError, ArithmeticError):
+    except (ValueError, ArithmeticError, TypeError):  # TypeError: a model of two coordinates
         return math.nan

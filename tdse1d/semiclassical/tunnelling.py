@@ -355,11 +355,37 @@ def tunnelling_yield(time, electric, potential, energy):
         raise ValueError("time and electric must be finite")
     if not np.all(np.diff(time) > 0.0):
         raise ValueError("time must be strictly increasing")
+    rate = tunnelling_rates(electric, potential, energy)
+    return -np.expm1(-cumulative_trapezoid(rate, time, initial=0.0))
+
+
+def tunnelling_rates(electric, potential, energy):
+    """The rate of :func:`tunnelling_rate` at each sample of a field history, from a
+    table of field strengths per field sign (as :func:`tunnelling_yield` uses it).
+
+    Parameters
+    ----------
+    electric : array_like
+        Electric field samples ``E(t)`` (a.u.).
+    potential : object
+        Has ``value(x)`` and ``gradient(x)``, see the module docstring.
+    energy : float
+        Bound-state energy (hartree, negative).
+
+    Returns
+    -------
+    ndarray
+        Rate (1 / a.u. of time), shaped like ``electric``.
+    """
+    energy = _check_potential(potential, energy)
+    electric = np.asarray(electric, dtype=float)
+    if not np.all(np.isfinite(electric)):
+        raise ValueError("electric must be finite")
     period = classical_period(potential, energy)
-    rate = np.zeros(time.shape)
+    rate = np.zeros(electric.shape)
     for sign in (1, -1):
         chosen = sign * electric > 0.0
         if chosen.any():
             table = _RateTable(_oriented(potential, sign), energy, period)
             rate[chosen] = table(np.abs(electric[chosen]))
-    return -np.expm1(-cumulative_trapezoid(rate, time, initial=0.0))
+    return rate
