@@ -410,8 +410,7 @@ def run_pair_problem(problem, output=None, progress=None, resume=False, control=
     from ..runs.pair_runner import check_pair_memory, simulate_pair, snapshot_shape, snapshot_times
 
     config = problem.config
-    # no checkpoint is written for the two-electron atom yet, so there is none to resume
-    # from: a run from the start, as for a one-electron run without a checkpoint
+    # no checkpoint is written for the two-electron atom yet: --resume runs from the start
     notes = ("the two-electron atom writes no checkpoint yet: --resume ran it from the start",) if resume else ()
     path = output_path(config, output)
     reason = refuse_reason(path)

@@ -160,6 +160,8 @@ def main(args):
 
 def _pair_summary(outcome, started):
     """The summary of a run of the two-electron atom."""
+    from .. import units
+
     p, r = outcome.problem, outcome.result
     ev = units.HARTREE_EV
     print(f"wrote {outcome.path} in {time.time() - started:.1f} s ({p.time.steps} steps on {p.grid.points}^2 points)")

@@ -26,7 +26,8 @@ import scipy.fft
 from scipy.sparse.linalg import LinearOperator, lobpcg
 
 from .grid import Grid
-from .states import _blas_controller, _window, bound_states
+from .states import _window, bound_states
+from .threads import one_blas_thread
 from .two_electron import TwoElectronAtom
 
 __all__ = ["PairStates", "pair_states", "apply_pair_hamiltonian", "PAIR_WINDOW"]
@@ -154,7 +155,7 @@ def _lobpcg(grid: Grid, atom: TwoElectronAtom, guess: np.ndarray, tolerance: flo
     pre_op = LinearOperator((size, size), matvec=pre, matmat=pre, dtype=float)
     # LOBPCG warns when it stops at maxiter (the residuals are checked below); its small
     # dense products run on one BLAS thread, as the 1-D solver's (faster on shared cores)
-    with warnings.catch_warnings(), _blas_controller().limit(limits=1, user_api="blas"):
+    with warnings.catch_warnings(), one_blas_thread():
         warnings.simplefilter("ignore")
         energies, vectors = lobpcg(op, guess, M=pre_op, tol=0.1 * np.sqrt(tolerance), maxiter=iterations,
                                    largest=False)

@@ -28,7 +28,7 @@ from ..physics.grid import Grid
 from ..physics.pair_regions import RADII, double_ionization_momenta
 from ..physics.pair_system import TwoElectrons, region_observable_names
 from ..physics.propagation import SCHEMES, Propagator
-from ..physics.states import _blas_controller
+from ..physics.threads import one_blas_thread
 from ..semiclassical.double_ionization import knee_estimate, sequential_double_ionization
 
 __all__ = ["PairRunResult", "PairRunStopped", "simulate_pair", "pair_memory_bytes", "check_pair_memory", "snapshot_shape",
@@ -203,7 +203,7 @@ def simulate_pair(problem: PairProblem, snapshot_sink=None, progress=None, fft_e
     # one BLAS thread: the overlaps and sums of the loop are short BLAS calls, and a
     # threaded BLAS spinning beside FFTW's threads on shared cores was measured 10 to
     # 100 times slower (7 against 300 ms a step on a 200^2 grid at a load of 9)
-    with _blas_controller().limit(limits=1, user_api="blas"):
+    with one_blas_thread():
         return _propagate(problem, prop, psi0, snapshot_sink, progress, radii, clock, control)
 
 
