@@ -29,10 +29,14 @@ changes that parameter alone):
     sum over n > sqrt(L) of n^-3 ~ 1/L: first order, so the error factor of a doubled
     box is 2 / (2 - 1) = 2 (:func:`~tdse1d.analysis.certification.richardson_factor`).
 
-The runs are Dask tasks on a local cluster of single-threaded worker processes
-(:func:`tdse1d.scans.execute.open_local_client`), longest first; each runs through
-:func:`tdse1d.scans.worker.run_point` (the function a scan's points run through) and
-reads its quantities off its own file (:func:`tdse1d.io.analysis_file.analyse_file`).
+The run as given runs in the calling process while a local Dask cluster of
+single-threaded worker processes starts (:func:`tdse1d.scans.execute.open_local_client`);
+the longest companions go to the workers, one each, and the others run in the calling
+process after the run as given, where the imports and compiled kernels are loaded
+already (a worker pays seconds of start-up and imports before its first run). Each
+companion runs through :func:`tdse1d.scans.worker.run_point` (the function a scan's
+points run through) and reads its quantities off its own file
+(:func:`tdse1d.io.analysis_file.analyse_file`), as the report reads them.
 The spreads (:mod:`tdse1d.analysis.certification`) are written into the main file
 (:mod:`tdse1d.io.certification_file`); the companions' files are removed unless kept.
 """
@@ -308,9 +312,10 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
                     client=None) -> CertifiedRun:
     """Run a problem and its companions in parallel and store every quantity's spread.
 
-    The companions run on a local Dask cluster (or ``client``), longest first; the run
-    as given runs meanwhile in this process, where its problem is already built, so
-    that it overlaps the start of the cluster's workers.
+    The longest companions run on a local Dask cluster (or ``client``), one per worker;
+    the run as given runs meanwhile in this process, where its problem is already
+    built, so that it overlaps the start of the cluster's workers, and then the
+    remaining companions, where the imports and compiled kernels are already loaded.
 
     Parameters
     ----------
@@ -322,8 +327,9 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
     keep_companions : bool
         Keep the companion files in :func:`companion_directory` (else removed).
     workers : int, optional
-        Worker processes of the local Dask cluster for the companions (default: the
-        cores, at most one per companion).
+        Worker processes of the local Dask cluster (default: the cores but one, at
+        least one, at most one per companion but one); each runs one of the longest
+        companions, and this process the others after the run as given.
     client : distributed.Client, optional
         Use this client instead of a local cluster (and leave it open).
 
@@ -363,11 +369,13 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
     companions = plan_companions(problem)
     tasks = [(c.name, companion_config(problem.config, c), folder / f"{c.name}.h5")
              for c in sorted(companions, key=lambda c: -c.cost)]  # longest first
-    # the cheapest companion runs here after the run as given: this process has its
-    # imports and compiled kernels already, while each worker pays its start-up and
-    # imports (seconds) before its first run (docs/performance.md, "Certified runs")
-    remote, here = (tasks[:-1], tasks[-1:]) if len(tasks) > 1 else (tasks, [])
-    n_workers = workers or min(os.cpu_count() or 1, len(remote))
+    # this process computes too: it runs the run as given, then the companions the
+    # workers are not given, cheapest last. It has its imports and compiled kernels
+    # already, while each worker pays its start-up and imports (seconds) before its
+    # first run, so the cluster gets one worker per remaining core and the longest
+    # companions (docs/performance.md, "Certified runs")
+    n_workers = workers or max(1, min((os.cpu_count() or 1) - 1, len(tasks) - 1))
+    remote, here = tasks[:n_workers], tasks[n_workers:]
     records, failure = {}, []
     thread = threading.Thread(target=_run_companions, args=(remote, n_workers, client, records, failure),
                               name="tdse1d-certify-companions", daemon=True)
