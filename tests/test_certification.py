@@ -45,24 +45,35 @@ def _analysis(**changes):
 # ------------------------------------------------------------------ quantities
 
 
-def test_quantities_read_what_the_analysis_holds():
-    q = quantities(_analysis())
-    assert q == {"harmonic_cutoff": 2.0, "ionization_probability": 0.1, "direct_edge": 0.7,
-                 "backscattered_edge": 3.5, "emission_time_short": 2.0, "emission_time_long": 0.5,
-                 "line_shift": 0.33, "ground_state_energy": -0.58, "ionization_potential": 0.58}
-    assert set(q) <= set(QUANTITIES) and set(QUANTITY_UNITS) == set(QUANTITIES)
+def _row(key, quantum, **kw):
+    from tdse1d.analysis.report import Row
+
+    return Row(key.replace("_", " "), key, 1.0, "test", quantum, math.nan, "hartree", "", **kw)
 
 
-def test_quantities_leave_out_what_does_not_apply_or_was_not_read():
-    unresolved = CutoffEstimate(math.nan, math.nan, -3.0, 0.6, np.zeros(1), False, reason="unresolved")
-    q = quantities(_analysis(cutoff=unresolved, harmonic_cutoff=math.nan, emission=None,
-                             edges=PhotoelectronEdges(0.7, math.nan, -4.0, -2.0, np.zeros(1)),
-                             ponderomotive=PonderomotiveShift(False, "no comb", math.nan, UP)))
-    for absent in ("harmonic_cutoff", "backscattered_edge", "emission_time_short", "emission_time_long",
-                   "line_shift", "streaking_shift", "sideband_spacing"):
-        assert absent not in q
-    streak = StreakingShift(100.0, 2.0, 1.6, 0.2, 1.45, 1.8, 0.175, 1.2)
-    assert quantities(_analysis(streaking=streak))["streaking_shift"] == 0.175
+def test_quantum_values_are_the_values_the_rows_show():
+    from tdse1d.analysis.report import quantum_values
+
+    table = [_row("harmonic_cutoff", 2.0), _row("harmonic_cutoff", 2.0), _row("direct_edge", 0.7),
+             _row("backscattered_edge", math.nan, reason="below the noise floor")]
+    assert quantum_values(table) == {"harmonic_cutoff": 2.0, "direct_edge": 0.7}
+    # the null: two rows of one key showing different numbers have no single value to certify
+    with pytest.raises(ValueError, match="two values"):
+        quantum_values([_row("harmonic_cutoff", 2.0), _row("harmonic_cutoff", 2.1)])
+
+
+def test_every_report_key_has_a_unit_and_a_tolerance():
+    # the keys of every row the report can build (the source of the report's rows)
+    import re
+
+    import tdse1d.analysis.report as report
+
+    source = Path(report.__file__).read_text()
+    keys = set(re.findall(r'b\.add\([^,]+,\s*f?"([a-z_{}]+)"', source))
+    keys = {k for k in keys if "{" not in k} | {"sideband_below", "sideband_above", "emission_time_short",
+                                                  "emission_time_long"}
+    assert keys <= set(QUANTITIES), keys - set(QUANTITIES)
+    assert set(QUANTITY_UNITS) == set(QUANTITIES) and set(tolerances(_analysis())) == set(QUANTITIES)
 
 
 def test_tolerances_follow_the_run_scales():
@@ -139,7 +150,7 @@ def test_two_parameters_beyond_tolerance_are_both_named():
 
 
 def test_null_identical_companions_give_zero_spread_and_converged():
-    main = quantities(_analysis())
+    main = {"harmonic_cutoff": 2.0, "ionization_probability": 0.1, "direct_edge": 0.7, "line_shift": -0.33}
     tol = tolerances(_analysis())
     out = certify_quantities(main, [(p, dict(main), 2.0) for p in PARAMETER_ADVICE], tol)
     assert set(out) == set(main)
@@ -219,6 +230,34 @@ def test_end_to_end_certified_run_writes_and_reads_back(certified):
         assert f.attrs["grid_points"] == 1024 and f.attrs["absorber_width"] == pytest.approx(
             2 * h5py.File(done.path, "r").attrs["absorber_width"])
     assert len(repr(done)) < 300
+
+
+def test_certified_values_are_the_report_s_quantum_values(certified):
+    """One reading, one place: each stored /certification/{key}/value is the number the
+    report shows for that key (the quantum value, or for a row not converged the middle
+    of the range it shows instead), read here from the file and from ``tdse1d.report``;
+    a quantity the report does not show has no certification (the null: a value read by
+    another rule, or a quantity with no row, would fail this)."""
+    from tdse1d import api
+
+    inp, done = certified
+    shown = {}
+    for r in api.report(done.path).rows:
+        if r.unconverged_range:
+            value = 0.5 * (r.unconverged_range[0] + r.unconverged_range[1])
+        else:
+            value = r.quantum
+        if math.isfinite(value):
+            shown.setdefault(r.key, []).append(value)
+    with h5py.File(done.path, "r") as f:
+        stored = {k: f[f"certification/{k}/value"][()] for k in f["certification"] if k != "companions"}
+    assert set(stored) == set(shown), (set(stored) ^ set(shown))
+    assert "harmonic_cutoff" in stored and "ionization_probability" in stored
+    for key, value in stored.items():
+        # the middle of value +- u is the value to rounding: 1e-12 relative
+        assert all(v == pytest.approx(value, rel=1e-12, abs=1e-15) for v in shown[key]), key
+    for absent in ("streaking_shift", "line_shift", "sideband_below", "sideband_above"):
+        assert absent not in stored  # a harmonic run shows no XUV rows
 
 
 def test_reader_gives_empty_dicts_for_an_uncertified_file(tmp_path):

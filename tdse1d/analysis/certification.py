@@ -46,7 +46,8 @@ QUANTITY_UNITS = {
     "emission_time_long": "atomic_unit_of_time",
     "streaking_shift": "atomic_unit_of_momentum",
     "line_shift": "hartree",
-    "sideband_spacing": "hartree",
+    "sideband_below": "hartree",
+    "sideband_above": "hartree",
     "ground_state_energy": "hartree",
     "ionization_potential": "hartree",
 }
@@ -64,32 +65,15 @@ PARAMETER_ADVICE = {
 # ------------------------------------------------------------------ the quantities
 
 
-def _finite(value):
-    value = float(value)
-    return value if math.isfinite(value) else None
-
-
-def _emission_median(emission, branch):
-    """Median over the rows nearer ``branch`` of (quantum - classical ``branch`` time), a.u.
-
-    The classical branch time is a function of the field alone (no grid, no step), so
-    the spread of this difference between runs is the spread of the quantum times.
-    """
-    if emission is None or not np.size(emission.quantum):
-        return None
-    rows = emission.dominant_branch() == branch
-    if not np.any(rows):
-        return None
-    dev = np.asarray(emission.quantum)[rows] - np.asarray(getattr(emission, branch))[rows]
-    dev = dev[np.isfinite(dev)]
-    return float(np.median(dev)) if dev.size else None
-
-
 def quantities(analysis) -> dict[str, float]:
-    """The reported quantities of a run, keyed as :data:`QUANTITIES` (atomic units).
+    """The reported quantities of a run: the report's quantum value of each row key.
 
-    A quantity that does not apply to the run, or that could not be read (NaN: below
-    the noise floor, no plateau), is absent.
+    One reading, one place: the rows are built by :func:`tdse1d.analysis.report.rows`
+    with no numerical part, and each key's quantum value is taken as the report shows
+    it (:func:`tdse1d.analysis.report.quantum_values`), so that the spread certified for
+    a key is the spread of the number the report shows for it. A quantity the report
+    does not show for this run (no such row, or a value left out below the noise
+    floor) is absent.
 
     Parameters
     ----------
@@ -98,35 +82,23 @@ def quantities(analysis) -> dict[str, float]:
     Returns
     -------
     dict of str to float
-        ``harmonic_cutoff``, ``direct_edge``, ``backscattered_edge``, ``line_shift``
-        (the ponderomotive shift of the ATI comb), ``sideband_spacing``,
+        Key (:data:`QUANTITIES`) -> value in its unit (:data:`QUANTITY_UNITS`):
+        ``harmonic_cutoff`` (middle of the cutoff rules' range), ``direct_edge``,
+        ``backscattered_edge``, ``line_shift`` (the row of the run's regime: ATI comb
+        shift, photoelectric line, or the XUV line's shift in the infrared field),
+        ``sideband_below``, ``sideband_above`` (distance from the main line),
         ``ground_state_energy``, ``ionization_potential`` in hartree;
-        ``emission_time_short`` and ``emission_time_long`` (median of the quantum
-        emission time minus the classical one over the rows nearer that branch) in a.u.
-        of time; ``streaking_shift`` (the measured momentum shift) in a.u. of
-        momentum; ``ionization_probability`` a probability.
+        ``emission_time_short`` and ``emission_time_long`` (after the field crest) in
+        a.u. of time; ``streaking_shift`` in a.u. of momentum;
+        ``ionization_probability`` a probability.
     """
-    out = {}
-    cut = analysis.cutoff
-    if cut is not None and cut.resolved:
-        out["harmonic_cutoff"] = _finite(analysis.harmonic_cutoff)
-    out["ionization_probability"] = _finite(analysis.ionization_probability)
-    if analysis.edges is not None:
-        out["direct_edge"] = _finite(analysis.edges.direct)
-        out["backscattered_edge"] = _finite(analysis.edges.backscattered)
-    out["emission_time_short"] = _emission_median(analysis.emission, "short")
-    out["emission_time_long"] = _emission_median(analysis.emission, "long")
-    if analysis.streaking is not None:
-        out["streaking_shift"] = _finite(analysis.streaking.measured)
-    pond = analysis.ponderomotive
-    if pond is not None and pond.measurable:
-        out["line_shift"] = _finite(pond.measured)
-    spacing = getattr(analysis, "sideband_spacing", None)  # a reading other analyses may add
-    if spacing is not None:
-        out["sideband_spacing"] = _finite(spacing)
-    out["ground_state_energy"] = _finite(analysis.ground_state_energy)
-    out["ionization_potential"] = _finite(analysis.ionization_potential)
-    return {k: v for k, v in out.items() if v is not None}
+    from .report import quantum_values, rows
+
+    values = quantum_values(rows(analysis))
+    unknown = set(values) - set(QUANTITY_UNITS)
+    if unknown:  # a report row this module has no unit or tolerance for
+        raise ValueError(f"report keys without a certification unit: {sorted(unknown)}")
+    return values
 
 
 # ------------------------------------------------------------------ the tolerances
@@ -164,7 +136,8 @@ def tolerances(analysis) -> dict[str, Tolerance]:
       compared with (at least 1e-3 a.u.).
     * line shift: 0.05 Up, half of the 10 % within which the ponderomotive shift
       should reproduce -Up.
-    * sideband spacing: 0.02 w, a fiftieth of the IR photon it is compared with.
+    * sidebands (distance of each from the main line): 0.02 w, a fiftieth of the IR
+      photon it is compared with.
     * ground-state energy and Ip: 1e-4 hartree (2.7 meV), far below the energy
       resolution 2 pi / duration of any spectrum of a run (~5e-3 hartree for a
       10-cycle 800 nm pulse): a larger move means the grid no longer resolves the atom.
@@ -194,7 +167,8 @@ def tolerances(analysis) -> dict[str, Tolerance]:
         "emission_time_long": (0.02 * period, "0.02 optical periods: leaves the branch assignment unchanged"),
         "streaking_shift": (max(0.05 * a_ir, 1e-3), "5 % of the classical shift A_IR(t_XUV)"),
         "line_shift": (0.05 * up, "0.05 Up: half of the 10 % within which the shift should give -Up"),
-        "sideband_spacing": (0.02 * w, "0.02 of the IR photon energy the spacing is compared with"),
+        "sideband_below": (0.02 * w, "0.02 of the IR photon energy the distance is compared with"),
+        "sideband_above": (0.02 * w, "0.02 of the IR photon energy the distance is compared with"),
         "ground_state_energy": (1e-4, "1e-4 hartree, far below the energy resolution of any spectrum of the run"),
         "ionization_potential": (1e-4, "1e-4 hartree, far below the energy resolution of any spectrum of the run"),
     }

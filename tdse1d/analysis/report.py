@@ -200,6 +200,37 @@ def _derived_rows(b, derived):
                       note=f"{spectrum.title}: {column.description} (docs/output.md)")
 
 
+def quantum_values(table: list[Row]) -> dict[str, float]:
+    """Each row key's quantum value as the report shows it (atomic units, :data:`UNITS`).
+
+    Rows of one key show one value (the cutoff's three predictions share one reading);
+    a key whose value the report leaves out (below the noise floor, not converged: NaN)
+    is absent, so that nothing is certified that the report does not show.
+
+    Parameters
+    ----------
+    table : list of Row
+
+    Returns
+    -------
+    dict of str to float
+        Key -> quantum value, in row order.
+
+    Raises
+    ------
+    ValueError
+        Two rows of one key show different values (one key, one number).
+    """
+    out = {}
+    for r in table:
+        if not math.isfinite(r.quantum):
+            continue
+        if r.key in out and out[r.key] != r.quantum:
+            raise ValueError(f"rows of {r.key!r} show two values, {out[r.key]!r} and {r.quantum!r}")
+        out[r.key] = float(r.quantum)
+    return out
+
+
 def _scaled(reading, factor):
     from dataclasses import replace
 
@@ -244,7 +275,7 @@ def _xuv_rows(b, a):
                    "(docs/analysis.md); the electron leaves the pulse without regaining its quiver energy; "
                    "model part: rms spectral width of the XUV pulse")
         for name, r in (("below", d.below), ("above", d.above)):
-            b.add(f"sideband {name} the line", "sideband_spacing", w, "one infrared photon", math.nan, "energy",
+            b.add(f"sideband {name} the line", f"sideband_{name}", w, "one infrared photon", math.nan, "energy",
                   reading=r, effect=w, model_u=sigma,
                   note="quantum: distance from the main line (rules: parabola, centroid); model part: rms spectral "
                        "width of the XUV pulse")

@@ -29,10 +29,15 @@ changes that parameter alone):
     sum over n > sqrt(L) of n^-3 ~ 1/L: first order, so the error factor of a doubled
     box is 2 / (2 - 1) = 2 (:func:`~tdse1d.analysis.certification.richardson_factor`).
 
-The runs are Dask tasks on a local cluster of single-threaded worker processes
-(:func:`tdse1d.scans.execute.open_local_client`), longest first; each runs through
-:func:`tdse1d.scans.worker.run_point` (the function a scan's points run through) and
-reads its quantities off its own file (:func:`tdse1d.io.analysis_file.analyse_file`).
+The run as given runs in the calling process while a local Dask cluster of
+single-threaded worker processes starts (:func:`tdse1d.scans.execute.open_local_client`);
+then the workers and the calling process take the companions from one queue, the
+longest not yet started first, each when its run ends (the calling process has its
+imports and compiled kernels loaded already; a worker pays seconds of start-up and
+imports before its first run). Each
+companion runs through :func:`tdse1d.scans.worker.run_point` (the function a scan's
+points run through) and reads its quantities off its own file
+(:func:`tdse1d.io.analysis_file.analyse_file`), as the report reads them.
 The spreads (:mod:`tdse1d.analysis.certification`) are written into the main file
 (:mod:`tdse1d.io.certification_file`); the companions' files are removed unless kept.
 """
@@ -152,10 +157,11 @@ def plan_companions(problem) -> tuple[Companion, ...]:
 
 
 def companion_config(config: RunConfig, companion: Companion) -> RunConfig:
-    """The companion's input: the main input with its overrides, no snapshots, and
-    not itself certified (its ``[certification]`` table removed)."""
+    """The companion's input: the main input with its overrides, no snapshots, no SFA,
+    and not itself certified (its ``[certification]`` table removed)."""
     raw = {k: v for k, v in config.raw.items() if k != "certification"}
-    for key, value in (*companion.overrides, ("output.snapshots", 0)):
+    # a companion is read for the report's quantities alone: no snapshots, no SFA
+    for key, value in (*companion.overrides, ("output.snapshots", 0), ("spectra.sfa", False)):
         raw = apply_override(raw, key, value)
     raw.get("output", {}).pop("file", None)  # the companion's file is named by the campaign
     return parse_input(raw, source=f"{config.source} ({companion.name} companion)", base_dir=config.base_dir)
@@ -271,8 +277,16 @@ def _run_main(problem, path: Path) -> dict:
     return _read_back({"status": "done", "seconds": time.perf_counter() - started}, path)
 
 
-def _run_companions(tasks, n_workers, client, records, failure):
-    """Run ``tasks`` (name, config, path) on Dask, longest first; fill ``records``."""
+def _take(pending, lock):
+    """The longest companion not yet started (removed from ``pending``), or None."""
+    with lock:
+        return pending.pop(0) if pending else None
+
+
+def _run_companions(pending, lock, n_workers, client, records, failure):
+    """Run companions taken from ``pending`` (name, config, path; longest first, shared
+    with the calling process under ``lock``) on Dask, one per worker at a time, each
+    worker taking the next when its run ends; fill ``records``."""
     from distributed import as_completed
 
     from .execute import open_local_client
@@ -282,19 +296,26 @@ def _run_companions(tasks, n_workers, client, records, failure):
         if client is None:
             own = open_local_client(n_workers)
             client = own[1]
-        futures, names = [], {}
-        for rank, (name, cfg, path) in enumerate(tasks):
+        names = {}
+
+        def submit(task):
+            name, cfg, path = task
             fut = client.submit(run_and_read, cfg.resolved_toml, str(cfg.source), str(cfg.base_dir), str(path),
-                                key=f"tdse1d-certify-{name}-{os.getpid()}-{time.time_ns()}", pure=False,
-                                priority=len(tasks) - rank, retries=0)
-            futures.append(fut)
+                                key=f"tdse1d-certify-{name}-{os.getpid()}-{time.time_ns()}", pure=False, retries=0)
             names[fut.key] = name
-        for fut in as_completed(futures, loop=client.loop):
+            return fut
+
+        first = [t for t in (_take(pending, lock) for _ in range(n_workers)) if t is not None]
+        running = as_completed([submit(t) for t in first], loop=client.loop)
+        for fut in running:
             name = names[fut.key]
             try:
                 records[name] = fut.result()
             except Exception as exc:  # a worker died: not the run's own fault
                 records[name] = {"status": "lost", "error": f"worker lost: {type(exc).__name__}: {exc}"}
+            task = _take(pending, lock)
+            if task is not None:
+                running.add(submit(task))
     except BaseException as exc:  # handed to the caller's thread
         failure.append(exc)
     finally:
@@ -307,9 +328,10 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
                     client=None) -> CertifiedRun:
     """Run a problem and its companions in parallel and store every quantity's spread.
 
-    The companions run on a local Dask cluster (or ``client``), longest first; the run
-    as given runs meanwhile in this process, where its problem is already built, so
-    that it overlaps the start of the cluster's workers.
+    The run as given runs in this process, where its problem is already built, while a
+    local Dask cluster (or ``client``) starts; then this process and the workers take
+    the companions from one queue, the longest not yet started first, each when its
+    run ends (this process has its imports and compiled kernels loaded already).
 
     Parameters
     ----------
@@ -321,8 +343,8 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
     keep_companions : bool
         Keep the companion files in :func:`companion_directory` (else removed).
     workers : int, optional
-        Worker processes of the local Dask cluster for the companions (default: the
-        cores, at most one per companion).
+        Worker processes of the local Dask cluster (default: the cores but one, at
+        least one, at most one per companion but one).
     client : distributed.Client, optional
         Use this client instead of a local cluster (and leave it open).
 
@@ -362,14 +384,23 @@ def certify_problem(problem, output, *, keep_companions: bool = False, workers: 
     companions = plan_companions(problem)
     tasks = [(c.name, companion_config(problem.config, c), folder / f"{c.name}.h5")
              for c in sorted(companions, key=lambda c: -c.cost)]  # longest first
-    n_workers = workers or min(os.cpu_count() or 1, len(tasks))
+    # this process computes too: after the run as given it takes companions from the
+    # same queue as the workers (the longest not yet started), with its imports and
+    # compiled kernels already loaded, while each worker pays its start-up and imports
+    # (seconds) before its first run; so the cluster gets one worker per core but this
+    # one (docs/performance.md, "Certified runs")
+    n_workers = workers or max(1, min((os.cpu_count() or 1) - 1, len(tasks) - 1))
+    pending, lock = list(tasks), threading.Lock()
     records, failure = {}, []
-    thread = threading.Thread(target=_run_companions, args=(tasks, n_workers, client, records, failure),
+    thread = threading.Thread(target=_run_companions, args=(pending, lock, n_workers, client, records, failure),
                               name="tdse1d-certify-companions", daemon=True)
     thread.start()
     # a failure of the run as given (or Ctrl-C) propagates at once; the companions' thread
     # is a daemon that closes its own cluster when its runs end, or ends with the process
     records["main"] = _run_main(problem, main_file)
+    while (task := _take(pending, lock)) is not None:
+        name, cfg, path = task
+        records[name] = run_and_read(cfg.resolved_toml, str(cfg.source), str(cfg.base_dir), str(path))
     thread.join()
     if failure:
         raise failure[0]

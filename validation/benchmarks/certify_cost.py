@@ -1,10 +1,11 @@
 """What a certified run costs against a plain run of the same input, in wall time.
 
-    python validation/benchmarks/certify_cost.py [--input inputs/argon_800nm.toml] [--pairs 3] [--workers 2]
+    python validation/benchmarks/certify_cost.py [--input inputs/argon_800nm.toml] [--pairs 3]
 
 Each pair runs, as whole processes one after the other, ``tdse1d run INPUT --quiet``
-(plain) and ``tdse1d run INPUT --quiet --certify`` (the run and its three companions on
-a local Dask cluster of ``--workers`` single-threaded processes), alternating which
+(plain) and ``tdse1d run INPUT --quiet --certify`` (the run and its three companions:
+the longest on a local Dask cluster of single-threaded worker processes, one per core
+but the calling one, the others in the calling process after the run), alternating which
 goes first, and reports the wall time of each and their ratio per pair. A ratio per
 pair holds better than a ratio of means when the load of a shared machine drifts: the
 1-minute load average is recorded before every run, with the date. Each certified run
@@ -61,7 +62,6 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--input", default=str(ROOT / "inputs" / "argon_800nm.toml"))
     parser.add_argument("--pairs", type=int, default=3)
-    parser.add_argument("--workers", type=int, default=2, help="(the certified run uses one per core, at most 4)")
     args = parser.parse_args(argv)
     print(f"# {datetime.datetime.now(datetime.timezone.utc):%Y-%m-%d %H:%M} UTC, {os.cpu_count()} cores, "
           f"input {Path(args.input).name}")
