@@ -243,6 +243,8 @@ def test_certified_values_are_the_report_s_quantum_values(certified):
     inp, done = certified
     shown = {}
     for r in api.report(done.path).rows:
+        if "." in r.key:  # a derived spectrum's reading (tdse1d.spectra.derived): read off, not compared
+            continue
         if r.unconverged_range:
             value = 0.5 * (r.unconverged_range[0] + r.unconverged_range[1])
         else:
