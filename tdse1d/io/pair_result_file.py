@@ -11,7 +11,6 @@ the writer's lock, like a one-electron result.
 
 from __future__ import annotations
 
-import contextlib
 import math
 import uuid
 from pathlib import Path
@@ -22,12 +21,12 @@ import numpy as np
 from .. import __version__, units
 from ..errors import OutputError
 from .guarded_file import COMPLETE_ATTR, GuardedFile, PART_SUFFIX, WRITER_ATTR, WriterLock, lock_path
-from .result_file import refuse_reason, write_dataset
+from .result_file import GuardedWriting, refuse_reason, write_dataset
 
 __all__ = ["PairResultWriter"]
 
 
-class PairResultWriter:
+class PairResultWriter(GuardedWriting):
     """Writes one two-electron run's HDF5 file; its :meth:`snapshot` is the run's sink.
 
     Parameters
@@ -156,37 +155,5 @@ class PairResultWriter:
 
     def close(self):
         """Mark the file complete (last), sync, rename it to its final name, release the lock."""
-        self._raw.raise_error()
-        self.file.attrs[COMPLETE_ATTR] = True
-        self.file.close()
-        self.file = None
-        self._raw.sync()
-        self._raw.raise_error()
-        self._raw.close()
-        reason = refuse_reason(self.path)  # something may have appeared there meanwhile
-        if reason is not None:
-            raise OutputError(reason)
-        self.part.replace(self.path)
-        self.lock.release()
-
-    def abort(self):
-        """Remove the partial file and release the lock (after a failure; never raises for the file)."""
-        try:
-            if self.file is not None:
-                with contextlib.suppress(Exception):
-                    self.file.close()
-                self.file = None
-            if self._raw is not None:
-                self._raw.close()
-            with contextlib.suppress(OSError):
-                self.part.unlink(missing_ok=True)
-        finally:
-            self.lock.release()
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, kind, value, tb):
-        if kind is not None:
-            self.abort()
-        return False
+        self.check()
+        self._finish()

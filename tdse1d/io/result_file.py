@@ -161,7 +161,57 @@ def write_dataset(group, name, data=None, *, layout=RESULT_LAYOUT, units=None, c
     return ds
 
 
-class ResultWriter:
+class GuardedWriting:
+    """How a result file ends: the part of :class:`ResultWriter` that other writers of
+    a whole file share (the two-electron atom's, :mod:`tdse1d.io.pair_result_file`).
+
+    The writer holds ``self.file`` (h5py, on ``self._raw``, a guarded file), ``self.part``
+    (the partial file), ``self.path`` (its final name) and ``self.lock``.
+    """
+
+    def check(self):
+        """Raise the first write error (OSError) met so far, e.g. a full disk."""
+        self._raw.raise_error()
+
+    def _finish(self):
+        """Mark complete (last: only a whole file carries it), sync, rename, release the lock."""
+        self.file.attrs[COMPLETE_ATTR] = True
+        self.file.close()
+        self.file = None
+        self._raw.sync()
+        self.check()
+        self._raw.close()
+        reason = refuse_reason(self.path)  # something may have appeared there meanwhile
+        if reason is not None:
+            raise OutputError(reason)
+        os.replace(self.part, self.path)
+        _fsync_dir(self.path.parent)
+        self.lock.release()
+
+    def abort(self):
+        """Close and delete the partial file, release the lock (never raises for the file)."""
+        try:
+            if self.file is not None:
+                with contextlib.suppress(Exception):
+                    self.file.close()
+                self.file = None
+            if self._raw is not None:
+                self._raw.close()
+            with contextlib.suppress(OSError):
+                self.part.unlink(missing_ok=True)
+        finally:
+            self.lock.release()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is not None:
+            self.abort()
+        return False
+
+
+class ResultWriter(GuardedWriting):
     """Writes one run's HDF5 file; used as the run's snapshot sink.
 
     Parameters
@@ -212,10 +262,6 @@ class ResultWriter:
     def note(self) -> str | None:
         """A remark for the user (a stale lock taken over), or None."""
         return self.lock.note
-
-    def check(self):
-        """Raise the first write error (OSError) met so far, e.g. a full disk."""
-        self._raw.raise_error()
 
     # -------------------------------------------------------------- header
     def _write_header(self, snapshot_times):
@@ -367,40 +413,7 @@ class ResultWriter:
         problems = content_problems(self.file, self.token)
         if problems:
             raise OutputError(f"{self.path} is not whole ({'; '.join(problems)}); it was not marked complete")
-        self.file.attrs[COMPLETE_ATTR] = True  # last: only a whole file carries it
-        self.file.close()
-        self.file = None
-        self._raw.sync()
-        self.check()
-        self._raw.close()
-        reason = refuse_reason(self.path)  # something may have appeared there meanwhile
-        if reason is not None:
-            raise OutputError(reason)
-        os.replace(self.part, self.path)
-        _fsync_dir(self.path.parent)
-        self.lock.release()
-
-    def abort(self):
-        """Close and delete the partial file, release the lock (never raises for the file)."""
-        try:
-            if self.file is not None:
-                with contextlib.suppress(Exception):
-                    self.file.close()
-                self.file = None
-            if self._raw is not None:
-                self._raw.close()
-            with contextlib.suppress(OSError):
-                self.part.unlink(missing_ok=True)
-        finally:
-            self.lock.release()
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, exc_type, exc, tb):
-        if exc_type is not None:
-            self.abort()
-        return False
+        self._finish()
 
 
 def _fsync_dir(directory: Path):
