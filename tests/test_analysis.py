@@ -165,9 +165,19 @@ def infrared_weaker(tmp_path_factory):
 
 @pytest.fixture(scope="module")
 def infrared_vanishing(tmp_path_factory):
-    """The infrared run at 1e6 W/cm^2: nothing but the numerical floor above the linear response."""
+    """The infrared run at 1e6 W/cm^2: nothing but the numerical floor above the linear response.
+
+    Recorded every step: the floor test below reads the spectrum from 4 times Ip up to pi / dt, far
+    above the highest frequency a default run records for (1.5 Ip here, docs/output.md,
+    recorded time axis), where the default records alias."""
+    import functools
+    from unittest import mock
+
+    from tdse1d.runs import runner
+
     text = HYDROGEN + IR.format(intensity="1e6 W/cm^2", cycles=4) + _grid(768, 0.25, 30.0, "0.5 fs", 0.05)
-    outcome = _run(tmp_path_factory, "infrared_vanishing", text)
+    with mock.patch.object(runner, "simulate", functools.partial(runner.simulate, record_every=1)):
+        outcome = _run(tmp_path_factory, "infrared_vanishing", text)
     with h5py.File(outcome.path) as f:
         return outcome, analysis_file.analyse_file(f)
 

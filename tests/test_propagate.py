@@ -495,7 +495,8 @@ CONTRACT = [
     "spectra/harmonic/frequency", "spectra/harmonic/order", "spectra/harmonic/power",
     "ionization/probability", "ionization/absorbed", "final/psi",
 ]
-ROOT_ATTRS = ["input", "tdse1d_version", "grid_points", "grid_spacing", "time_step", "steps", "gauge", "splitting_order",
+ROOT_ATTRS = ["input", "tdse1d_version", "grid_points", "grid_spacing", "time_step", "steps", "record_stride", "gauge",
+              "splitting_order",
               "absorber", "complete"]
 
 
@@ -516,14 +517,16 @@ def test_result_file_holds_the_contract(argon):
         points, steps = f.attrs["grid_points"], f.attrs["steps"]
         assert f["grid/x"].shape == (points,)
         assert np.allclose(np.diff(f["grid/x"][()]), f.attrs["grid_spacing"])
-        assert f["observables/dipole"].shape == (steps + 1,)
-        assert np.allclose(np.diff(f["observables/time"][()]), f.attrs["time_step"])
+        # the per-step series hold every k-th step (docs/output.md, recorded time axis)
+        k = int(f.attrs["record_stride"])
+        assert f["observables/dipole"].shape == (steps // k + 1,)
+        assert np.allclose(np.diff(f["observables/time"][()]), k * f.attrs["time_step"])
         assert f["snapshots/psi"].shape == (config.output.snapshots, points)
         assert f["snapshots/psi"].dtype == np.complex128
         assert np.allclose(f["snapshots/psi"][-1], f["final/psi"][()])
         # the scalars agree with the time series they summarise
         final_bound = f["observables/bound_population"][-1]
-        assert f["observables/population_time"][-1] == f["observables/time"][-1]
+        assert f["observables/population_time"][-1] - f["observables/time"][-1] < k * f.attrs["time_step"]
         # P_ion = 1 - held - edge - beyond, the first two read off the populations at ionization/time
         ion = f["ionization"]
         row = int(np.searchsorted(f["observables/population_time"][()], ion["time"][()]))
@@ -531,12 +534,20 @@ def test_result_file_holds_the_contract(argon):
         assert math.isclose(counted, f["observables/bound_population"][row].sum(), rel_tol=1e-9)
         assert math.isclose(ion["probability"][()], 1 - counted - ion["bound_beyond"][()], rel_tol=1e-9)
         assert ion["probability_band"][0] <= ion["probability"][()] <= ion["probability_band"][1]
-        assert math.isclose(f["ionization/absorbed"][()], f["observables/absorbed"][-1], rel_tol=1e-9)
+        # the last record misses the last (steps mod k) steps: the absorber only adds to it there
+        if steps % k == 0:
+            assert math.isclose(f["ionization/absorbed"][()], f["observables/absorbed"][-1], rel_tol=1e-9)
+        else:
+            assert f["ionization/absorbed"][()] >= f["observables/absorbed"][-1] - 1e-12
         assert math.isclose(f["observables/initial_population"][0], 1.0, rel_tol=1e-9)
         assert math.isclose(f["observables/initial_population"][-1], final_bound[0], rel_tol=1e-6)
-        # the stored field obeys E = -dA/dt (to the accuracy of a centred difference)
+        # the stored field obeys E = -dA/dt to the accuracy of a centred difference over
+        # the recorded spacing D: (D w)^2 / 6 of the amplitude, with the margin of 7 the
+        # check had at D = 0.05 a.u. (1e-5 against 1.4e-6)
         t, e, a = f["field/time"][()], f["field/electric"][()], f["field/vector_potential"][()]
-        assert np.allclose(-np.gradient(a, t)[1:-1], e[1:-1], atol=1e-5 * np.max(np.abs(e)))
+        spacing, w = t[1] - t[0], f["estimates"].attrs["photon_energy"]
+        bound = max(1e-5, 7 * (spacing * w) ** 2 / 6)
+        assert np.allclose(-np.gradient(a, t)[1:-1], e[1:-1], atol=bound * np.max(np.abs(e)))
         # Up = E0^2 / (4 w^2) (common practice)
         est = f["estimates"].attrs
         assert np.isclose(est["ponderomotive_energy"], est["peak_field"] ** 2 / (4 * est["photon_energy"] ** 2))

@@ -338,6 +338,8 @@ class ResultWriter(GuardedWriting):
         given the open file to add analysis groups."""
         f = self.file
         obs = result.observables
+        # the per-step series below hold every k-th step (docs/output.md, recorded time axis)
+        f.attrs["record_stride"] = int(getattr(result, "record_every", 1))
         fld = f.create_group("field")
         write_dataset(fld, "time", obs.time)
         write_dataset(fld, "electric", obs.electric)

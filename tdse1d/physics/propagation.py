@@ -222,6 +222,13 @@ class Propagator:
             self.surface_flux.add(self._stepper.psi_view, 0, float(self._a_t[0]), 0.5 * self.time_step,
                                   advance=False)
 
+    @property
+    def step_vector_potential(self) -> np.ndarray:
+        """A(t_n) at every step n = 0..steps (a.u.; read-only view), whatever ``record_every``."""
+        view = self._a_t.view()
+        view.flags.writeable = False
+        return view
+
     def vector_potential_steps(self):
         """int A dt and int A^2 dt over each step, by the propagator's midpoint rule.
 

@@ -16,6 +16,15 @@ such a state; the steps and analysis events are the same as in an uninterrupted 
 so the results agree to round-off.
 
 Numerical health (:mod:`tdse1d.runs.health`) is checked at the population cadence.
+
+Recorded time axis: the per-step observables (norm, dipole, momentum, acceleration,
+initial population, and the field beside them) are recorded every k-th step, k from
+:func:`record_stride_of` (the rule of :func:`tdse1d.physics.observables.record_stride`: the
+Nyquist frequency of the records is at least 4 times the highest frequency the spectra
+analyse). Everything after the loop (spectra, cutoff, absorbed norm, the file) reads
+the recorded axis ``observables.time``; the populations, snapshots, health checks and
+the surface-flux accumulation look at the wavefunction itself and keep their own steps.
+Checkpoints are written at record steps only, so a resumed run records the same steps.
 """
 
 from __future__ import annotations
@@ -30,16 +39,24 @@ from . import health as _health
 from .. import spectra
 from ..spectra import surface_flux as _flux
 from ..physics.absorbers import ABSORBERS
+from ..physics.observables import record_stride
 from ..physics.propagation import SCHEMES, Observables, Propagator
 from ..physics.systems import OneElectron
 from ..input.problem import Problem
 from ..physics.ionization import ionization as _ionization
 from ..physics.states import initial_wavefunction
 
-__all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps"]
+__all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps",
+           "record_stride_of", "highest_analysed_frequency", "ANALYSED_OVER_TOP"]
 
 #: default bound-state projections per optical cycle of the first pulse
 POPULATIONS_PER_CYCLE = 20
+
+#: the highest frequency the spectra analyse, over the highest harmonic of interest
+#: (max of the cutoff estimate Ip + 3.17 Up, the photon energies and Ip): the
+#: time-frequency map reaches 1.4 times the cutoff (analysis.emission.TF_TOP), the
+#: cutoff reading a drop of 1.5 decades past the knee, within a few orders
+ANALYSED_OVER_TOP = 1.5
 
 
 @dataclass
@@ -49,7 +66,8 @@ class RunResult:
     Attributes
     ----------
     observables : Observables
-        Per-step time, field, norm, dipole, momentum, acceleration, initial population.
+        Time, field, norm, dipole, momentum, acceleration and initial population at the
+        recorded steps 0, k, 2k, ... (``record_every``).
     population_time : ndarray, shape (m,)
     bound_population : ndarray, shape (m, n_states)
         |<phi_n|psi(t)>|^2 in the length-gauge form of the state.
@@ -60,7 +78,8 @@ class RunResult:
     ionization : tdse1d.physics.ionization.IonizationEstimate
         Its pieces and uncertainty band.
     absorbed : float
-        Norm removed by the absorber, 1 - final norm.
+        Norm removed by the absorber: initial minus final norm (the final norm from the
+        final state, which the last record misses when k does not divide the steps).
     harmonic : spectra.HarmonicSpectrum
     cutoff : spectra.CutoffEstimate or None
     photoelectrons : dict
@@ -83,6 +102,7 @@ class RunResult:
     photoelectrons: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)
     derived: dict = field(default_factory=dict)
+    record_every: int = 1
 
 
 @dataclass
@@ -181,6 +201,30 @@ def population_steps(problem: Problem) -> np.ndarray:
     return np.unique(np.append(np.arange(0, problem.time.steps + 1, every), problem.time.steps))
 
 
+def highest_analysed_frequency(problem: Problem) -> float:
+    """The highest angular frequency (a.u., hartree) the run's spectra analyse.
+
+    :data:`ANALYSED_OVER_TOP` times the highest of the pulses' cutoff estimates
+    (Ip + 3.17 Up), their photon energies and Ip, the same top harmonic the automatic
+    time step samples (:mod:`tdse1d.semiclassical.estimates`). NaN without pulses.
+    """
+    if not problem.field.pulses or not problem.pulse_estimates:
+        return math.nan
+    top = max([p.cutoff_energy for p in problem.pulse_estimates] + [p.photon_energy for p in problem.pulse_estimates]
+              + [problem.ionization_potential])
+    return ANALYSED_OVER_TOP * top
+
+
+def record_stride_of(problem: Problem) -> int:
+    """Steps between records of the per-step observables (>= 1) by the rule of
+    :func:`tdse1d.physics.observables.record_stride` at :func:`highest_analysed_frequency`;
+    1 (every step) for a run without pulses."""
+    top = highest_analysed_frequency(problem)
+    if not (math.isfinite(top) and top > 0):
+        return 1
+    return record_stride(problem.time.step, top)
+
+
 def _populations(states, psi_length, dx):
     amp_re = states.wavefunctions @ psi_length.real
     amp_im = states.wavefunctions @ psi_length.imag
@@ -201,7 +245,7 @@ def ionization_estimate(problem: Problem, population_time, bound_population):
 
 
 def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASURE", control=None,
-             resume: RunState | None = None, strict: bool = False) -> RunResult:
+             resume: RunState | None = None, strict: bool = False, record_every: int | None = None) -> RunResult:
     """Propagate the problem's initial state through its field and analyse the result.
 
     Parameters
@@ -221,6 +265,9 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         Continue from this state instead of the initial state.
     strict : bool
         Raise on the first numerical-health warning instead of collecting it.
+    record_every : int, optional
+        Steps between records of the per-step observables; default :func:`record_stride_of`
+        of the problem (1 records every step).
 
     Returns
     -------
@@ -241,6 +288,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     psi0 = initial_wavefunction(problem.states, atom.initial_state, atom.initial_amplitudes, atom.initial_phases)
     absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
     mask = absorber.step_factor(grid, problem.absorber_width, problem.time.step)
+    every = record_stride_of(problem) if record_every is None else record_every
 
     prop = Propagator(
         OneElectron(grid, problem.potential, absorber_factor=mask, reference=psi0),
@@ -248,6 +296,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         gauge=cfg.propagation.gauge,
         scheme=SCHEMES[cfg.propagation.scheme_name],
         fft_effort=fft_effort,
+        record_every=every,
     )
     notes = []
     flux = None
@@ -262,7 +311,9 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     snap_set = {int(s): i for i, s in enumerate(snaps)}
     pop_set = {int(s): i for i, s in enumerate(pops)}
     bound = np.zeros((len(pops), len(problem.states)))
-    progress_every = max(1, problem.time.steps // 200)
+    # chunks end at multiples of the record stride (or at events), so that a
+    # checkpoint, written only at a record step, comes at the same cadence
+    progress_every = every * max(1, problem.time.steps // (200 * every))
     monitor = _health.HealthMonitor(problem, strict=strict)
 
     first_event = 0
@@ -278,7 +329,11 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         for name in prop.observables.names:
             if name not in resume.observables:
                 raise ValueError(f"the state to resume holds no per-step {name!r}")
-            getattr(prop.observables, name)[:] = resume.observables[name]
+            record = getattr(prop.observables, name)
+            if np.shape(resume.observables[name]) != record.shape:
+                raise ValueError(f"the state to resume holds {np.shape(resume.observables[name])[0]} records of "
+                                 f"{name!r}, this run {record.shape[0]} (recorded every {every} steps)")
+            record[:] = resume.observables[name]
         bound[:] = resume.bound_population
         if flux is not None:
             if resume.surface_flux is None:
@@ -299,10 +354,12 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     for event_index in range(first_event, len(events)):
         target = events[event_index]
         while prop.step_index < target:
-            prop.advance(min(progress_every, target - prop.step_index))
+            chunk_end = (prop.step_index // progress_every + 1) * progress_every
+            prop.advance(min(chunk_end, target) - prop.step_index)
             if progress is not None:
                 progress(prop.step_index, problem.time.steps)
-            if control is not None and control.checkpoint_due() and prop.step_index < problem.time.steps:
+            if (control is not None and prop.step_index % every == 0 and control.checkpoint_due()
+                    and prop.step_index < problem.time.steps):
                 sink.checkpoint(state(event_index))
                 control.checkpoint_written()
                 if control.stop_requested:
@@ -321,16 +378,17 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     final = prop.length_gauge_state()
     obs = prop.observables
     ion = ionization_estimate(problem, times[pops], bound)
-    absorbed = float(obs.norm[0] - obs.norm[-1])
+    absorbed = float(obs.norm[0] - np.sum(final.real**2 + final.imag**2) * grid.spacing)
 
     omega0 = problem.field.omega if problem.field.pulses else 1.0
-    harmonic = spectra.harmonic_spectrum(times, obs.acceleration, omega0, window=cfg.spectra.window)
+    # the spectra on the recorded time axis (every k-th step)
+    harmonic = spectra.harmonic_spectrum(obs.time, obs.acceleration, omega0, window=cfg.spectra.window)
     cutoff = None
     if problem.field.pulses and problem.ionization_potential > 0:
         try:
             # the field's own spectrum through the same window is the floor of the
             # acceleration spectrum (spectra.noise_floor): no cutoff is read in it
-            leakage = spectra.harmonic_spectrum(times, obs.electric, omega0, window=cfg.spectra.window).power
+            leakage = spectra.harmonic_spectrum(obs.time, obs.electric, omega0, window=cfg.spectra.window).power
             cutoff = spectra.read_cutoff(harmonic.frequency, harmonic.power, omega0, problem.ionization_potential,
                                          noise=leakage)
         except ValueError:
@@ -340,9 +398,9 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     photo = {"plane_wave": spectra.plane_wave_spectrum(grid.x, continuum, split="momentum")}
     if flux is not None:
         # the flux accumulator works with canonical momenta in the velocity gauge
-        a_end = float(obs.vector_potential[-1])
+        a_end = float(prop.step_vector_potential[-1])
         to_velocity = np.exp(-1j * a_end * grid.x)
-        a_start = float(obs.vector_potential[0])
+        a_start = float(prop.step_vector_potential[0])
         photo["surface_flux"] = flux.result(continuum * to_velocity, (final - continuum) * to_velocity,
                                             psi0 * np.exp(-1j * a_start * grid.x), split="momentum")
 
@@ -361,6 +419,7 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
         photoelectrons=photo,
         warnings=list(problem.warnings) + notes + monitor.warnings,
         derived=derived,
+        record_every=every,
     )
 
 
@@ -404,7 +463,7 @@ def _surface_flux(problem: Problem, prop: Propagator, mask):
         return None, ("no surface-flux photoelectron spectrum: it needs absorbing layers on both sides of "
                       f"the box with at least {r} inner grid points before each")
     right, left = int(inside[-1]), int(inside[0])
-    a_t = prop.observables.vector_potential
+    a_t = prop.step_vector_potential
     omegas = [p.omega for p in problem.field.pulses if math.isfinite(p.omega) and p.omega > 0]
     if not omegas:
         return None, "no surface-flux photoelectron spectrum: no pulse has a carrier frequency"
