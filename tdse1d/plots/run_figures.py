@@ -149,8 +149,15 @@ def harmonic_figure(frequency, power, omega0, cutoffs=(), bands=()):
     ax.set_xlabel("photon energy (eV)")
     ax.set_ylabel("power (a.u.)")
     _order_axis(ax, omega0)
-    ax.legend(loc="lower left", fontsize="small", frameon=False)
+    _legend(ax, "lower left")
     return fig
+
+
+def _legend(ax, loc):
+    """A legend where something carries a label (a run with no finite cutoff line, an
+    XUV-only pulse, has none)."""
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(loc=loc, fontsize="small", frameon=False)
 
 
 def _cutoff_lines(ax, cutoffs, horizontal=False):
@@ -360,5 +367,5 @@ def derived_spectrum_figure(axis, axis_unit, curves, title, omega0=math.nan, mar
     ax.set_title(title, fontsize="medium")
     if energy and math.isfinite(omega0):
         _order_axis(ax, omega0)
-    ax.legend(loc="lower left", fontsize="small", frameon=False)
+    _legend(ax, "lower left")
     return fig
