@@ -120,7 +120,7 @@ def differences(reference: dict, current: dict, rtol: float = RTOL) -> list[str]
         if any(word in k for word in READING_KEYS):
             tolerance = READING_RTOL
         if k.endswith("#sum"):  # a sum of n entries, each allowed rtol x max(|entry|, 1)
-            scale = float(a[2]) * max(math.sqrt(abs(float(a[1]))), 1.0)
+            scale = float(a[2].real) * max(math.sqrt(abs(a[1])), 1.0)  # a complex series' sums are complex
         worst = float(np.max(np.abs(a[finite] - b[finite]), initial=0.0))
         if worst > tolerance * scale:
             problems.append(f"{k}: max difference {worst:.3g} against {tolerance:g} x {scale:.3g}")
