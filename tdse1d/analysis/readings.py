@@ -213,6 +213,40 @@ def _assigned(em, rows, branch):
     return rows[em.dominant_branch()[rows] == branch]
 
 
+def central_samples(em, crests=None):
+    """Rows of ``em`` in the central half cycles (those holding at least half the largest
+    number of samples of a half cycle), and with a finite crest when ``crests`` (a.u.,
+    per half cycle) is given: the samples the emission-time rows are read over."""
+    labels, counts = np.unique(em.half_cycle, return_counts=True)
+    if not counts.size:
+        return np.zeros(0, dtype=int)
+    rows = np.flatnonzero(np.isin(em.half_cycle, labels[counts >= 0.5 * counts.max()]))
+    if crests is not None:
+        rows = rows[np.isfinite(np.asarray(crests, float)[em.half_cycle[rows]])]
+    return rows
+
+
+def branch_samples(em, branch, crests=None):
+    """The samples a branch's row compares: the central samples (:func:`central_samples`)
+    whose quantum time lies nearer ``branch``, or every central sample when none does.
+    The classical median of the row is taken over them, and so is the SFA value beside
+    it (:mod:`tdse1d.analysis.report_sfa`), so that all three columns share one set of
+    photon energies and half cycles.
+
+    Returns
+    -------
+    EmissionTimes
+        ``em`` restricted to those rows.
+    """
+    from dataclasses import replace
+
+    central = central_samples(em, crests)
+    rows = _assigned(em, central, branch)
+    rows = rows if rows.size else central
+    return replace(em, **{name: getattr(em, name)[rows] for name in ("half_cycle", "frequency", "quantum", "short",
+                                                                     "long")})
+
+
 def _concentration(em, rows, branch):
     """Probability that times at random in the branch's cells lie at least as tightly
     around one offset from the branch as the assigned times do (Monte Carlo, NaN with
@@ -283,11 +317,7 @@ def emission_timing(emissions, crests, frequency_resolution=None):
 
     crests = np.asarray(crests, float)
     em = emissions[next(iter(emissions))]
-    labels, counts = np.unique(em.half_cycle, return_counts=True)
-    if not counts.size:
-        return {}
-    central = np.flatnonzero(np.isin(em.half_cycle, labels[counts >= 0.5 * counts.max()]))
-    central = central[np.isfinite(crests[em.half_cycle[central]])]
+    central = central_samples(em, crests)
     if central.size < 4:
         return {}
     period = em.period
@@ -317,8 +347,8 @@ def emission_timing(emissions, crests, frequency_resolution=None):
         quantum = combine_rules(medians, step, reasons)
         rows, independent, p = found[next(iter(emissions))]
         n = int(independent.size)
-        on = rows if rows.size else central
-        classical = float(np.median(relative(getattr(em, branch), on)))
+        on = branch_samples(em, branch, crests)
+        classical = float(np.median((getattr(on, branch) - crests[on.half_cycle]) / period))
         spread = statistical = math.nan
         if quantum.resolved:
             spread = 0.5 * float(np.subtract(*np.percentile(relative(em.quantum, rows), [75, 25])))
