@@ -1,12 +1,8 @@
 """Readings by a family of rules, and the verdicts built on them, on constructed spectra
 with known answers, and on null spectra that must come out unresolved.
 
-* The cutoff family on a harmonic comb whose plateau ends at a known photon energy
-  in an exponential fall of known slope: each drop rule must read where the analytic
-  fall crosses its level, the knee the end of the plateau (exact answers of the
-  construction).
-* Null spectra (random power on a flat level, a featureless power law, a plateau that
-  never falls) must give no value, with a reason.
+* The cutoff family on constructed spectra and null spectra: tests/test_reading_family.py.
+* The knee of a broken line, and a family with a rule that read no value.
 * The verdict on constructed numbers (agrees, deviates, unresolved) and the quadrature
   sum of the uncertainty parts (GUM, JCGM 100:2008, 5.1.2).
 * The dressed line on a constructed comb E_n = E0 - U + n w (known shift and spacing),
@@ -21,74 +17,7 @@ import pytest
 from tdse1d.analysis import report as report_rows
 from tdse1d.analysis.sidebands import dressed_line, wrap_shift
 from tdse1d.analysis.verdict import AGREE_WITHIN, combined_uncertainty, verdict
-from tdse1d.spectra.reading import Reading, combine_rules, cutoff_family, two_line_knee
-
-W0 = 0.057          # photon energy of the constructed driving field (hartree)
-IP = 0.58           # ionization potential (hartree)
-W_C = 1.7           # end of the constructed plateau (hartree)
-SLOPE = 0.5         # decades per harmonic order of the constructed fall
-
-
-def _harmonic_comb(rng, slope=SLOPE, w_c=W_C, floor=1e-16):
-    """Odd harmonics (Gaussian lines 0.1 order wide) on a flat plateau that ends at w_c
-    and falls by ``slope`` decades per order beyond, over a random floor far below."""
-    w = np.linspace(0.0, 6.0, 40001)
-    order = w / W0
-    comb = sum(np.exp(-0.5 * ((order - q) / 0.1) ** 2) for q in range(1, int(6.0 / W0) + 2, 2)) + 1e-3
-    envelope = np.where(w <= w_c, 1.0, 10.0 ** (-slope * (w - w_c) / W0))
-    return w, comb * envelope + floor * rng.exponential(size=w.size)
-
-
-def test_cutoff_family_reads_the_analytic_edge():
-    w, power = _harmonic_comb(np.random.default_rng(1))
-    r = cutoff_family(w, power, W0, IP)
-    assert r.resolved, r.reason
-    # the running mean over +-1 order levels the comb (one period, 2 orders) to a
-    # constant on the plateau and follows the linear fall of log power exactly once
-    # the window is clear of the kink; a drop of D decades is then crossed D / SLOPE
-    # orders beyond w_c (2, 3 and 4 orders here, all beyond the 1-order window): the
-    # tolerance is a quarter order, the comb's residual ripple in the running mean
-    for drop in (1.0, 1.5, 2.0):
-        for plateau in ("median", "top"):
-            assert r.rules[f"{plateau} drop {drop:g}"] == pytest.approx(W_C + drop / SLOPE * W0, abs=0.25 * W0)
-    # the knee of the two-line fit: the kink is rounded over +-1 order by the window,
-    # so the fitted knee lies within that order of it
-    assert r.rules["knee"] == pytest.approx(W_C, abs=W0)
-    # the central value +- the half range covers every rule, and the range is the rules'
-    assert r.low == min(r.rules.values()) and r.high == max(r.rules.values())
-    assert all(abs(v - r.value) <= r.half_range + 1e-15 for v in r.rules.values())
-    assert r.uncertainty >= r.half_range
-
-
-def test_cutoff_family_follows_the_edge_when_it_moves():
-    # a law, not a number: moving the constructed plateau end by 5 orders moves every
-    # rule by 5 orders (within the quarter-order ripple)
-    rng = np.random.default_rng(2)
-    a = cutoff_family(*_harmonic_comb(rng), W0, IP)
-    b = cutoff_family(*_harmonic_comb(rng, w_c=W_C + 5 * W0), W0, IP)
-    for name in a.rules:
-        assert b.rules[name] - a.rules[name] == pytest.approx(5 * W0, abs=0.25 * W0)
-
-
-@pytest.mark.parametrize("null", ["random", "power law", "exponential", "no fall"])
-def test_cutoff_family_gives_no_value_on_a_null_spectrum(null):
-    rng = np.random.default_rng(3)
-    w = np.linspace(0.0, 6.0, 40001)
-    if null == "random":
-        power = rng.exponential(size=w.size)                         # featureless noise
-    elif null == "power law":
-        power = (w + 0.05) ** -4.0 * (1 + 0.1 * rng.standard_normal(w.size) ** 2)   # no plateau
-    elif null == "exponential":
-        # one straight fall in log power over 50 decades, far above a floor: the drop
-        # rules read it, the knee finds no change of slope, so the family gives no value
-        power = 10.0 ** (-0.5 * w / W0) + 1e-60 * rng.exponential(size=w.size)
-    else:
-        power = _harmonic_comb(rng, slope=0.0)[1]                     # a plateau up to the end
-    r = cutoff_family(w, power, W0, IP)
-    assert not r.resolved and r.reason and math.isnan(r.value) and math.isnan(r.uncertainty)
-    if null == "exponential":
-        assert "featureless" in r.reason
-
+from tdse1d.spectra.reading import Reading, combine_rules, two_line_knee
 
 def test_two_line_knee_of_a_broken_line():
     x = np.linspace(0.0, 10.0, 201)

@@ -107,33 +107,57 @@ def streaking_family(momentum, density_left, density_right, xuv_time, xuv_photon
     return shift, line, base
 
 
+#: independent samples a branch needs for its quantum median: with n samples the range
+#: [min, max] covers the median of the distribution with probability 1 - 2^(1 - n)
+#: (order statistics; Conover, Practical Nonparametric Statistics, from memory), at
+#: least 95 % only from n = 6: with fewer, no distribution-free interval says anything
+MIN_BRANCH_SAMPLES = 6
+#: one-sided p-value below which the times assigned to a branch count as concentrated
+#: rather than spread at random over the part of the search window nearest that branch
+#: (the threshold of branch_correlation, set before any run)
+CONCENTRATION_P = 0.01
+#: draws of the Monte Carlo null of that test (p resolved to 1/2001, far below the
+#: threshold) and its fixed seed
+CONCENTRATION_DRAWS = 2000
+CONCENTRATION_SEED = 20261202
+
+
 @dataclass(frozen=True)
 class BranchTiming:
-    """Emission times of one classical branch beside the quantum ones, relative to the
-    crest of the field in the half cycle where the electrons were born (optical cycles).
+    """Emission times of one classical branch beside the quantum times assigned to it,
+    relative to the crest of the field in the half cycle where the electrons were born
+    (optical cycles).
 
     Attributes
     ----------
     branch : str
         ``"short"`` or ``"long"``.
     classical : float
-        Median over the plateau samples of the classical emission time.
+        Median of the classical emission time over the samples assigned to the branch
+        (over every plateau sample when none is).
     quantum : Reading
-        Median of the quantum emission times, read by each rule of
-        :data:`tdse1d.analysis.emission.EMISSION_RULES`.
+        Median of the quantum emission times assigned to this branch, read by each
+        rule of :data:`tdse1d.analysis.emission.EMISSION_RULES`; unresolved (with the
+        reason) when a rule has fewer than :data:`MIN_BRANCH_SAMPLES` independent
+        samples or its times are no more concentrated than times at random.
     spread : float
-        Half the interquartile range of the quantum times (central rule).
+        Half the interquartile range of the assigned quantum times (central rule; NaN
+        when unresolved).
     statistical : float
-        Standard error of the quantum median against the branch: sqrt(pi/2) sigma /
-        sqrt(n), sigma the scatter of the per-energy deviations from the branch and n
-        the independent samples.
+        Standard error of the quantum median: sqrt(pi/2) sigma / sqrt(n), sigma the
+        scatter of the assigned times' deviations from the branch and n the
+        independent samples assigned.
     separation : float
         Median distance between the short and the long branch (the effect a reading
         must resolve to tell them apart).
     samples : int
-        Independent samples.
+        Independent samples assigned to the branch (central rule).
     period : float
         Optical period (a.u.).
+    concentration_p : float
+        Probability of times at least this concentrated about one offset from the
+        branch if they were spread at random over the branch's part of the search
+        window (central rule; Monte Carlo, :func:`_concentration`).
     """
 
     branch: str
@@ -144,6 +168,7 @@ class BranchTiming:
     separation: float
     samples: int
     period: float
+    concentration_p: float = math.nan
 
 
 def field_crests(time, electric, three_step, period):
@@ -168,54 +193,168 @@ def field_crests(time, electric, three_step, period):
     return np.asarray(out)
 
 
+def branch_cells(em, rows, branch):
+    """Where a time assigned to ``branch`` can lie: the part of the search window of
+    :func:`tdse1d.analysis.emission_times` (the two classical times widened by an
+    eighth of a cycle) nearer ``branch`` than the other one, per row (a.u.).
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        Lower and upper end of the cell of each row.
+    """
+    mine, other = getattr(em, branch)[rows], getattr(em, "long" if branch == "short" else "short")[rows]
+    middle, margin = 0.5 * (mine + other), em.period / 8
+    return np.where(mine <= other, mine - margin, middle), np.where(mine <= other, middle, mine + margin)
+
+
+def _assigned(em, rows, branch):
+    """``rows`` whose quantum time lies nearer ``branch`` than the other branch."""
+    return rows[em.dominant_branch()[rows] == branch]
+
+
+def central_samples(em, crests=None):
+    """Rows of ``em`` in the central half cycles (those holding at least half the largest
+    number of samples of a half cycle), and with a finite crest when ``crests`` (a.u.,
+    per half cycle) is given: the samples the emission-time rows are read over."""
+    labels, counts = np.unique(em.half_cycle, return_counts=True)
+    if not counts.size:
+        return np.zeros(0, dtype=int)
+    rows = np.flatnonzero(np.isin(em.half_cycle, labels[counts >= 0.5 * counts.max()]))
+    if crests is not None:
+        rows = rows[np.isfinite(np.asarray(crests, float)[em.half_cycle[rows]])]
+    return rows
+
+
+def branch_samples(em, branch, crests=None):
+    """The samples a branch's row compares: the central samples (:func:`central_samples`)
+    whose quantum time lies nearer ``branch``, or every central sample when none does.
+    The classical median of the row is taken over them, and so is the SFA value beside
+    it (:mod:`tdse1d.analysis.report_sfa`), so that all three columns share one set of
+    photon energies and half cycles.
+
+    Returns
+    -------
+    EmissionTimes
+        ``em`` restricted to those rows.
+    """
+    from dataclasses import replace
+
+    central = central_samples(em, crests)
+    rows = _assigned(em, central, branch)
+    rows = rows if rows.size else central
+    return replace(em, **{name: getattr(em, name)[rows] for name in ("half_cycle", "frequency", "quantum", "short",
+                                                                     "long")})
+
+
+def _concentration(em, rows, branch):
+    """Probability that times at random in the branch's cells lie at least as tightly
+    around one offset from the branch as the assigned times do (Monte Carlo, NaN with
+    fewer than 2 rows).
+
+    The statistic is the median absolute deviation of ``t_quantum - t_branch`` from its
+    median: small when the quantum times follow the branch at any constant offset, as
+    large as the cells allow for times at random. The null draws each row's time
+    uniformly over its cell (:func:`branch_cells`), :data:`CONCENTRATION_DRAWS` times
+    with a fixed seed (the p-value is reproducible); ``p = (1 + k) / (1 + draws)`` with
+    k the draws at least as concentrated (Davison and Hinkley, Bootstrap Methods and
+    their Application (1997), ch. 4, from memory).
+    """
+    if rows.size < 2:
+        return math.nan
+    lo, hi = branch_cells(em, rows, branch)
+    t_branch = getattr(em, branch)[rows]
+
+    def spread(d):
+        return np.median(np.abs(d - np.median(d, axis=-1, keepdims=True)), axis=-1)
+
+    observed = spread(em.quantum[rows] - t_branch)
+    null = np.random.default_rng(CONCENTRATION_SEED).uniform(lo, hi, size=(CONCENTRATION_DRAWS, rows.size))
+    k = int(np.count_nonzero(spread(null - t_branch) <= observed))
+    return (1 + k) / (1 + CONCENTRATION_DRAWS)
+
+
 def emission_timing(emissions, crests, frequency_resolution=None):
-    """The short and long branches' emission times beside the quantum ones.
+    """Each classical branch's emission times beside the quantum times assigned to it.
+
+    Over the plateau samples of the central half cycles (those holding at least half
+    the largest number of samples of a half cycle), each quantum time is assigned to
+    the branch whose classical time at that photon energy, in that half cycle, is
+    nearer (:meth:`tdse1d.analysis.EmissionTimes.dominant_branch`); times are taken
+    after the crest of the birth half cycle (:func:`field_crests`). Per branch and per
+    rule, the samples thinned to one per ``frequency_resolution`` in each half cycle
+    (independent samples) give:
+
+    * unresolved when fewer than :data:`MIN_BRANCH_SAMPLES` are assigned;
+    * unresolved when the assigned times are no more concentrated than times at
+      random: a time drawn uniformly over the search window and assigned by
+      nearness lies uniformly in the part of the window nearer the branch
+      (:func:`branch_cells`); the spread of the assigned times' deviations from the
+      branch is compared with that of such random times (:func:`_concentration`), and
+      a p-value of :data:`CONCENTRATION_P` or more leaves the branch unresolved.
+      Assignment by nearness alone would put the median of random times within a few
+      hundredths of a cycle of each branch, so without this test a map without
+      emission would "agree";
+    * otherwise the median of the assigned times (all assigned samples, not only the
+      independent ones, as the row's value; the rules' medians make the reading).
 
     Parameters
     ----------
     emissions : dict
         Rule name -> :class:`tdse1d.analysis.EmissionTimes` (the first is the central rule).
     crests : ndarray
-        Crest time per half cycle (:func:`field_crests`).
+        Crest time per half cycle (a.u., :func:`field_crests`).
     frequency_resolution : float, optional
         Photon-energy spacing of independent samples (hartree), ``1 / sigma`` of the map.
 
     Returns
     -------
     dict
-        ``"short"`` and ``"long"`` -> :class:`BranchTiming`; empty when no sample lies in
-        a central half cycle.
+        ``"short"`` and ``"long"`` -> :class:`BranchTiming`; empty when fewer than 4
+        samples lie in the central half cycles.
     """
     from .emission import _thinned
 
-    central_rule = next(iter(emissions))
-    em = emissions[central_rule]
-    labels, counts = np.unique(em.half_cycle, return_counts=True)
-    if not counts.size:
-        return {}
-    central = np.flatnonzero(np.isin(em.half_cycle, labels[counts >= 0.5 * counts.max()]))
-    central = central[np.isfinite(crests[em.half_cycle[central]])]
+    crests = np.asarray(crests, float)
+    em = emissions[next(iter(emissions))]
+    central = central_samples(em, crests)
     if central.size < 4:
         return {}
-    independent = _thinned(em, frequency_resolution, central)
     period = em.period
 
     def relative(times, rows, e=em):
         return (times[rows] - crests[e.half_cycle[rows]]) / period
 
-    quantum_medians = {rule: float(np.median(relative(e.quantum, central, e))) for rule, e in emissions.items()}
-    q_central = relative(em.quantum, central)
-    quantum = combine_rules(quantum_medians, _map_step(em) / period)
-    spread = 0.5 * float(np.subtract(*np.percentile(q_central, [75, 25])))
     separation = float(np.median(np.abs(em.long[central] - em.short[central]))) / period
+    step = _map_step(em) / period
     out = {}
     for branch in ("short", "long"):
-        deviations = (em.quantum[independent] - getattr(em, branch)[independent]) / period
+        medians, reasons, found = {}, {}, {}
+        for rule, e in emissions.items():
+            rows = _assigned(e, central, branch)
+            independent = _assigned(e, _thinned(e, frequency_resolution, central), branch)
+            p = _concentration(e, independent, branch)
+            found[rule] = (rows, independent, p)
+            medians[rule], reasons[rule] = math.nan, ""
+            if independent.size < MIN_BRANCH_SAMPLES:
+                reasons[rule] = (f"unresolved ({independent.size} independent quantum times assigned to the {branch} "
+                                 f"branch; a median needs {MIN_BRANCH_SAMPLES})")
+            elif not p < CONCENTRATION_P:
+                reasons[rule] = (f"unresolved (the quantum times assigned to the {branch} branch are no more "
+                                 f"concentrated than times at random: p = {p:.2g})")
+            else:
+                medians[rule] = float(np.median(relative(e.quantum, rows, e)))
+        quantum = combine_rules(medians, step, reasons)
+        rows, independent, p = found[next(iter(emissions))]
         n = int(independent.size)
-        sigma = float(np.std(deviations, ddof=1)) if n > 1 else math.nan
-        out[branch] = BranchTiming(branch, float(np.median(relative(getattr(em, branch), central))), quantum, spread,
-                                   math.sqrt(math.pi / 2) * sigma / math.sqrt(n) if n > 1 else math.nan,
-                                   separation, n, period)
+        on = branch_samples(em, branch, crests)
+        classical = float(np.median((getattr(on, branch) - crests[on.half_cycle]) / period))
+        spread = statistical = math.nan
+        if quantum.resolved:
+            spread = 0.5 * float(np.subtract(*np.percentile(relative(em.quantum, rows), [75, 25])))
+            deviations = (em.quantum[independent] - getattr(em, branch)[independent]) / period
+            statistical = math.sqrt(math.pi / 2) * float(np.std(deviations, ddof=1)) / math.sqrt(n)
+        out[branch] = BranchTiming(branch, classical, quantum, spread, statistical, separation, n, period, p)
     return out
 
 

@@ -173,18 +173,27 @@ def rows(a: RunAnalysis, target_ip: float = math.nan, ionization_note: str = "",
         b.add("ATI comb shift", "line_shift", -up, "-Up (the threshold is raised by Up)", math.nan, "energy",
               reading=a.ati.shift, effect=up,
               note="quantum: offset of the ATI comb from n hbar w - Ip, modulo the photon energy (docs/analysis.md)")
-    for branch, t in a.timing.items():
+    _emission_rows(b, a.timing)
+    _xuv_rows(b, a)
+    _derived_rows(b, derived or {})
+    return with_sfa(b.rows, a, sfa, orbits)
+
+
+def _emission_rows(b, timing):
+    """One row per classical branch (``timing``: branch -> BranchTiming), each with the
+    quantum times assigned to that branch (:func:`tdse1d.analysis.readings.emission_timing`)."""
+    for branch, t in timing.items():
         period = t.period
         b.add(f"emission time, {branch} branch", f"emission_time_{branch}", t.classical * period,
               "three-step model, after the field crest", math.nan, "time",
               reading=_scaled(t.quantum, period), model_u=t.statistical * period, effect=t.separation * period,
               spread=t.spread * period, period=period,
-              note=("quantum: median over the plateau of the Gabor-map times after the crest of the birth half "
-                    "cycle (rules: maximum, centroid); spread: half the interquartile range; the statistical "
-                    "part of the uncertainty is the standard error of that median"))
-    _xuv_rows(b, a)
-    _derived_rows(b, derived or {})
-    return with_sfa(b.rows, a, sfa, orbits)
+              note=("quantum: median of the Gabor-map times after the crest of the birth half cycle that lie nearer "
+                    "this branch than the other, per half cycle and photon energy (rules: maximum, centroid); "
+                    "prediction: the branch's median over the same samples; spread: half the interquartile range; "
+                    "the statistical part of the uncertainty is the standard error of that median; unresolved when "
+                    "fewer than 6 independent times are assigned or they are no more concentrated than times at "
+                    "random (docs/analysis.md)"))
 
 
 def _derived_rows(b, derived):
@@ -348,6 +357,7 @@ def to_json(table: list[Row], a: RunAnalysis, sfa_column: bool = False) -> dict:
                                      "sfa_uncertainty": also(r, r.sfa_uncertainty)}
         if r.kind == "time":
             row["spread"] = clean(r.spread)
+            row["in_other_units"]["spread"] = also(r, r.spread)
         out.append(row)
     return {"photon_energy_au": clean(a.omega0), "ponderomotive_energy_au": clean(a.ponderomotive_energy),
             "sfa_column": bool(sfa_column), "rows": out, "notes": list(a.notes) + ([a.three_step_reason] if a.three_step_reason else [])}
@@ -376,7 +386,7 @@ def format_table(table: list[Row], a: RunAnalysis, sfa_column: bool = False) -> 
             quantum = f"not converged: {_value(r, low, signed=False)} to {_value(r, high, signed=False)}" + (
                 f" {unit}" if unit else "")
         if r.kind == "time" and math.isfinite(r.spread) and math.isfinite(r.quantum):
-            quantum += f", spread {r.spread / r.period:.2f}"
+            quantum += f", spread {r.spread / r.period:.2f} cycle ({units.au_to_fs(r.spread):.2f} fs)"
         z = f"{r.z:+.1f}" if math.isfinite(r.z) else "-"
         marks = "".join(m for m in (mark(r.note), mark(r.reason)) if m)
         sfa = f"{_cell(r, r.sfa, a.omega0, with_u=True, u=r.sfa_uncertainty)} {mark(r.sfa_reason)}".rstrip()

@@ -15,6 +15,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from .readings import branch_samples
 from .sfa import SfaReadings, deviating_rung, emission_deviation
 from .verdict import AGREE_WITHIN
 
@@ -72,19 +73,6 @@ def sfa_emission_after_crest(emission, orbits, branch, period) -> float:
         if abs(at[k] - t) <= 0.5 * period:
             after.append(at[k] - crest[k])
     return float(np.median(after)) if after else math.nan
-
-
-def _central(emission):
-    """The samples of the half cycles that hold at least half as many samples as the
-    fullest one: those the emission-time rows take their medians over
-    (:func:`tdse1d.analysis.readings.emission_timing`), so the SFA value is read on the
-    same photon energies and half cycles as the run's and the classical values."""
-    labels, counts = np.unique(emission.half_cycle, return_counts=True)
-    if not counts.size:
-        return emission
-    keep = np.isin(emission.half_cycle, labels[counts >= 0.5 * counts.max()])
-    return replace(emission, **{name: getattr(emission, name)[keep]
-                                for name in ("half_cycle", "frequency", "quantum", "short", "long")})
 
 
 def _rung(row, sfa_value, sfa_u):
@@ -148,7 +136,7 @@ def with_sfa(table, a, sfa: SfaReadings | None, orbits: dict | None = None) -> l
             if orbits is None or a.emission is None:
                 reason = "no quantum orbits stored"
             else:
-                value = sfa_emission_after_crest(_central(a.emission), orbits, branch, r.period)
+                value = sfa_emission_after_crest(branch_samples(a.emission, branch), orbits, branch, r.period)
                 # the saddle-point return times are solved to round-off: no reading width
                 u = 0.0 if math.isfinite(value) else math.nan
                 reason = "" if math.isfinite(value) else "no quantum orbit meets the run's plateau samples"
