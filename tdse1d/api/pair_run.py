@@ -124,7 +124,7 @@ class PairEstimateResult:
     memory : int
         Bytes the run holds (:func:`tdse1d.runs.pair_runner.pair_memory_bytes`).
     wall : tdse1d.runs.pair_runner.PairWallEstimate
-        The step's floor measured on this machine now and the run's wall time from it (s).
+        Steps of the run timed on this machine now and the run's wall time from them (s).
     """
 
     problem: object
@@ -142,7 +142,7 @@ class PairEstimateResult:
     def __repr__(self) -> str:
         p = self.problem
         return (f"<PairEstimateResult {p.grid.points}^2 points, {p.time.steps} steps, "
-                f"{self.memory / 2**20:.0f} MiB, wall {self.wall.low / 60:.2g}-{self.wall.high / 60:.2g} min>")
+                f"{self.memory / 2**20:.3g} MiB, wall {self.wall.wall / 60:.3g} min>")
 
 
 def estimate_pair(config) -> PairEstimateResult:

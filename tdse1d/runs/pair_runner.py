@@ -33,7 +33,7 @@ from ..physics.threads import one_blas_thread
 from ..semiclassical.double_ionization import knee_estimate, sequential_double_ionization
 
 __all__ = ["PairRunResult", "PairRunStopped", "simulate_pair", "pair_memory_bytes", "check_pair_memory", "snapshot_shape",
-           "PairWallEstimate", "estimate_pair_wall_time", "STEP_OVER_FLOOR",
+           "PairWallEstimate", "estimate_pair_wall_time",
            "snapshot_steps", "snapshot_times", "THREADS", "MEMORY_SHARE"]
 
 #: FFTW threads of the 2-D step (the machine's cores, at most 2 unless told otherwise)
@@ -73,109 +73,93 @@ def pair_memory_bytes(problem: PairProblem) -> int:
 #: largest share of the machine's available memory a run may plan to hold
 MEMORY_SHARE = 0.8
 
-#: a step of the run against the floor of its grid (two threaded 2-D FFTs and three
-#: point-wise products): 1.5 is the issue's target, 3 about what docs/performance.md
-#: measured for the step with its region readings on the shared 2-core machine
-STEP_OVER_FLOOR = (1.5, 3.0)
-#: largest grid (points per axis) on which the floor is timed; larger grids scale it by
-#: N^2 log N^2 (the FFT's count of operations)
-FLOOR_TIMED_POINTS = 1024
+#: largest grid (points per axis) on which steps are timed for an estimate; a larger
+#: grid's step is scaled by N^2 log N^2 (the FFT's count of operations)
+TIMED_POINTS = 512
+#: steps timed (after one that loads the compiled kernels); the fastest counts
+TIMED_STEPS = 4
 
 
 @dataclass(frozen=True)
 class PairWallEstimate:
-    """The wall time of a run, from the floor of its step timed on this machine.
+    """The wall time of a run's propagation, from steps of it timed on this machine.
 
     Attributes
     ----------
-    floor : float
-        Seconds of two threaded 2-D FFTs plus three point-wise products on the run's
-        grid, timed now (best of a few; scaled from a smaller grid when it is large).
+    step : float
+        Seconds per step: the fastest of :data:`TIMED_STEPS` steps of the run's own
+        propagator (its scheme, gauge, absorber and region readings) on its grid, or on
+        :data:`TIMED_POINTS`^2 scaled by N^2 log N^2 for a larger one.
     steps : int
-    low, high : float
-        Seconds of the propagation: steps x floor x :data:`STEP_OVER_FLOOR`; the bound
-        states and the FFT planning come on top.
+    wall : float
+        ``steps * step`` (s); the bound states and the FFT planning come on top.
     load : float
-        One-minute load average when timed (NaN where unknown): a loaded machine runs
-        slower, and so does the run.
+        One-minute load average when timed (NaN where unknown): the run goes slower
+        on a machine busier than that.
     timed_points : int
         Points per axis of the timed grid.
     """
 
-    floor: float
+    step: float
     steps: int
-    low: float
-    high: float
+    wall: float
     load: float
     timed_points: int
 
     def to_json(self) -> dict:
-        return {"step_floor_s": self.floor, "wall_time_s": [self.low, self.high], "load_average": self.load,
-                "step_over_floor": list(STEP_OVER_FLOOR), "floor_timed_points": self.timed_points}
+        return {"step_time_s": self.step, "wall_time_s": self.wall, "load_average": self.load,
+                "timed_points_per_axis": self.timed_points}
 
 
-def estimate_pair_wall_time(problem: PairProblem, threads: int = THREADS, repeats: int = 3) -> PairWallEstimate:
-    """Time the floor of a step on the run's grid and scale it to the run's steps.
+def estimate_pair_wall_time(problem: PairProblem, threads: int = THREADS) -> PairWallEstimate:
+    """Time a few steps of the run's propagator and scale them to the run.
+
+    The state stepped is a Gaussian (the step's cost does not depend on it), so the
+    problem needs no states. FFTW plans are estimated, not measured: the run's measured
+    plans are as fast or faster.
 
     Parameters
     ----------
     problem : PairProblem
-        Its states are not needed.
     threads : int
-        FFTW threads (those of the run).
-    repeats : int
-        Timings of the floor; the best counts.
+        FFTW and kernel threads (one below :data:`THREADED_FROM_POINTS` points per axis, as the run).
 
     Returns
     -------
     PairWallEstimate
     """
-    from ..physics.fft import InPlaceFFT
-
+    cfg = problem.config
     n = problem.grid.points
-    m = min(n, FLOOR_TIMED_POINTS)
-    fft = InPlaceFFT((m, m), "FFTW_ESTIMATE", threads)  # no planning time: an estimate
-    psi = fft.data
-    psi[:] = 1.0 / m
-    phase = np.exp(-1j * np.linspace(0.0, 1.0, m * m)).reshape(m, m)
-    best = math.inf
-    for _ in range(repeats + 1):  # the first warms the caches up
-        start = _time.perf_counter()
-        np.multiply(psi, phase, out=psi)
-        fft.forward()
-        np.multiply(psi, phase, out=psi)
-        fft.backward()
-        np.multiply(psi, phase, out=psi)
-        best = min(best, _time.perf_counter() - start)
-    floor = best * (n * n * math.log(n * n)) / (m * m * math.log(m * m))
+    m = min(n, TIMED_POINTS)
+    if m < THREADED_FROM_POINTS:
+        threads = 1
+    axis = Grid(m, problem.grid.spacing)
+    grid2 = Grid.product(axis, axis)
+    dt = problem.time.step
+    absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
+    width = min(problem.absorber_width, axis.half_width / 2)
+    mask = absorber.step_factor(grid2, width, dt)
+    psi0 = np.exp(-0.5 * (grid2.positions(0) ** 2 + grid2.positions(1) ** 2)).astype(complex)
+    psi0 /= math.sqrt(float(np.sum(np.abs(psi0) ** 2)) * axis.spacing**2)
+    system = TwoElectrons(axis, problem.atom, absorber_factor=mask, reference=psi0)
+    times = problem.time.times[:TIMED_STEPS + 2]
+    with one_blas_thread(), _kernel_threads(threads):
+        prop = Propagator(system, problem.field, times, gauge=cfg.propagation.gauge,
+                          scheme=SCHEMES[cfg.propagation.scheme_name], fft_effort="FFTW_ESTIMATE", threads=threads)
+        prop.start(psi0)
+        prop.advance(1)  # loads the compiled kernels
+        best = math.inf
+        for _ in range(TIMED_STEPS):
+            start = _time.perf_counter()
+            prop.advance(1)
+            best = min(best, _time.perf_counter() - start)
+    step = best * (n * n * math.log(n * n)) / (m * m * math.log(m * m))
     try:
         load = os.getloadavg()[0]
     except OSError:  # not offered on this system
         load = math.nan
     steps = problem.time.steps
-    return PairWallEstimate(floor, steps, steps * floor * STEP_OVER_FLOOR[0], steps * floor * STEP_OVER_FLOOR[1],
-                            load, m)
-
-
-def check_pair_memory(problem: PairProblem) -> None:
-    """Refuse, before anything is allocated, a run that would not fit in memory.
-
-    Raises
-    ------
-    InputError
-        Naming ``grid.points``, with the estimate and what is available.
-    """
-    from ..input.spec import InputError
-
-    need = pair_memory_bytes(problem)
-    try:
-        available = os.sysconf("SC_AVPHYS_PAGES") * os.sysconf("SC_PAGE_SIZE")
-    except (ValueError, OSError, AttributeError):  # not offered on this system
-        return
-    if need > MEMORY_SHARE * available:
-        raise InputError(f"the run would hold about {need / 2**30:.2f} GiB ({problem.grid.points}^2 points), more "
-                         f"than {MEMORY_SHARE:.0%} of the {available / 2**30:.2f} GiB available: use fewer points",
-                         "grid.points", problem.config.source)
+    return PairWallEstimate(step, steps, steps * step, load, m)
 
 
 def snapshot_steps(problem: PairProblem) -> np.ndarray:
