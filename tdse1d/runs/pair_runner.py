@@ -162,6 +162,27 @@ def estimate_pair_wall_time(problem: PairProblem, threads: int = THREADS) -> Pai
     return PairWallEstimate(step, steps, steps * step, load, m)
 
 
+def check_pair_memory(problem: PairProblem) -> None:
+    """Refuse, before anything is allocated, a run that would not fit in memory.
+
+    Raises
+    ------
+    InputError
+        Naming ``grid.points``, with the estimate and what is available.
+    """
+    from ..input.spec import InputError
+
+    need = pair_memory_bytes(problem)
+    try:
+        available = os.sysconf("SC_AVPHYS_PAGES") * os.sysconf("SC_PAGE_SIZE")
+    except (ValueError, OSError, AttributeError):  # not offered on this system
+        return
+    if need > MEMORY_SHARE * available:
+        raise InputError(f"the run would hold about {need / 2**30:.2f} GiB ({problem.grid.points}^2 points), more "
+                         f"than {MEMORY_SHARE:.0%} of the {available / 2**30:.2f} GiB available: use fewer points",
+                         "grid.points", problem.config.source)
+
+
 def snapshot_steps(problem: PairProblem) -> np.ndarray:
     """Steps of the ``output.snapshots`` snapshots, first and last included."""
     count, steps = problem.config.output.snapshots, problem.time.steps
