@@ -25,8 +25,7 @@ Checks against what lies outside the code under test:
 import io
 import json
 import math
-import subprocess
-import sys
+from types import SimpleNamespace
 
 import h5py
 import numpy as np
@@ -64,9 +63,14 @@ snapshot_stride = 4
 AU_FS = sc.hbar / sc.physical_constants["Hartree energy"][0] * 1e15
 
 
-def _cli(*args):
-    return subprocess.run([sys.executable, "-m", "tdse1d.cli", *map(str, args)], capture_output=True, text=True,
-                          timeout=300)
+def _cli(capsys, *args):
+    """The command in this process (its imports and compiled kernels are loaded once)."""
+    from tdse1d.cli import program
+
+    capsys.readouterr()
+    status = program.main([str(a) for a in args])
+    out, err = capsys.readouterr()
+    return SimpleNamespace(returncode=status, stdout=out, stderr=err)
 
 
 def _one_line_error(done):
@@ -89,7 +93,7 @@ def _yields(path):
     return table, {name.split(" [")[0]: table.data[:, k] for k, name in enumerate(table.names)}
 
 
-def test_exported_yields_conserve_the_norm_and_have_units(run):
+def test_exported_yields_conserve_the_norm_and_have_units(run, capsys):
     table, cols = _yields(run["file"])
     assert table.names[0] == "time [fs]" and all(n.endswith("[1]") for n in table.names[1:])
     with h5py.File(run["file"]) as f:
@@ -107,7 +111,7 @@ def test_exported_yields_conserve_the_norm_and_have_units(run):
     assert np.max(np.abs(mixed - 1)) > 1e-6
     # the CSV the command writes holds the same table
     out = run["base"] / "yields.csv"
-    done = _cli("export", run["file"], "--what", "yields", "-o", out)
+    done = _cli(capsys, "export", run["file"], "--what", "yields", "-o", out)
     assert done.returncode == 0, done.stderr
     np.testing.assert_array_equal(np.loadtxt(out, delimiter=",", skiprows=1), np.loadtxt(
         io.StringIO(_csv(table)), delimiter=",", skiprows=1))
@@ -119,7 +123,7 @@ def _csv(table):
     return buffer.getvalue()
 
 
-def test_report_rows_follow_the_yields_and_the_verdict_rule(run):
+def test_report_rows_follow_the_yields_and_the_verdict_rule(run, capsys):
     report = api.report(run["file"])
     assert isinstance(report, PairReport) and len(repr(report)) < 300
     rows = {r.key: r for r in report.rows}
@@ -141,10 +145,10 @@ def test_report_rows_follow_the_yields_and_the_verdict_rule(run):
     assert knee.quantum == pytest.approx(rows["ion_ionization_potential"].quantum) and knee.verdict == ""
     assert "below the ion's Ip2" in knee.note  # 0.071 hartree against Ip2 = 1.48
     # the command prints the table and the same rows as JSON
-    done = _cli("report", run["file"])
+    done = _cli(capsys, "report", run["file"])
     assert done.returncode == 0, done.stderr
     assert "double / single ionization" in done.stdout and "3.17 Up" in done.stdout
-    data = json.loads(_cli("report", run["file"], "--json").stdout)
+    data = json.loads(_cli(capsys, "report", run["file"], "--json").stdout)
     assert [r["key"] for r in data["rows"]] == [r.key for r in report.rows]
 
 
@@ -169,34 +173,34 @@ def test_each_verdict_word_from_constructed_records(double, word):
     assert row.verdict == word, row
 
 
-def test_plot_draws_the_pair_figures_and_refuses_others_in_one_line(run):
+def test_plot_draws_the_pair_figures_and_refuses_others_in_one_line(run, capsys):
     out = run["base"] / "fig.png"
     figures = api.plot(run["file"], "all", out)
     assert set(figures.files) == {"yields", "momentum-map", "field", "harmonic"}
     assert all(p.stat().st_size > 1000 for p in figures.paths)
-    assert _one_line_error(_cli("plot", run["file"], "--what", "populations", "-o", run["base"] / "p.png"))
+    assert _one_line_error(_cli(capsys, "plot", run["file"], "--what", "populations", "-o", run["base"] / "p.png"))
 
 
-def test_export_refuses_what_the_file_cannot_give_in_one_line(run, tmp_path):
-    done = _cli("export", run["file"], "--what", "photoelectron")
+def test_export_refuses_what_the_file_cannot_give_in_one_line(run, capsys, tmp_path):
+    done = _cli(capsys, "export", run["file"], "--what", "photoelectron")
     assert _one_line_error(done) and "two-electron" in done.stderr
     # null: a one-electron run has no yields of the two-electron atom
     path = tmp_path / "one.toml"
     path.write_text(small_input(cycles=1, points=256, absorber_width="10 bohr", after_pulse="0.1 fs"))
     one = api.run(path, tmp_path / "one.h5").path
-    done = _cli("export", one, "--what", "yields")
+    done = _cli(capsys, "export", one, "--what", "yields")
     assert _one_line_error(done) and "two-electron" in done.stderr
 
 
-def test_estimate_gives_the_runs_grid_steps_and_memory(run):
+def test_estimate_gives_the_runs_grid_steps_and_memory(run, capsys):
     est = api.estimate(run["input"])
     problem = run["problem"]
     with h5py.File(run["file"]) as f:
         assert est.problem.time.steps == f.attrs["steps"] and est.problem.grid.points == f.attrs["grid_points"]
     assert est.memory == pair_memory_bytes(problem)  # the estimate without states counts the same states
     assert est.wall.wall > 0 and math.isfinite(est.wall.wall) and len(repr(est)) < 300
-    done = _cli("estimate", run["input"])
+    done = _cli(capsys, "estimate", run["input"])
     assert done.returncode == 0, done.stderr
     assert "48 x 48" in done.stdout and f"{problem.time.steps}" in done.stdout and "wall time" in done.stdout
-    data = json.loads(_cli("estimate", run["input"], "--json").stdout)
+    data = json.loads(_cli(capsys, "estimate", run["input"], "--json").stdout)
     assert data["steps"] == problem.time.steps and data["memory_bytes"] == est.memory
