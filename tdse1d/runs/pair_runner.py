@@ -10,6 +10,15 @@ their number), and progress. At the end: the correlated momentum map of the doub
 part, the harmonic spectrum of the total dipole acceleration, and beside them the
 sequential estimate for the same pulse with the ionization potentials of the model
 (:mod:`tdse1d.semiclassical.double_ionization`).
+
+Stopping and continuing as for one electron (:mod:`tdse1d.runs.runner`): between chunks
+the run asks its :class:`~tdse1d.runs.runner.RunControl` whether a checkpoint is due,
+hands a :class:`~tdse1d.runs.pair_checkpoint.PairRunState` to its checkpoint sink and,
+for a stop, raises :class:`~tdse1d.runs.runner.RunInterrupted`; ``resume=state``
+continues with the same steps and sums, so the result is the same to the bit.
+
+Before a run: its memory (:func:`pair_memory_bytes`, checked against the machine's) and
+its wall time (:func:`estimate_pair_wall_time`, from steps of its propagator timed now).
 """
 
 from __future__ import annotations
