@@ -147,6 +147,7 @@ def test_report_rows_follow_the_yields_and_the_verdict_rule(run, capsys):
     # the command prints the table and the same rows as JSON
     done = _cli(capsys, "report", run["file"])
     assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == report.table().strip()  # the command prints what the library returns
     assert "double / single ionization" in done.stdout and "3.17 Up" in done.stdout
     data = json.loads(_cli(capsys, "report", run["file"], "--json").stdout)
     assert [r["key"] for r in data["rows"]] == [r.key for r in report.rows]

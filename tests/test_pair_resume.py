@@ -172,3 +172,27 @@ def test_a_checkpoint_of_another_input_is_refused_in_one_line(interrupted, tmp_p
     lines = done.stderr.strip().splitlines()
     assert len(lines) == 1 and "different input" in lines[0] and "Traceback" not in done.stderr
     assert checkpoint_path(out).exists() and not out.exists()  # the checkpoint is left alone
+
+
+def test_a_stop_after_the_last_step_lets_the_run_finish(interrupted, tmp_path):
+    """As for one electron (docs/checkpoints.md): a SIGTERM while the run analyses and
+    writes its result finishes it, exit status 0, a complete file, no checkpoint."""
+    from tdse1d.io.result_file import is_complete
+
+    hold = Handshake(tmp_path / "hold")
+    out = tmp_path / "late.h5"
+    proc = subprocess.Popen([sys.executable, "-m", "tdse1d.cli", "run", str(interrupted["input"]), "-o", str(out),
+                             "--quiet"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            env={**os.environ, **hold.environment, "TDSE1D_TEST_HOLD_AT": "analysis"})
+    try:
+        hold.wait("analysis", lambda: proc.poll() is None)
+        proc.send_signal(signal.SIGTERM)
+        _, err = proc.communicate(timeout=120)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+        hold.close()
+    assert proc.returncode == 0, err
+    assert "after the last time step" in err and "Traceback" not in err
+    assert is_complete(out) and not checkpoint_path(out).exists()
+    assert _differences(_contents(interrupted["full"]), _contents(out)) == []
