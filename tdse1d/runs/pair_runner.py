@@ -67,8 +67,9 @@ def snapshot_shape(problem: PairProblem) -> tuple[int, int]:
 
 def pair_memory_bytes(problem: PairProblem) -> int:
     """Memory (bytes) a run holds, estimated before it starts: the propagator's arrays,
-    the bound states, one snapshot in flight, and the per-step records; flat in the
-    number of snapshots (they go to the sink one at a time)."""
+    the bound states, one snapshot in flight, and the per-step records, twice (a
+    checkpoint copies them); flat in the number of snapshots (they go to the sink, and
+    into a checkpoint, one at a time)."""
     from ..input.pair_problem import pair_state_count
 
     size = problem.grid.points**2
@@ -76,7 +77,7 @@ def pair_memory_bytes(problem: PairProblem) -> int:
     count = len(problem.states) if problem.states is not None else pair_state_count(problem.config)
     states = count * size * 8
     snap = int(np.prod(snapshot_shape(problem))) * 4
-    return (_COMPLEX_ARRAYS * 16 + _REAL_ARRAYS * 8) * size + states + snap + records
+    return (_COMPLEX_ARRAYS * 16 + _REAL_ARRAYS * 8) * size + states + snap + 2 * records
 
 
 #: largest share of the machine's available memory a run may plan to hold
