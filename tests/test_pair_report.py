@@ -205,3 +205,13 @@ def test_estimate_gives_the_runs_grid_steps_and_memory(run, capsys):
     assert "48 x 48" in done.stdout and f"{problem.time.steps}" in done.stdout and "wall time" in done.stdout
     data = json.loads(_cli(capsys, "estimate", run["input"], "--json").stdout)
     assert data["steps"] == problem.time.steps and data["memory_bytes"] == est.memory
+    # 3.17 Up against Ip2: the Corkum law for the input's field; they meet where the
+    # intensity (c eps0 E^2 / 2, CODATA) times 3.17 Up / I is Ip2 (Up grows as I)
+    k = est.knockout
+    up = FIELD**2 / (4 * OMEGA**2)
+    assert k["return_energy"] == pytest.approx(3.17 * up, rel=1e-12)
+    assert k["ion_ionization_potential"] == pytest.approx(problem.ion_ionization_potential, rel=1e-12)
+    field_si = FIELD * sc.physical_constants["atomic unit of electric field"][0]
+    peak = 0.5 * sc.c * sc.epsilon_0 * field_si**2 / 1e4  # W/cm^2
+    assert k["knockout_intensity_W_cm2"] == pytest.approx(peak * k["ion_ionization_potential"] / (3.17 * up), rel=1e-9)
+    assert "3.17 Up against the ion's Ip2" in done.stdout and "not possible" in done.stdout

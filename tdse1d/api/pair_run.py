@@ -125,11 +125,31 @@ class PairEstimateResult:
         Bytes the run holds (:func:`tdse1d.runs.pair_runner.pair_memory_bytes`).
     wall : tdse1d.runs.pair_runner.PairWallEstimate
         Steps of the run timed on this machine now and the run's wall time from them (s).
+    ion_ionization_potential : float
+        Ip2 = -E of the one-electron ion's ground state on one axis of the grid (hartree).
     """
 
     problem: object
     memory: int
     wall: object
+    ion_ionization_potential: float = float("nan")
+
+    @property
+    def knockout(self) -> dict:
+        """Up and 3.17 Up of the strongest pulse against Ip2 (hartree), and the peak
+        intensity (W/cm^2) where they meet (Corkum, Phys. Rev. Lett. 71, 1994 (1993));
+        empty without a pulse."""
+        from .. import units
+        from ..semiclassical.double_ionization import knockout_threshold_field, maximum_return_energy
+
+        pulses = [q for q in self.problem.field.pulses if q.omega > 0]
+        if not pulses:
+            return {}
+        q = max(pulses, key=lambda q: q.peak_field)
+        up = q.peak_field**2 / (4 * q.omega**2)
+        ip2 = self.ion_ionization_potential
+        return {"ponderomotive_energy": up, "return_energy": maximum_return_energy(up), "ion_ionization_potential": ip2,
+                "knockout_intensity_W_cm2": units.field_to_intensity(knockout_threshold_field(q.omega, ip2))}
 
     def to_json(self) -> dict:
         """Grid, steps, memory (bytes) and wall time (s), atomic units elsewhere."""
@@ -137,7 +157,8 @@ class PairEstimateResult:
         return {"model": "two-electron", "grid": {"points_per_axis": p.grid.points, "spacing": p.grid.spacing,
                                                   "points": p.grid.points**2, "absorber_width": p.absorber_width},
                 "time_step": p.time.step, "steps": p.time.steps, "duration": p.time.end - p.time.start,
-                "snapshots": p.config.output.snapshots, "memory_bytes": self.memory, **self.wall.to_json()}
+                "snapshots": p.config.output.snapshots, "memory_bytes": self.memory, **self.wall.to_json(),
+                "knockout": self.knockout}
 
     def __repr__(self) -> str:
         p = self.problem
@@ -147,7 +168,8 @@ class PairEstimateResult:
 
 def estimate_pair(config) -> PairEstimateResult:
     """:func:`tdse1d.api.estimate` for the two-electron atom: the grid, the steps, the
-    memory and the wall time of its run, without computing its states.
+    memory and the wall time of its run, without computing the atom's states; and 3.17 Up
+    against the ion's Ip2 (from the ion's states on one axis).
 
     Parameters
     ----------
@@ -159,7 +181,10 @@ def estimate_pair(config) -> PairEstimateResult:
     PairEstimateResult
     """
     from ..input.pair_problem import build_pair_problem
+    from ..physics.states import bound_states
     from ..runs.pair_runner import estimate_pair_wall_time, pair_memory_bytes
 
     problem = build_pair_problem(config, compute_states=False)
-    return PairEstimateResult(problem, pair_memory_bytes(problem), estimate_pair_wall_time(problem))
+    ion = bound_states(problem.grid, problem.atom.ion())  # one axis: cheap beside the atom's 2-D states
+    return PairEstimateResult(problem, pair_memory_bytes(problem), estimate_pair_wall_time(problem),
+                              -float(ion.energies[0]))

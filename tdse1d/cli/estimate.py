@@ -73,7 +73,22 @@ def _pair_rows(est):
                                                                          f", scaled to {g.points}^2 as N^2 log N^2")),
         ("wall time (propagation)", wall, "steps x time per step; the states and FFTW planning come on top, and a "
                                           "busier machine runs slower"),
-    ]
+    ] + _knockout_rows(est)
+
+
+def _knockout_rows(est):
+    """3.17 Up of the strongest pulse against the ion's Ip2."""
+    from .. import units
+
+    k = est.knockout
+    if not k:
+        return []
+    ev = units.HARTREE_EV
+    above = k["return_energy"] >= k["ion_ionization_potential"]
+    return [("ponderomotive energy Up", f"{k['ponderomotive_energy'] * ev:.4f} eV", "strongest pulse"),
+            ("3.17 Up against the ion's Ip2", f"{k['return_energy'] * ev:.2f} eV",
+             f"{'above' if above else 'below'} Ip2 = {k['ion_ionization_potential'] * ev:.2f} eV: direct knock-out "
+             f"{'possible' if above else 'not possible'}; they meet at {k['knockout_intensity_W_cm2']:.3g} W/cm^2")]
 
 
 def main(args):
