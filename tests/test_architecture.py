@@ -31,7 +31,7 @@ LAYERS = (
     ("run", ("tdse1d.runs",)),
     # the library functions of one input (run, find_states, estimate); below scan and
     # validate, which run their points and cases through it
-    ("api", ("tdse1d.api.single_run",)),
+    ("api", ("tdse1d.api.single_run", "tdse1d.api.pair_run")),
     ("scan", ("tdse1d.scans",)),
     ("plots", ("tdse1d.plots",)),
     ("validate", ("tdse1d.validation",)),

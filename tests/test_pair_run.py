@@ -132,9 +132,11 @@ def test_run_command_writes_the_declared_file(tmp_path, capsys):
         assert f["two_electron/snapshots/density"].shape == (3, 24, 24)
         r = f["two_electron/regions/double_ionization"]
         assert r.shape == (3, f.attrs["steps"] + 1)
-    # --resume has no checkpoint to continue from (none is written yet): it says so
+    # --resume without a checkpoint runs from the start (tests/test_pair_resume.py resumes one)
     assert cli.main(["run", str(path), "-o", str(tmp_path / "again.h5"), "--resume", "--quiet"]) == 0
-    assert "writes no checkpoint yet" in capsys.readouterr().err
+    with h5py.File(out) as f, h5py.File(tmp_path / "again.h5") as g:
+        assert np.array_equal(f["two_electron/regions/double_ionization"][()],
+                              g["two_electron/regions/double_ionization"][()])
 
 
 def test_knee_scan_gathers_and_draws(tmp_path, capsys):
@@ -162,10 +164,9 @@ def test_knee_scan_gathers_and_draws(tmp_path, capsys):
     assert (tmp_path / "knee.png").stat().st_size > 1000
 
 
-def test_a_stop_request_ends_the_run_and_leaves_no_file(tmp_path):
+def test_a_stop_request_leaves_a_checkpoint_and_no_result(tmp_path):
     from tdse1d.api import single_run as api
-    from tdse1d.runs.pair_runner import PairRunStopped
-    from tdse1d.runs.runner import RunControl
+    from tdse1d.runs.runner import RunControl, RunInterrupted
 
     problem = _problem(absorber__width=3.0)
     control = RunControl(None)
@@ -175,6 +176,7 @@ def test_a_stop_request_ends_the_run_and_leaves_no_file(tmp_path):
             control.request_stop()
 
     out = tmp_path / "stopped.h5"
-    with pytest.raises(PairRunStopped):
+    with pytest.raises(RunInterrupted):
         api.run(problem, out, progress=stop_after_first_chunk, control=control)
-    assert list(tmp_path.iterdir()) == []  # neither the file nor its .part nor the lock
+    # neither the file nor its .part nor the lock: only the checkpoint to resume from
+    assert [p.name for p in tmp_path.iterdir()] == ["stopped.h5.checkpoint"]

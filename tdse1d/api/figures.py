@@ -16,7 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from ..input.spec import InputError
-from ..plots import run_figures, scan_figures, sfa_figures
+from ..plots import pair_figures, run_figures, scan_figures, sfa_figures
 from ..spectra.derived import DERIVED_SPECTRA
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 
@@ -218,6 +218,8 @@ KINDS = {
         **{name.replace("_", "-"): _derived(name) for name in DERIVED_SPECTRA},
     },
     "scan-summary": scan_figures.FIGURES,
+    # a run file holding two_electron/ (its kind attribute is "run"): see plot()
+    "two-electron": pair_figures.FIGURES,
 }
 
 
@@ -295,6 +297,8 @@ def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
     written = {}
     with open_result(path, kinds=KINDS) as f:
         kind = f.kind
+        if kind == "run" and "two_electron" in f:  # a run of the two-electron atom: its own figures
+            kind = "two-electron"
         figures = KINDS[kind]
         if what != "all" and what not in figures:
             raise InputError(f"{what!r} is not a figure of a {kind} file; choose from {', '.join(figures)}", "--what")

@@ -107,7 +107,7 @@ def _derived_readings(f) -> dict:
             for name, spectrum in DERIVED_SPECTRA.items() if f"spectra/{name}" in f}
 
 
-def report(path) -> Report:
+def report(path):
     """Each semiclassical prediction beside the quantum result of a run (``tdse1d report``).
 
     Parameters
@@ -117,19 +117,26 @@ def report(path) -> Report:
 
     Returns
     -------
-    Report
+    Report or tdse1d.analysis.pair_report.PairReport
         Rows of quantity, key, prediction and its source, quantum value, combined
         uncertainty, unit (atomic units), verdict (agrees, deviates, unresolved) and
         note; the table and JSON show eV, fs, cycles and harmonic orders too. A file
         with SFA spectra (``spectra.sfa = true``) adds the SFA column: each row's SFA
-        value and uncertainty and which rung (classical, SFA, run) deviates.
+        value and uncertainty and which rung (classical, SFA, run) deviates. A run of the
+        two-electron atom gives a ``PairReport``: the double-to-single ratio and the
+        yields against the sequential estimate, 3.17 Up against the ion's Ip.
     """
     from ..io.analysis_file import (analyse_file, ionization_band, ionization_note,
                                     target_ionization_potential)
     from ..io.checked_open import open_result
+    from ..io.pair_result_file import is_pair_result, read_pair_record
     from ..io.sfa_file import read_sfa, read_sfa_readings
 
     with open_result(path, kinds=("run",)) as f:
+        if is_pair_result(f):  # a run of the two-electron atom: its own rows (analysis/pair_report.py)
+            from ..analysis.pair_report import PairReport
+
+            return PairReport(Path(path), read_pair_record(f))
         analysis = analyse_file(f)
         target = target_ionization_potential(f.attrs.get("input", ""))
         note = ionization_note(f["ionization"]) if "ionization" in f else ""
@@ -196,10 +203,24 @@ def _derived_columns(name):
     return columns_of
 
 
+def _yield_columns(f):
+    from ..analysis.pair_report import yield_columns
+    from ..io.pair_result_file import is_pair_result, read_pair_record
+
+    if not is_pair_result(f):
+        raise InputError("yields are the two-electron atom's (neutral, single, double); this is a run of one "
+                         "electron", "--what")
+    return "yield", yield_columns(read_pair_record(f))
+
+
+#: what a run of the two-electron atom offers to export
+PAIR_SPECTRA = ("yields", "harmonic")
+
+
 def _spectra():
     from ..spectra.derived import DERIVED_SPECTRA
 
-    return {"harmonic": _harmonic_columns, "photoelectron": _photoelectron_columns,
+    return {"harmonic": _harmonic_columns, "photoelectron": _photoelectron_columns, "yields": _yield_columns,
             "time-frequency": _time_frequency_columns,
             **{name.replace("_", "-"): _derived_columns(name) for name in DERIVED_SPECTRA}}
 
@@ -290,7 +311,10 @@ def export(path, what: str = "harmonic", units: str = "eV", output=None) -> Tabl
     path : path
         Result file of a run.
     what : str
-        A spectrum of :data:`SPECTRA`: harmonic, photoelectron or time-frequency.
+        A spectrum of :data:`SPECTRA`: harmonic, photoelectron or time-frequency; for a
+        run of the two-electron atom ``yields`` (the neutral, single and double
+        yields through the run at each region radius, and the sequential estimate) or
+        harmonic.
     units : str
         Unit of the energy column: ``eV``, ``au`` (hartree) or ``nm`` (photon wavelength;
         photon spectra only). Times are in fs, other columns in atomic units.
@@ -307,6 +331,11 @@ def export(path, what: str = "harmonic", units: str = "eV", output=None) -> Tabl
     if what not in SPECTRA:
         raise InputError(f"unknown spectrum {what!r}; choose from {', '.join(sorted(SPECTRA))}", "--what")
     with open_result(path, kinds=("run",)) as f:
+        from ..io.pair_result_file import is_pair_result
+
+        if is_pair_result(f) and what not in PAIR_SPECTRA:
+            raise InputError(f"a run of the two-electron atom offers {' and '.join(PAIR_SPECTRA)}, not {what!r}",
+                             "--what")
         names, data = columns(f, what, units)
     table = Table(what, names, data)
     if output is None:

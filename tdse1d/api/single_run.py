@@ -25,7 +25,8 @@ from ..input.problem import Problem, build_problem
 from ..physics.states import BoundStates
 
 __all__ = ["load_input", "find_states", "states", "estimate", "run", "run_problem", "StatesResult", "PairStatesResult",
-           "EstimateResult", "RunOutcome", "PairRunOutcome", "run_pair_problem", "output_path", "default_control"]
+           "EstimateResult", "RunOutcome", "PairRunOutcome", "run_pair_problem", "PairEstimateResult", "output_path",
+           "default_control"]
 
 
 @dataclass(frozen=True)
@@ -164,7 +165,7 @@ def find_states(config: RunConfig | str, count: int | None = None) -> StatesResu
     return StatesResult(build_problem(config))
 
 
-def estimate(config: RunConfig | str, resources: bool = True) -> EstimateResult:
+def estimate(config: RunConfig | str, resources: bool = True) -> EstimateResult | PairEstimateResult:
     """Semiclassical estimates for the input's pulses (``tdse1d estimate``; see
     :mod:`tdse1d.semiclassical.estimates`).
 
@@ -177,12 +178,18 @@ def estimate(config: RunConfig | str, resources: bool = True) -> EstimateResult:
 
     Returns
     -------
-    EstimateResult
+    EstimateResult or PairEstimateResult
         Per pulse: photon energy, Up, Keldysh parameter, cutoffs (atomic units); the
-        advised grid (bohr, a.u. of time); the resources (bytes) or None.
+        advised grid (bohr, a.u. of time); the resources (bytes) or None. For the
+        two-electron atom (:func:`tdse1d.api.pair_run.estimate_pair`): its grid, steps,
+        memory (bytes) and wall time (s).
     """
     if not isinstance(config, RunConfig):
         config = load_input(config)
+    from ..input.pair_problem import is_pair_model
+
+    if is_pair_model(config):
+        return estimate_pair(config)
     problem = build_problem(config, with_states=False)
     if not resources:
         return EstimateResult(problem)
@@ -379,55 +386,6 @@ def _write_extra(h5, analysis, sfa):
         write_sfa(h5, *sfa)
 
 
-@dataclass(frozen=True)
-class PairRunOutcome:
-    """A finished run of the two-electron atom: its file, its problem and its result
-    (:class:`~tdse1d.runs.pair_runner.PairRunResult`)."""
-
-    path: Path
-    problem: object
-    result: object
-    notes: tuple = field(default=())
-    stopped_late: bool = False
-
-    def __repr__(self) -> str:
-        r = self.result
-        seq = "" if r.sequential is None else f", sequential {r.sequential.ratio:.3g}"
-        return (f"<PairRunOutcome {self.path.name}: {self.problem.time.steps} steps on {self.problem.grid.points}^2, "
-                f"single {r.final('single_ionization'):.3g}, double {r.final('double_ionization'):.3g}, "
-                f"ratio {r.ratio:.3g}{seq}>")
-
-
-def run_pair_problem(problem, output=None, progress=None, resume=False, control=None) -> PairRunOutcome:
-    """:func:`run` for a :class:`~tdse1d.input.pair_problem.PairProblem`: propagate the
-    two-electron atom and write its result file (no checkpoint yet: ``resume`` runs from the start)."""
-    from ..errors import OutputError
-    from ..input.pair_problem import check_pair_absorber
-    from ..input.spec import InputError
-    from ..io.guarded_file import describe_os_error
-    from ..io.pair_result_file import PairResultWriter
-    from ..io.result_file import refuse_reason
-    from ..runs.pair_runner import check_pair_memory, simulate_pair, snapshot_shape, snapshot_times
-
-    config = problem.config
-    # no checkpoint is written for the two-electron atom yet: --resume runs from the start
-    notes = ("the two-electron atom writes no checkpoint yet: --resume ran it from the start",) if resume else ()
-    path = output_path(config, output)
-    reason = refuse_reason(path)
-    if reason is not None:
-        raise InputError(reason, _output_key(config, output), config.source)
-    check_pair_absorber(problem)
-    check_pair_memory(problem)  # before anything is allocated
-    try:
-        with PairResultWriter(path, problem, snapshot_times(problem), snapshot_shape(problem)) as writer:
-            result = simulate_pair(problem, snapshot_sink=writer.snapshot, progress=progress, control=control)
-            writer.write_result(result)
-            writer.close()
-    except OSError as exc:
-        raise OutputError(describe_os_error(exc, path)) from None
-    return PairRunOutcome(path, problem, result, notes=notes)
-
-
 def default_control(config: RunConfig):
     """A :class:`~tdse1d.runs.runner.RunControl` with the input's checkpoint interval (in s)."""
     from .. import units
@@ -498,3 +456,7 @@ def run_problem(problem: Problem, output=None, progress=None, resume=False, cont
     except OSError as exc:
         raise OutputError(describe_os_error(exc, path)) from None
     return RunOutcome(path, problem, result, notes=notes, stopped_late=bool(control.stop_requested))
+
+
+# the two-electron atom's run and estimate live in their own module; named here too
+from .pair_run import PairEstimateResult, PairRunOutcome, estimate_pair, run_pair_problem  # noqa: E402

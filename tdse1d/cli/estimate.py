@@ -49,6 +49,48 @@ def _resource_rows(est):
     return rows
 
 
+def _pair_rows(est):
+    """Rows of the estimate of a run of the two-electron atom (:func:`tdse1d.api.pair_run.estimate_pair`)."""
+    from .. import units
+    from ..runs.pair_runner import MEMORY_SHARE
+    from ..runs.resources import available_memory, format_bytes
+
+    p, w = est.problem, est.wall
+    g, t = p.grid, p.time
+    memory = available_memory()
+    have = f"{format_bytes(memory)} available, {MEMORY_SHARE:.0%} may be planned" if memory else "available: unknown"
+    minutes = w.wall >= 120
+    wall = f"{w.wall / 60:.3g} min" if minutes else f"{w.wall:.3g} s"
+    return [
+        ("grid (x1, x2)", f"{g.points} x {g.points}", f"{g.spacing:.4g} bohr, box +-{g.half_width:.4g} bohr, "
+                                                      f"absorber {p.absorber_width:.4g} bohr on each edge"),
+        ("time steps", f"{t.steps}", f"of {t.step:.4g} a.u., {t.end - t.start:.5g} a.u. "
+                                     f"({units.au_to_fs(t.end - t.start):.3g} fs)"),
+        ("snapshots", f"{p.config.output.snapshots}", f"every {p.config.output.snapshot_stride}th point of each axis"),
+        ("memory (estimate)", format_bytes(est.memory), have),
+        ("time per step", f"{w.step * 1e3:.3g} ms", f"the run's step timed now on {w.timed_points}^2 (load "
+                                                     f"{w.load:.1f})" + ("" if w.timed_points == g.points else
+                                                                         f", scaled to {g.points}^2 as N^2 log N^2")),
+        ("wall time (propagation)", wall, "steps x time per step; the states and FFTW planning come on top, and a "
+                                          "busier machine runs slower"),
+    ] + _knockout_rows(est)
+
+
+def _knockout_rows(est):
+    """3.17 Up of the strongest pulse against the ion's Ip2."""
+    from .. import units
+
+    k = est.knockout
+    if not k:
+        return []
+    ev = units.HARTREE_EV
+    above = k["return_energy"] >= k["ion_ionization_potential"]
+    return [("ponderomotive energy Up", f"{k['ponderomotive_energy'] * ev:.4f} eV", "strongest pulse"),
+            ("3.17 Up against the ion's Ip2", f"{k['return_energy'] * ev:.2f} eV",
+             f"{'above' if above else 'below'} Ip2 = {k['ion_ionization_potential'] * ev:.2f} eV: direct knock-out "
+             f"{'possible' if above else 'not possible'}; they meet at {k['knockout_intensity_W_cm2']:.3g} W/cm^2")]
+
+
 def main(args):
     from .. import units
     from ..api import single_run as api
@@ -57,6 +99,11 @@ def main(args):
     result = api.estimate(load_input(args.input, args.overrides))
     if args.json:
         print(json.dumps(result.to_json(), indent=1))
+        return 0
+    if isinstance(result, api.PairEstimateResult):
+        print("the two-electron atom on a 2-D grid: the run as given (memory estimated, steps timed now)")
+        for name, value, note in _pair_rows(result):
+            print(f"  {name:<30} {value:>20}   {note}")
         return 0
     for i, p in enumerate(result.pulses):
         print(f"pulse {i}")

@@ -99,7 +99,6 @@ def main(args):
     started = time.time()
     from ..input.problem import build_problem
 
-    from ..runs.pair_runner import PairRunStopped
     from ..runs.runner import RunInterrupted
 
     from ..input.pair_problem import build_pair_problem, is_pair_model
@@ -114,10 +113,6 @@ def main(args):
         with fftw_wisdom():
             outcome = api.run(problem, args.output, progress=bar, resume=args.resume,
                                       control=control, strict=args.strict)
-    except PairRunStopped as exc:  # no checkpoint: the partial file is removed
-        bar.close()
-        print(f"tdse1d: {exc}", file=sys.stderr)
-        return EXIT_INTERRUPTED
     except RunInterrupted as exc:
         bar.close()
         from ..runs.checkpoint import checkpoint_path

@@ -39,7 +39,7 @@ from ..physics.states import BoundStates, bound_states
 from ..physics.states_2d import PairStates, pair_states
 from ..physics.two_electron import TwoElectronAtom
 
-__all__ = ["PairProblem", "build_pair_problem", "check_pair_absorber", "is_pair_model", "PAIR_MAX_SPACING", "PAIR_MAX_POINTS"]
+__all__ = ["PairProblem", "build_pair_problem", "pair_state_count", "check_pair_absorber", "is_pair_model", "PAIR_MAX_SPACING", "PAIR_MAX_POINTS"]
 
 #: coarsest automatic spacing (bohr): the ground state within 2e-6 Hartree (see above)
 PAIR_MAX_SPACING = 0.4
@@ -70,9 +70,9 @@ class PairProblem:
     grid : Grid
         The grid of each axis (bohr); the wavefunction's grid is grid x grid.
     atom : TwoElectronAtom
-    states : PairStates
-        The lowest states of the atom, of its spin (Hartree).
-    ion_states : BoundStates
+    states : PairStates or None
+        The lowest states of the atom, of its spin (Hartree); None for an estimate.
+    ion_states : BoundStates or None
         Every bound state of the one-electron ion on one axis of the grid (Hartree).
     field : Field
     time : TimeAxis
@@ -143,7 +143,16 @@ def _pair_grid(config: RunConfig, field) -> Grid:
     return Grid(points, spacing)
 
 
-def build_pair_problem(config: RunConfig, with_states: bool = True) -> PairProblem:
+def pair_state_count(config: RunConfig, with_states: bool = True) -> int:
+    """States of the atom a problem computes: ``atom.bound_states`` (or
+    :data:`PAIR_DEFAULT_STATES`), at least up to the initial state; with
+    ``with_states=False`` only up to the initial state."""
+    top = max(config.atom.initial_state)
+    count = config.atom.bound_states if config.atom.bound_states is not None else PAIR_DEFAULT_STATES
+    return max(count if with_states else 1, top + 1)
+
+
+def build_pair_problem(config: RunConfig, with_states: bool = True, compute_states: bool = True) -> PairProblem:
     """Resolve an input of the two-electron model into a :class:`PairProblem`.
 
     Parameters
@@ -153,6 +162,9 @@ def build_pair_problem(config: RunConfig, with_states: bool = True) -> PairProbl
     with_states : bool
         Compute ``atom.bound_states`` states (or :data:`PAIR_DEFAULT_STATES`);
         otherwise only up to the initial state.
+    compute_states : bool
+        False: compute no states at all (``states`` and ``ion_states`` are None), for
+        an estimate of the run's grid, steps and resources.
 
     Raises
     ------
@@ -167,15 +179,15 @@ def build_pair_problem(config: RunConfig, with_states: bool = True) -> PairProbl
     field = build_field(config)
     grid = _pair_grid(config, field)
     top = max(config.atom.initial_state)
-    count = config.atom.bound_states if config.atom.bound_states is not None else PAIR_DEFAULT_STATES
-    count = max(count if with_states else 1, top + 1)
-    states = pair_states(grid, atom, count=count)
-    ion_states = bound_states(grid, atom.ion())
     notes = []
-    if not states.converged:
+    states = ion_states = None
+    if compute_states:
+        states = pair_states(grid, atom, count=pair_state_count(config, with_states))
+        ion_states = bound_states(grid, atom.ion())
+    if states is not None and not states.converged:
         notes.append(f"the two-electron states did not converge: residuals up to {np.max(states.residuals):.2g} "
                      "Hartree")
-    if top > 0 and not states.energies[top] < ion_states.energies[0]:
+    if states is not None and top > 0 and not states.energies[top] < ion_states.energies[0]:
         notes.append(f"the initial state {top} lies above the ion's ground state: it is not bound")
     prop = config.propagation
     dt = prop.time_step if prop.time_step is not None else PAIR_TIME_STEP

@@ -23,7 +23,50 @@ from ..errors import OutputError
 from .guarded_file import COMPLETE_ATTR, GuardedFile, PART_SUFFIX, WRITER_ATTR, WriterLock, lock_path
 from .result_file import GuardedWriting, refuse_reason, write_dataset
 
-__all__ = ["PairResultWriter"]
+__all__ = ["PairResultWriter", "is_pair_result", "read_pair_record", "PAIR_GROUP"]
+
+#: the group that marks a result file as a run of the two-electron atom
+PAIR_GROUP = "two_electron"
+
+
+def is_pair_result(f) -> bool:
+    """Whether the open result file ``f`` is a run of the two-electron atom."""
+    return PAIR_GROUP in f
+
+
+def read_pair_record(f):
+    """The numbers of a two-electron run file for its report, figures and tables.
+
+    Parameters
+    ----------
+    f : h5py.File or the view of :func:`tdse1d.io.checked_open.open_result`
+
+    Returns
+    -------
+    tdse1d.analysis.pair_report.PairRecord
+        Atomic units; a dataset the record needs and the file lacks raises (the
+        checked view names it in one line).
+    """
+    from ..analysis.pair_report import KINDS, PairRecord
+
+    g = f[PAIR_GROUP]
+    regions = g["regions"]
+    sequential = None
+    if "sequential" in g:
+        sequential = {name: g["sequential"][name][()] for name in ("neutral", "single", "double")}
+    knee = g["knee"].attrs if "knee" in g else {}
+    omega0 = math.nan
+    if "estimates" in f and "photon_energy" in f["estimates"].attrs:
+        omega0 = float(f["estimates"].attrs["photon_energy"])
+    return PairRecord(
+        time=f["observables/time"][()], electric=f["field/electric"][()], radii=regions["radius"][()],
+        regions={kind: regions[kind][()] for kind in KINDS}, sequential=sequential,
+        ionization_potential=float(g.attrs["ionization_potential"]),
+        ion_ionization_potential=float(g.attrs["ion_ionization_potential"]),
+        ponderomotive_energy=float(knee.get("ponderomotive_energy", math.nan)),
+        return_energy=float(knee.get("return_energy", math.nan)),
+        knockout_intensity=float(knee.get("knockout_intensity_W_cm2", math.nan)), omega0=omega0,
+        momenta=g["momentum/p"][()], momentum_map=g["momentum/double"][()])
 
 
 class PairResultWriter(GuardedWriting):

@@ -10,10 +10,20 @@ their number), and progress. At the end: the correlated momentum map of the doub
 part, the harmonic spectrum of the total dipole acceleration, and beside them the
 sequential estimate for the same pulse with the ionization potentials of the model
 (:mod:`tdse1d.semiclassical.double_ionization`).
+
+Stopping and continuing as for one electron (:mod:`tdse1d.runs.runner`): between chunks
+the run asks its :class:`~tdse1d.runs.runner.RunControl` whether a checkpoint is due,
+hands a :class:`~tdse1d.runs.pair_checkpoint.PairRunState` to its checkpoint sink and,
+for a stop, raises :class:`~tdse1d.runs.runner.RunInterrupted`; ``resume=state``
+continues with the same steps and sums, so the result is the same to the bit.
+
+Before a run: its memory (:func:`pair_memory_bytes`, checked against the machine's) and
+its wall time (:func:`estimate_pair_wall_time`, from steps of its propagator timed now).
 """
 
 from __future__ import annotations
 
+import contextlib
 import math
 import os
 import time as _time
@@ -32,10 +42,16 @@ from ..physics.threads import one_blas_thread
 from ..semiclassical.double_ionization import knee_estimate, sequential_double_ionization
 
 __all__ = ["PairRunResult", "PairRunStopped", "simulate_pair", "pair_memory_bytes", "check_pair_memory", "snapshot_shape",
+           "PairWallEstimate", "estimate_pair_wall_time",
            "snapshot_steps", "snapshot_times", "THREADS", "MEMORY_SHARE"]
 
 #: FFTW threads of the 2-D step (the machine's cores, at most 2 unless told otherwise)
 THREADS = max(1, min(2, os.cpu_count() or 1))
+#: fewest points per axis for which a run uses several threads: below, a step's
+#: transforms and sums take well under a millisecond and waiting for a second thread on
+#: a shared machine costs more than it saves (a 48^2 run of 272 steps took 0.7 s on one
+#: thread and 28 s on two, FFTW's and numba's, at a load average of 5.7 on 2 cores)
+THREADED_FROM_POINTS = 256
 #: complex arrays of the grid's size a run holds (the state, the FFT's work array, the
 #: potential and kinetic phases of each kick and sub-step, the absorber factor, the
 #: reference state) and real ones (potential, force, absorber, density work arrays)
@@ -51,17 +67,109 @@ def snapshot_shape(problem: PairProblem) -> tuple[int, int]:
 
 def pair_memory_bytes(problem: PairProblem) -> int:
     """Memory (bytes) a run holds, estimated before it starts: the propagator's arrays,
-    the bound states, one snapshot in flight, and the per-step records; flat in the
-    number of snapshots (they go to the sink one at a time)."""
+    the bound states, one snapshot in flight, and the per-step records, twice (a
+    checkpoint copies them); flat in the number of snapshots (they go to the sink, and
+    into a checkpoint, one at a time)."""
+    from ..input.pair_problem import pair_state_count
+
     size = problem.grid.points**2
     records = (problem.time.steps + 1) * (10 + 3 * len(RADII)) * 8
-    states = len(problem.states) * size * 8
+    count = len(problem.states) if problem.states is not None else pair_state_count(problem.config)
+    states = count * size * 8
     snap = int(np.prod(snapshot_shape(problem))) * 4
-    return (_COMPLEX_ARRAYS * 16 + _REAL_ARRAYS * 8) * size + states + snap + records
+    return (_COMPLEX_ARRAYS * 16 + _REAL_ARRAYS * 8) * size + states + snap + 2 * records
 
 
 #: largest share of the machine's available memory a run may plan to hold
 MEMORY_SHARE = 0.8
+
+#: largest grid (points per axis) on which steps are timed for an estimate; a larger
+#: grid's step is scaled by N^2 log N^2 (the FFT's count of operations)
+TIMED_POINTS = 512
+#: steps timed (after one that loads the compiled kernels); the fastest counts
+TIMED_STEPS = 4
+
+
+@dataclass(frozen=True)
+class PairWallEstimate:
+    """The wall time of a run's propagation, from steps of it timed on this machine.
+
+    Attributes
+    ----------
+    step : float
+        Seconds per step: the fastest of :data:`TIMED_STEPS` steps of the run's own
+        propagator (its scheme, gauge, absorber and region readings) on its grid, or on
+        :data:`TIMED_POINTS`^2 scaled by N^2 log N^2 for a larger one.
+    steps : int
+    wall : float
+        ``steps * step`` (s); the bound states and the FFT planning come on top.
+    load : float
+        One-minute load average when timed (NaN where unknown): the run goes slower
+        on a machine busier than that.
+    timed_points : int
+        Points per axis of the timed grid.
+    """
+
+    step: float
+    steps: int
+    wall: float
+    load: float
+    timed_points: int
+
+    def to_json(self) -> dict:
+        return {"step_time_s": self.step, "wall_time_s": self.wall, "load_average": self.load,
+                "timed_points_per_axis": self.timed_points}
+
+
+def estimate_pair_wall_time(problem: PairProblem, threads: int = THREADS) -> PairWallEstimate:
+    """Time a few steps of the run's propagator and scale them to the run.
+
+    The state stepped is a Gaussian (the step's cost does not depend on it), so the
+    problem needs no states. FFTW plans are estimated, not measured: the run's measured
+    plans are as fast or faster.
+
+    Parameters
+    ----------
+    problem : PairProblem
+    threads : int
+        FFTW and kernel threads (one below :data:`THREADED_FROM_POINTS` points per axis, as the run).
+
+    Returns
+    -------
+    PairWallEstimate
+    """
+    cfg = problem.config
+    n = problem.grid.points
+    m = min(n, TIMED_POINTS)
+    if m < THREADED_FROM_POINTS:
+        threads = 1
+    axis = Grid(m, problem.grid.spacing)
+    grid2 = Grid.product(axis, axis)
+    dt = problem.time.step
+    absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
+    width = min(problem.absorber_width, axis.half_width / 2)
+    mask = absorber.step_factor(grid2, width, dt)
+    psi0 = np.exp(-0.5 * (grid2.positions(0) ** 2 + grid2.positions(1) ** 2)).astype(complex)
+    psi0 /= math.sqrt(float(np.sum(np.abs(psi0) ** 2)) * axis.spacing**2)
+    system = TwoElectrons(axis, problem.atom, absorber_factor=mask, reference=psi0)
+    times = problem.time.times[:TIMED_STEPS + 2]
+    with one_blas_thread(), _kernel_threads(threads):
+        prop = Propagator(system, problem.field, times, gauge=cfg.propagation.gauge,
+                          scheme=SCHEMES[cfg.propagation.scheme_name], fft_effort="FFTW_ESTIMATE", threads=threads)
+        prop.start(psi0)
+        prop.advance(1)  # loads the compiled kernels
+        best = math.inf
+        for _ in range(TIMED_STEPS):
+            start = _time.perf_counter()
+            prop.advance(1)
+            best = min(best, _time.perf_counter() - start)
+    step = best * (n * n * math.log(n * n)) / (m * m * math.log(m * m))
+    try:
+        load = os.getloadavg()[0]
+    except OSError:  # not offered on this system
+        load = math.nan
+    steps = problem.time.steps
+    return PairWallEstimate(step, steps, steps * step, load, m)
 
 
 def check_pair_memory(problem: PairProblem) -> None:
@@ -153,16 +261,21 @@ class PairRunResult:
 
 
 class PairRunStopped(RuntimeError):
-    """A run of the two-electron atom stopped on request (no checkpoint is written yet)."""
+    """A run stopped on request by a caller that gave no checkpoint sink (nothing to resume from)."""
 
     def __init__(self, step: int, time: float):
         self.step, self.time = step, time
-        super().__init__(f"stopped at step {step}, t = {time:.6g} a.u. (the two-electron atom writes no "
-                         "checkpoint yet: nothing to resume from)")
+        super().__init__(f"stopped at step {step}, t = {time:.6g} a.u. (no checkpoint sink: nothing to resume from)")
+
+
+#: events (snapshot or progress steps) per run: a stop request is answered, and a due
+#: checkpoint written, at most 0.5 % of the run's steps later (as for one electron)
+EVENTS_PER_RUN = 200
 
 
 def simulate_pair(problem: PairProblem, snapshot_sink=None, progress=None, fft_effort="FFTW_MEASURE",
-                  threads: int = THREADS, radii=RADII, control=None) -> PairRunResult:
+                  threads: int = THREADS, radii=RADII, control=None, checkpoint_sink=None,
+                  resume=None) -> PairRunResult:
     """Propagate the two-electron atom of ``problem`` through its pulse.
 
     Parameters
@@ -172,23 +285,40 @@ def simulate_pair(problem: PairProblem, snapshot_sink=None, progress=None, fft_e
         ``sink(index, time, density)`` for each of ``output.snapshots`` decimated
         densities |psi|^2 (1/bohr^2, float32, :func:`snapshot_shape`).
     progress : callable, optional
-        ``progress(step, steps)``.
+        ``progress(step, steps)``, after each chunk of steps.
     fft_effort : str
         FFTW planner flag.
     threads : int
-        FFTW threads.
+        FFTW and kernel threads (one below :data:`THREADED_FROM_POINTS` points per axis).
     radii : tuple of float
         Radii of the regions (bohr), the reported one first.
     control : tdse1d.runs.runner.RunControl, optional
-        Its stop request (a signal) ends the run between chunks with :class:`PairRunStopped`.
+        Checkpoint cadence and stop requests, asked between chunks.
+    checkpoint_sink : object, optional
+        ``checkpoint_sink.checkpoint(state)`` receives a
+        :class:`~tdse1d.runs.pair_checkpoint.PairRunState` when ``control`` asks for one
+        (:class:`~tdse1d.runs.pair_checkpoint.PairCheckpointSink` writes it).
+    resume : PairRunState, optional
+        Continue from this state (read from a checkpoint of the same input) instead of
+        the initial state; the steps and sums are those of an uninterrupted run, so the
+        result is the same to the bit.
 
     Returns
     -------
     PairRunResult
+
+    Raises
+    ------
+    tdse1d.runs.runner.RunInterrupted
+        After writing a checkpoint, when ``control`` asked to stop.
+    PairRunStopped
+        When ``control`` asked to stop and there is no ``checkpoint_sink``.
     """
     clock = _time.monotonic()
     cfg = problem.config
     axis = problem.grid
+    if axis.points < THREADED_FROM_POINTS:
+        threads = 1
     grid2 = Grid.product(axis, axis)
     dt = problem.time.step
     absorber = ABSORBERS[cfg.absorber.type](cfg.absorber.exponent, cfg.absorber.strength)
@@ -203,30 +333,82 @@ def simulate_pair(problem: PairProblem, snapshot_sink=None, progress=None, fft_e
     # one BLAS thread: the overlaps and sums of the loop are short BLAS calls, and a
     # threaded BLAS spinning beside FFTW's threads on shared cores was measured 10 to
     # 100 times slower (7 against 300 ms a step on a 200^2 grid at a load of 9)
-    with one_blas_thread():
-        return _propagate(problem, prop, psi0, snapshot_sink, progress, radii, clock, control)
+    with one_blas_thread(), _kernel_threads(threads):
+        first_event, snapshots_done = _start(prop, psi0, resume)
+        return _propagate(problem, prop, snapshot_sink, progress, radii, clock, control, checkpoint_sink,
+                          first_event, snapshots_done)
 
 
-def _propagate(problem, prop, psi0, snapshot_sink, progress, radii, clock, control):
+@contextlib.contextmanager
+def _kernel_threads(threads: int):
+    """A context in which the compiled kernels (numba) run on at most ``threads`` threads
+    (their sums are cut into a fixed number of blocks, so the result does not depend on it)."""
+    import numba
+
+    before = numba.get_num_threads()
+    numba.set_num_threads(max(1, min(threads, numba.config.NUMBA_NUM_THREADS)))
+    try:
+        yield
+    finally:
+        numba.set_num_threads(before)
+
+
+def _start(prop, psi0, resume):
+    """Start from the initial state, or from a checkpoint's state: (first event, snapshots done)."""
+    if resume is None:
+        prop.start(psi0)
+        return 0, 0
+    obs, recorder = prop.observables, prop.system.recorder
+    if resume.psi.shape != prop.grid.shape or resume.absorbed.shape != recorder.absorbed.shape:
+        raise ValueError(f"the state to resume is of a grid {resume.psi.shape} with {resume.absorbed.shape[0]} "
+                         f"radii, this run {prop.grid.shape} with {recorder.absorbed.shape[0]}")
+    prop.start(resume.psi, resume.step_index)
+    # the recorded history replaces what start() measured at the resumed step, and the
+    # norm absorbed from each region so far continues the readings' sums as they were
+    for name in obs.names:
+        record = getattr(obs, name)
+        if name not in resume.observables or np.shape(resume.observables[name]) != record.shape:
+            raise ValueError(f"the state to resume holds no per-step {name!r} of {record.shape[0]} records")
+        record[:] = resume.observables[name]
+    recorder.absorbed[:] = resume.absorbed
+    return resume.next_event, resume.snapshots_done
+
+
+def _propagate(problem, prop, snapshot_sink, progress, radii, clock, control, checkpoint_sink, first_event,
+               snapshots_done):
+    from .pair_checkpoint import PairRunState
+    from .runner import RunInterrupted
+
     cfg = problem.config
     axis = problem.grid
     times = problem.time.times
-    prop.start(psi0)
     steps = problem.time.steps
     snaps = snapshot_steps(problem)
     stride = cfg.output.snapshot_stride
-    events = np.unique(np.concatenate([snaps, [steps], np.arange(0, steps, max(1, steps // 100))]))
+    events = np.unique(np.concatenate([snaps, [steps], np.arange(0, steps, max(1, steps // EVENTS_PER_RUN))]))
     snap_index = {int(s): i for i, s in enumerate(snaps)}
-    for n in events:
+    for event in range(first_event, len(events)):
+        n = int(events[event])
         if n > prop.step_index:
-            prop.advance(int(n) - prop.step_index)
-        if snapshot_sink is not None and int(n) in snap_index:
-            density = np.abs(prop.psi[::stride, ::stride]) ** 2
-            snapshot_sink(snap_index[int(n)], float(times[n]), density.astype(np.float32))
-        if progress is not None:
-            progress(prop.step_index, steps)
-        if control is not None and control.stop_requested and prop.step_index < steps:
-            raise PairRunStopped(prop.step_index, float(times[prop.step_index]))
+            prop.advance(n - prop.step_index)
+            if progress is not None:
+                progress(prop.step_index, steps)
+        if n in snap_index:
+            if snapshot_sink is not None:
+                density = np.abs(prop.psi[::stride, ::stride]) ** 2
+                snapshot_sink(snap_index[n], float(times[n]), density.astype(np.float32))
+            snapshots_done = snap_index[n] + 1
+        if (control is not None and prop.step_index < steps and prop.step_index % prop.record_every == 0
+                and control.checkpoint_due()):
+            if checkpoint_sink is None:
+                if control.stop_requested:
+                    raise PairRunStopped(prop.step_index, float(times[prop.step_index]))
+                continue
+            checkpoint_sink.checkpoint(PairRunState(prop.step_index, event + 1, snapshots_done, prop.psi,
+                                                    prop.observables.as_dict(), prop.system.recorder.absorbed))
+            control.checkpoint_written()
+            if control.stop_requested:
+                raise RunInterrupted(prop.step_index, float(times[prop.step_index]))
     prop.finish()
     obs = prop.observables
     # the momentum map after the pulse, from the length-gauge state (A = 0 after a
