@@ -94,6 +94,7 @@ def main(args):
     from .. import units
     from ..api import single_run as api
     from ..input.schema import load_input
+    from ..io.problem_store import problem_store
     from ..io.wisdom import fftw_wisdom
 
     config = load_input(args.input, args.overrides)
@@ -113,7 +114,8 @@ def main(args):
         problem = build_pair_problem(config)
     else:
         PairRunStopped = _NotRaised
-        problem = build_problem(config)
+        with problem_store():  # the fit, states and step estimate of an input solved before
+            problem = build_problem(config)
     for w in problem.warnings:
         print(f"tdse1d: warning: {w}", file=sys.stderr)
     bar = _ProgressBar(problem, show)

@@ -40,7 +40,6 @@ from .. import spectra
 from ..physics.absorbers import ABSORBERS
 from ..physics.observables import record_stride
 from ..input.problem import Problem
-from ..physics.ionization import ionization as _ionization
 from ..physics.states import initial_wavefunction
 
 __all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps",
@@ -235,6 +234,8 @@ def ionization_estimate(problem: Problem, population_time, bound_population):
         field_start, field_end = problem.field.start, problem.field.end
     else:
         field_start = field_end = float(population_time[0])
+    from ..physics.ionization import ionization as _ionization  # scipy.special: not for estimate
+
     return _ionization(states.energies, states.wavefunctions, problem.grid,
                        problem.absorber_width if problem.config.absorber.type != "none" else 0.0,
                        population_time, bound_population, field_start, field_end, complete=states.complete,
