@@ -2,8 +2,11 @@
 
 Everything inside tdse1d is in Hartree atomic units (hbar = m_e = e = 4 pi eps0 = 1).
 This module is the one place where laboratory units enter or leave. All constants are
-CODATA values taken from :mod:`scipy.constants`; the unit *parser* (pint) is used only
-to turn a string such as ``"800 nm"`` into SI, never for the atomic-unit constants.
+the CODATA 2022 recommended values (:class:`CODATA`, written out here and checked
+against :mod:`scipy.constants` by tests/test_codata.py: importing scipy.constants costs
+0.15-0.3 s of start-up, more than every other use of the constants together); the unit
+*parser* (pint) is used only to turn a string such as ``"800 nm"`` into SI, never for
+the atomic-unit constants.
 
 Conventions
 -----------
@@ -22,7 +25,34 @@ import functools
 import math
 import re
 
-import scipy.constants as sc
+
+class CODATA:
+    """The few CODATA 2022 recommended values tdse1d needs (SI; the 2019 SI fixes c and e
+    exactly). Written out so that a run does not import scipy.constants; each is equal,
+    to the last bit, to the entry of :data:`scipy.constants.physical_constants` named in
+    :data:`CODATA_NAMES` (tests/test_codata.py), so a scipy with newer values fails a test
+    instead of moving results silently."""
+
+    c = 299792458.0                        # speed of light in vacuum, m/s (exact)
+    e = 1.602176634e-19                    # elementary charge, C (exact)
+    epsilon_0 = 8.8541878188e-12           # vacuum electric permittivity, F/m
+    hartree_ev = 27.211386245981           # Hartree energy in eV
+    hartree_j = 4.359744722206e-18         # Hartree energy, J
+    bohr_m = 5.29177210544e-11             # Bohr radius, m
+    au_time_s = 2.4188843265864e-17        # atomic unit of time, s
+    au_field_v_m = 514220675112.0          # atomic unit of electric field, V/m
+    au_momentum = 1.99285191545e-24        # atomic unit of momentum, kg m/s
+    fine_structure = 0.0072973525643       # fine-structure constant
+
+
+#: the :data:`scipy.constants.physical_constants` name (or scipy.constants attribute,
+#: for c, e and epsilon_0) of each :class:`CODATA` value
+CODATA_NAMES = {
+    "c": "c", "e": "e", "epsilon_0": "epsilon_0",
+    "hartree_ev": "Hartree energy in eV", "hartree_j": "Hartree energy", "bohr_m": "Bohr radius",
+    "au_time_s": "atomic unit of time", "au_field_v_m": "atomic unit of electric field",
+    "au_momentum": "atomic unit of momentum", "fine_structure": "fine-structure constant",
+}
 
 __all__ = [
     "HARTREE_EV",
@@ -47,16 +77,16 @@ __all__ = [
     "optical_period",
 ]
 
-HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]
-HARTREE_J = sc.physical_constants["Hartree energy"][0]
-BOHR_M = sc.physical_constants["Bohr radius"][0]
-AU_TIME_S = sc.physical_constants["atomic unit of time"][0]
-AU_FIELD_V_M = sc.physical_constants["atomic unit of electric field"][0]
-AU_MOMENTUM = sc.physical_constants["atomic unit of momentum"][0]
-FINE_STRUCTURE = sc.physical_constants["fine-structure constant"][0]
+HARTREE_EV = CODATA.hartree_ev
+HARTREE_J = CODATA.hartree_j
+BOHR_M = CODATA.bohr_m
+AU_TIME_S = CODATA.au_time_s
+AU_FIELD_V_M = CODATA.au_field_v_m
+AU_MOMENTUM = CODATA.au_momentum
+FINE_STRUCTURE = CODATA.fine_structure
 SPEED_OF_LIGHT_AU = 1.0 / FINE_STRUCTURE
 #: cycle-averaged intensity of a field of 1 a.u. amplitude, W/m^2 and W/cm^2
-AU_INTENSITY_W_M2 = 0.5 * sc.c * sc.epsilon_0 * AU_FIELD_V_M**2
+AU_INTENSITY_W_M2 = 0.5 * CODATA.c * CODATA.epsilon_0 * AU_FIELD_V_M**2
 AU_INTENSITY_W_CM2 = AU_INTENSITY_W_M2 * 1e-4
 
 
@@ -117,14 +147,14 @@ _ATOMIC = re.compile(r"^\s*(?P<num>[-+0-9.eE]+)\s*(a\.u\.|au)\s*$")
 
 #: Units read without the unit parser: each is an exact SI multiple of the dimension's SI
 #: unit (SI prefixes; the electronvolt is e joule with the exact elementary charge of
-#: the 2019 SI, :data:`scipy.constants.e`). The shipped inputs use only these, so a run
+#: the 2019 SI, :data:`CODATA.e`). The shipped inputs use only these, so a run
 #: does not pay pint's start-up (about 0.5 s to import and 0.5 s to build its registry);
 #: any other unit is read by pint. tests/test_units.py checks each against pint.
 _PLAIN_UNITS: dict[str, dict[str, float]] = {
     "length": {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "um": 1e-6, "µm": 1e-6, "μm": 1e-6, "nm": 1e-9, "pm": 1e-12},
     "time": {"s": 1.0, "ms": 1e-3, "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "ns": 1e-9, "ps": 1e-12, "fs": 1e-15,
              "as": 1e-18},
-    "energy": {"J": 1.0, "eV": sc.e, "meV": 1e-3 * sc.e, "keV": 1e3 * sc.e},
+    "energy": {"J": 1.0, "eV": CODATA.e, "meV": 1e-3 * CODATA.e, "keV": 1e3 * CODATA.e},
     "intensity": {"W/m^2": 1.0, "W/cm^2": 1e4, "GW/cm^2": 1e13, "TW/cm^2": 1e16, "PW/cm^2": 1e19},
     "electric_field": {"V/m": 1.0, "V/cm": 1e2, "V/nm": 1e9, "GV/m": 1e9},
     "angle": {"rad": 1.0},
@@ -275,12 +305,12 @@ def au_to_fs(time_au):
 
 def nm_to_omega(wavelength_nm: float) -> float:
     """Vacuum wavelength in nm to angular frequency (= photon energy) in a.u."""
-    return 2 * math.pi * sc.c / (wavelength_nm * 1e-9) * AU_TIME_S
+    return 2 * math.pi * CODATA.c / (wavelength_nm * 1e-9) * AU_TIME_S
 
 
 def omega_to_nm(omega_au):
     """Angular frequency in a.u. to vacuum wavelength in nm."""
-    return 2 * math.pi * sc.c / (omega_au / AU_TIME_S) * 1e9
+    return 2 * math.pi * CODATA.c / (omega_au / AU_TIME_S) * 1e9
 
 
 def intensity_to_field(intensity_w_cm2: float) -> float:

@@ -59,3 +59,42 @@ def test_the_fft_module_does_not_load_dask():
             "import dask.array.fft; print(before, callable(dask.array.fft.fft_wrap))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.split() == ["False", "True"]
+
+
+def test_the_fft_module_does_not_load_scipy_fft():
+    # pyfftw.interfaces imports scipy.fftpack (scipy.fft, scipy.special) for its scipy
+    # interfaces; the run needs none of it. Null case: scipy.fftpack still imports and
+    # computes afterwards (the mark does not linger).
+    code = ("import sys; from tdse1d.physics import fft; before = 'scipy.fft' in sys.modules; "
+            "import scipy.fftpack; print(before, scipy.fftpack.fft([1.0, 1.0])[0].real)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["False", "2.0"]
+
+
+_ESTIMATE = "inputs/argon_800nm.toml"
+
+
+def _estimate_loads(tmp_path, **env):
+    import os
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parent.parent
+    environment = dict(os.environ, XDG_CACHE_HOME=str(tmp_path), **env)
+    code = _PROBE.format(argv=["estimate", str(root / _ESTIMATE)], heavy=HEAVY + ("scipy.linalg", "scipy.integrate"))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                         env=environment).stdout
+    return json.loads(out.splitlines()[-1])
+
+
+def test_an_estimate_solved_before_imports_no_scipy_and_no_compiled_code(tmp_path):
+    first = _estimate_loads(tmp_path)
+    assert first["status"] == 0 and "scipy.linalg" in first["loaded"]  # solved: the fit's eigensolves
+    again = _estimate_loads(tmp_path)
+    assert again["status"] == 0
+    assert [m for m in again["loaded"] if m != "numpy"] == []
+
+
+def test_null_an_estimate_without_the_store_is_seen_importing_scipy(tmp_path):
+    _estimate_loads(tmp_path)
+    off = _estimate_loads(tmp_path, TDSE1D_NO_STORE="1")
+    assert "scipy.linalg" in off["loaded"]

@@ -95,8 +95,11 @@ def main(args):
     from .. import units
     from ..api import single_run as api
     from ..input.schema import load_input
+    from ..io.problem_store import problem_store
 
-    result = api.estimate(load_input(args.input, args.overrides))
+    config = load_input(args.input, args.overrides)
+    with problem_store():  # the fit and step estimate of an input solved before
+        result = api.estimate(config)
     if args.json:
         print(json.dumps(result.to_json(), indent=1))
         return 0

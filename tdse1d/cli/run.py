@@ -86,10 +86,15 @@ def _certify(args, config):
     return 0
 
 
+class _NotRaised(Exception):
+    """Stands for the two-electron run's stop in a one-electron run, which never raises it."""
+
+
 def main(args):
     from .. import units
     from ..api import single_run as api
     from ..input.schema import load_input
+    from ..io.problem_store import problem_store
     from ..io.wisdom import fftw_wisdom
 
     config = load_input(args.input, args.overrides)
@@ -98,12 +103,19 @@ def main(args):
     show = not args.quiet and sys.stderr.isatty()
     started = time.time()
     from ..input.problem import build_problem
-
     from ..runs.runner import RunInterrupted
 
     from ..input.pair_problem import build_pair_problem, is_pair_model
 
-    problem = build_pair_problem(config) if is_pair_model(config) else build_problem(config)
+    if is_pair_model(config):
+        # the two-electron modules only where they run (0.3-0.5 s of imports otherwise)
+        from ..runs.pair_runner import PairRunStopped
+
+        problem = build_pair_problem(config)
+    else:
+        PairRunStopped = _NotRaised
+        with problem_store():  # the fit, states and step estimate of an input solved before
+            problem = build_problem(config)
     for w in problem.warnings:
         print(f"tdse1d: warning: {w}", file=sys.stderr)
     bar = _ProgressBar(problem, show)

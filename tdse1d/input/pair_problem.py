@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -36,8 +37,10 @@ from .spec import InputError
 from ..physics.grid import Grid, fast_fft_size
 from ..physics.potentials import POTENTIALS
 from ..physics.states import BoundStates, bound_states
-from ..physics.states_2d import PairStates, pair_states
 from ..physics.two_electron import TwoElectronAtom
+
+if TYPE_CHECKING:  # imported where the states are found (scipy.fft, scipy.sparse)
+    from ..physics.states_2d import PairStates
 
 __all__ = ["PairProblem", "build_pair_problem", "pair_state_count", "check_pair_absorber", "is_pair_model", "PAIR_MAX_SPACING", "PAIR_MAX_POINTS"]
 
@@ -182,6 +185,8 @@ def build_pair_problem(config: RunConfig, with_states: bool = True, compute_stat
     notes = []
     states = ion_states = None
     if compute_states:
+        from ..physics.states_2d import pair_states  # scipy.fft and scipy.sparse: not for one-electron inputs
+
         states = pair_states(grid, atom, count=pair_state_count(config, with_states))
         ion_states = bound_states(grid, atom.ion())
     if states is not None and not states.converged:

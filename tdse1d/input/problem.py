@@ -184,10 +184,22 @@ def build_field(config: RunConfig) -> Field:
 #: many points of one atom on one grid); each costs a dense solve of up to 4096 points
 _MEMO: dict = {}
 _MEMO_SIZE = 16
+#: the store that keeps these results between processes, installed by the command layer
+#: (:func:`tdse1d.io.problem_store.problem_store`), or None: ``load(name, args, kwargs)``
+#: returns the value or None, ``save(name, args, kwargs, value)`` keeps it
+_STORE = None
+
+
+def use_store(store):
+    """Install ``store`` (or None) for :func:`_memo`; returns the store it replaces."""
+    global _STORE
+    previous, _STORE = _STORE, store
+    return previous
 
 
 def _memo(function, *args, **kwargs):
-    """``function(*args, **kwargs)``, computed once per process for hashable arguments.
+    """``function(*args, **kwargs)``, computed once per process for hashable arguments,
+    and read from the installed store (:func:`use_store`) before it is computed.
 
     A cached :class:`BoundStates` has read-only arrays (shared by the runs that use
     it). Arguments that cannot be hashed (a potential holding an array) are not cached.
@@ -198,7 +210,12 @@ def _memo(function, *args, **kwargs):
     except TypeError:
         return function(*args, **kwargs)
     if key not in _MEMO:
-        value = function(*args, **kwargs)
+        name = f"{function.__module__}.{function.__qualname__}"
+        value = None if _STORE is None else _STORE.load(name, key[1], key[2])
+        if value is None:
+            value = function(*args, **kwargs)
+            if _STORE is not None:
+                _STORE.save(name, key[1], key[2], value)
         if isinstance(value, BoundStates):
             for array in (value.energies, value.wavefunctions, value.residuals):
                 if isinstance(array, np.ndarray):
@@ -229,16 +246,22 @@ def model_estimates(potential: Potential, field: Field, ionization_potential: fl
     (:mod:`tdse1d.semiclassical.step_error`), is within ``propagation.tolerance`` for
     ``propagation``'s scheme (the default scheme and tolerance without it); with
     ``with_step`` False the step is not estimated (the sampling limit only)."""
-    from ..semiclassical.tunnelling import barrier_suppression_field
-
-    try:
-        bsi = barrier_suppression_field(potential, -ionization_potential)
-    except ValueError:  # a confining trap (harmonic oscillator) has no barrier to suppress
-        bsi = math.nan
+    bsi = _memo(barrier_field, potential, -ionization_potential)
     pulses = [pulse_estimate(p.omega, p.peak_field, ionization_potential, bsi) for p in field.pulses]
     depth = -float(np.min(potential.value(np.linspace(-20, 20, 4001))))
     step_error = _step_error(potential, propagation) if with_step else None
     return pulses, recommend_grid(pulses, ionization_potential, max(depth, 0.0), step_error)
+
+
+def barrier_field(potential: Potential, energy: float) -> float:
+    """The barrier-suppression field (a.u.) of a state of ``energy`` (Hartree), NaN for a
+    confining trap (harmonic oscillator), which has no barrier to suppress."""
+    from ..semiclassical.tunnelling import barrier_suppression_field
+
+    try:
+        return barrier_suppression_field(potential, energy)
+    except ValueError:
+        return math.nan
 
 
 def _step_error(potential: Potential, propagation):
@@ -251,8 +274,8 @@ def _step_error(potential: Potential, propagation):
     scheme = SCHEMES[name]
 
     def step_error(momentum, largest):
-        return step_for_tolerance(potential, momentum, scheme.weights, scheme.order, tolerance,
-                                  first=largest, largest=largest)
+        return _memo(step_for_tolerance, potential, momentum, tuple(scheme.weights), scheme.order, tolerance,
+                     first=largest, largest=largest)
 
     return step_error
 

@@ -75,7 +75,9 @@ def entry(path: str, layout: tuple[Entry, ...] = RESULT_LAYOUT) -> Entry:
     KeyError
         ``path`` is not declared.
     """
-    table = _COMPILED.setdefault(id(layout), [(_pattern(e.path), e) for e in layout])
+    table = _COMPILED.get(id(layout))
+    if table is None:  # (setdefault would compile every pattern on every call)
+        table = _COMPILED[id(layout)] = [(_pattern(e.path), e) for e in layout]
     key = path.lstrip("/")
     for pattern, e in table:
         if pattern.match(key):

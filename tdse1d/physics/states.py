@@ -30,8 +30,6 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
-from scipy.sparse.linalg import LinearOperator, lobpcg
 
 from .grid import Grid
 from .potentials import Potential
@@ -65,6 +63,13 @@ REFINE_SWEEPS = 2
 TRAP_LEVELS = 10
 #: largest relative change of a fitted ground state when the grid spacing is halved
 MAX_FIT_GRID_ERROR = 1e-3
+
+
+def _linalg():
+    """scipy.linalg, imported by a solve only (0.1-0.3 s; stored states need none)."""
+    import scipy.linalg
+
+    return scipy.linalg
 
 
 class SofteningFitError(ValueError):
@@ -108,7 +113,7 @@ def kinetic_matrix(points: int, spacing: float) -> np.ndarray:
     """
     k = 2 * np.pi * np.fft.fftfreq(points, spacing)
     column = np.fft.ifft(0.5 * k**2).real
-    return scipy.linalg.circulant(column)
+    return _linalg().circulant(column)
 
 
 def hamiltonian_matrix(grid: Grid, potential: Potential) -> np.ndarray:
@@ -132,7 +137,7 @@ def _dense_eigh(h, eigvals_only=False):
     # rows) a multi-threaded BLAS was measured 10-15 times *slower* on shared cores (a
     # scan's workers, a loaded workstation), and LAPACK's subset drivers slower still.
     with one_blas_thread():
-        return scipy.linalg.eigh(h, eigvals_only=eigvals_only, driver="evd")
+        return _linalg().eigh(h, eigvals_only=eigvals_only, driver="evd")
 
 
 def _dense_states(grid: Grid, potential: Potential, count: int):
@@ -146,9 +151,9 @@ def _dense_bound(grid: Grid, potential: Potential):
     h = hamiltonian_matrix(grid, potential)
     # MRRR for a subset: only the eigenpairs used are formed (2.5x faster than all)
     with one_blas_thread():
-        energies, vectors = scipy.linalg.eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
+        energies, vectors = _linalg().eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
         if energies.size == 0:  # a confining trap (all E > 0): its lowest levels
-            energies, vectors = scipy.linalg.eigh(h, subset_by_index=(0, min(TRAP_LEVELS, grid.points) - 1),
+            energies, vectors = _linalg().eigh(h, subset_by_index=(0, min(TRAP_LEVELS, grid.points) - 1),
                                                   driver="evr")
     return energies, vectors
 
@@ -183,9 +188,9 @@ def _banded_bound(grid: Grid, potential: Potential, tolerance: float):
     """
     band = _banded_hamiltonian(grid, potential)
     with one_blas_thread():
-        levels = scipy.linalg.eigvals_banded(band, select="v", select_range=(-np.abs(band[-1]).max() - 1.0, 0.0))
+        levels = _linalg().eigvals_banded(band, select="v", select_range=(-np.abs(band[-1]).max() - 1.0, 0.0))
     if levels.size == 0:
-        levels = scipy.linalg.eigvals_banded(band, select="i", select_range=(0, TRAP_LEVELS - 1))
+        levels = _linalg().eigvals_banded(band, select="i", select_range=(0, TRAP_LEVELS - 1))
     # start vectors: two steps of inverse iteration of the banded H just off each level
     full = np.zeros((2 * band.shape[0] - 1, grid.points))
     full[: band.shape[0]] = band
@@ -200,7 +205,7 @@ def _banded_bound(grid: Grid, potential: Potential, tolerance: float):
         shifted[u] -= e + 1e-3 * gap
         vec = rng.standard_normal(grid.points)
         for _ in range(2):
-            vec = scipy.linalg.solve_banded((u, u), shifted, vec)
+            vec = _linalg().solve_banded((u, u), shifted, vec)
             vec /= np.linalg.norm(vec)
         guess[:, i] = vec
     apply_h = _apply_hamiltonian(grid, potential)
@@ -260,6 +265,7 @@ def _refine(grid: Grid, potential: Potential, guess: np.ndarray, tolerance: floa
         block = block.reshape(grid.points, -1)
         return np.fft.ifft(np.fft.fft(block, axis=0) / (t[:, None] + shift), axis=0).real
 
+    from scipy.sparse.linalg import LinearOperator, lobpcg
     op = LinearOperator((grid.points,) * 2, matvec=apply_h, matmat=apply_h, dtype=float)
     pre = LinearOperator((grid.points,) * 2, matvec=apply_precond, matmat=apply_precond, dtype=float)
     # energy error ~ |residual|^2 / gap; ask for a residual well below sqrt(tolerance)
@@ -339,7 +345,7 @@ def _ground_pair(grid: Grid, potential: Potential, window: float):
     sub, _ = _window(grid, window)
     h = hamiltonian_matrix(sub, potential)
     with one_blas_thread():
-        energies, vectors = scipy.linalg.eigh(h, subset_by_index=(0, 0), driver="evr")
+        energies, vectors = _linalg().eigh(h, subset_by_index=(0, 0), driver="evr")
     return float(energies[0]), vectors[:, 0], sub
 
 
@@ -438,7 +444,7 @@ def _bracketed_softening(grid, potential, ionization_potential, bracket) -> floa
         )
     a = _newton_softening(grid, potential, ionization_potential, bracket, float(np.sqrt(lo * hi)), ends_known=True)
     if a is None:
-        
+        from scipy.optimize import brentq  # (was never imported: the fallback raised NameError)
         a = float(brentq(lambda s: _mismatch_and_slope(grid, potential, ionization_potential, s)[0], lo, hi,
                          xtol=1e-13, rtol=1e-13, maxiter=200))
     return a

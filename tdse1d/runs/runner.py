@@ -37,13 +37,9 @@ import numpy as np
 
 from . import health as _health
 from .. import spectra
-from ..spectra import surface_flux as _flux
 from ..physics.absorbers import ABSORBERS
 from ..physics.observables import record_stride
-from ..physics.propagation import SCHEMES, Observables, Propagator
-from ..physics.systems import OneElectron
 from ..input.problem import Problem
-from ..physics.ionization import ionization as _ionization
 from ..physics.states import initial_wavefunction
 
 __all__ = ["RunResult", "RunState", "RunControl", "RunInterrupted", "simulate", "snapshot_steps", "population_steps",
@@ -238,6 +234,8 @@ def ionization_estimate(problem: Problem, population_time, bound_population):
         field_start, field_end = problem.field.start, problem.field.end
     else:
         field_start = field_end = float(population_time[0])
+    from ..physics.ionization import ionization as _ionization  # scipy.special: not for estimate
+
     return _ionization(states.energies, states.wavefunctions, problem.grid,
                        problem.absorber_width if problem.config.absorber.type != "none" else 0.0,
                        population_time, bound_population, field_start, field_end, complete=states.complete,
@@ -281,6 +279,11 @@ def simulate(problem: Problem, sink=None, progress=None, fft_effort="FFTW_MEASUR
     RunInterrupted
         After writing a checkpoint, when ``control`` asked to stop.
     """
+    # the propagator and the flux kernels are compiled (numba): imported by a run, not by
+    # `tdse1d estimate`, which reads record_stride_of from this module
+    from ..physics.propagation import SCHEMES, Propagator
+    from ..physics.systems import OneElectron
+
     cfg = problem.config
     grid = problem.grid
     times = problem.time.times
@@ -446,7 +449,7 @@ def derived_spectra(observables, omega0: float, window: str) -> dict:
     return {name: spectrum().compute(series, omega0, window) for name, spectrum in DERIVED_SPECTRA.items()}
 
 
-def _surface_flux(problem: Problem, prop: Propagator, mask):
+def _surface_flux(problem: Problem, prop, mask):
     """The surface-flux accumulator of a run, or (None, reason) if it cannot be set up.
 
     Surfaces at the last grid points inside the absorbing layers; momenta from
@@ -455,6 +458,8 @@ def _surface_flux(problem: Problem, prop: Propagator, mask):
     4 samples per photon energy of the softest pulse, and per bandwidth of any pulse
     that ionizes with one photon, at the top energy.
     """
+    from ..spectra import surface_flux as _flux
+
     grid = problem.grid
     x = grid.x
     inside = np.flatnonzero(mask >= 1.0)
