@@ -136,20 +136,27 @@ def _photoelectron(f, cache):
                                       bands=bands)
 
 
-def _sfa_group(f, name):
+def _sfa_view(f, cache, group):
+    """The preamble of the SFA figures: the run's analysis, checked for what the figure
+    of ``group`` draws the SFA over (a photoelectron spectrum; a time-frequency map for
+    the orbits), and the stored SFA group ``group`` (None when the file holds no ``sfa/``)."""
     from ..io.sfa_file import read_sfa
 
+    a = _analysis(f, cache)
+    if group == "photoelectron" and a.photoelectron_method is None:
+        raise InputError("the file holds no photoelectron spectrum", "--what")
+    if group == "orbits" and a.time_frequency is None:
+        raise InputError("no time-frequency map: the run has no field", "--what")
     sfa = read_sfa(f)
-    return None if sfa is None else sfa.get(name)
+    return a, None if sfa is None else sfa.get(group)
 
 
 def _sfa_harmonic(f, cache):
-    a = _analysis(f, cache)
+    a, sfa = _sfa_view(f, cache, "harmonic")
     g = f["spectra/harmonic"]
     cutoffs = [("Ip + 3.17 Up", a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
                ("1.32 Ip + 3.17 Up", LEWENSTEIN_IP * a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
                ("run, read off", a.harmonic_cutoff)]
-    sfa = _sfa_group(f, "harmonic")
     if sfa is not None:
         cutoffs.append(("SFA, read off", sfa["cutoff_energy"]))
     return sfa_figures.harmonic_ladder_figure(g["frequency"][()], g["power"][()], a.omega0, a.ionization_potential,
@@ -157,29 +164,21 @@ def _sfa_harmonic(f, cache):
 
 
 def _sfa_photoelectron(f, cache):
-    a = _analysis(f, cache)
-    method = a.photoelectron_method
-    if method is None:
-        raise InputError("the file holds no photoelectron spectrum", "--what")
-    g = f[f"spectra/photoelectron/{method}"]
+    a, sfa = _sfa_view(f, cache, "photoelectron")
+    g = f[f"spectra/photoelectron/{a.photoelectron_method}"]
     up = a.ponderomotive_energy
     return sfa_figures.photoelectron_ladder_figure(g["energy"][()], g["energy_density_left"][()],
                                                    g["energy_density_right"][()], up,
-                                                   [("2 Up", 2 * up), ("10 Up", 10 * up)],
-                                                   _sfa_group(f, "photoelectron"))
+                                                   [("2 Up", 2 * up), ("10 Up", 10 * up)], sfa)
 
 
 def _sfa_time_frequency(f, cache):
-    a = _analysis(f, cache)
-    tf = a.time_frequency
-    if tf is None:
-        raise InputError("no time-frequency map: the run has no field", "--what")
-    s = a.three_step
+    a, sfa = _sfa_view(f, cache, "orbits")
+    tf, s = a.time_frequency, a.three_step
     branches = [("short", s.short_branch), ("long", s.long_branch)] if s is not None else []
     return sfa_figures.sfa_time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
                                                  s.cutoff_energy if s is not None else math.nan,
-                                                 f["field/time"][()], f["field/electric"][()],
-                                                 _sfa_group(f, "orbits"))
+                                                 f["field/time"][()], f["field/electric"][()], sfa)
 
 
 def _populations(f, cache):
