@@ -202,7 +202,7 @@ def write_summary(plan, directory) -> Summary:
     records = []
     for p in plan.points:
         path = sd.result(p)
-        data.append(_read_point(path) if sd.state(p) == "done" else None)
+        data.append(_read_point(path) if sd.state(p, "run") == "done" else None)
         try:
             records.append(json.loads(sd.record(p).read_text(encoding="utf-8")))
         except (OSError, ValueError):
@@ -218,7 +218,7 @@ def write_summary(plan, directory) -> Summary:
     cutoff_ev = column(lambda d, r: d.attrs["cutoff_energy"] * ev)
     resolved = np.array([bool(d.attrs["cutoff_resolved"]) if d is not None else False for d in data])
 
-    if present:
+    if present:  # the runs' spectra on one grid (none in a scan of the SFA alone)
         steps = [d.energy_ev[1] - d.energy_ev[0] for d in present]
         tops = [d.energy_ev[-1] for d in present]
         reach = GRID_REACH * float(np.nanmax(est("cutoff_energy")))
@@ -303,6 +303,10 @@ def write_summary(plan, directory) -> Summary:
             write_dataset(knee, "peak_intensity_W_cm2", column(
                 lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)), layout=SUMMARY_LAYOUT)
         _write_focal(f, plan, energy, power, amplitude)
+        if "sfa" in plan.rungs or any(sd.state(p, "sfa") == "done" for p in plan.points):
+            from .sfa_summary import write_sfa_group
+
+            write_sfa_group(f, plan, sd)
     os.replace(tmp, sd.summary)
     return Summary(sd.summary, fit)
 
