@@ -264,7 +264,7 @@ class Figures:
         return f"<Figures of a {self.kind} file: {len(self.files)} written ({names})>"
 
 
-def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
+def plot(path, what: str = "all", output=None, on_written=None, beside=()) -> Figures:
     """Draw the figures of a result file and write them (``tdse1d plot``).
 
     Parameters
@@ -278,12 +278,17 @@ def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
         figure, ``STEM-WHAT.EXT``. Default: beside the result file, PNG.
     on_written : callable, optional
         ``on_written(path)`` after each file is written (the command prints it).
+    beside : sequence of path
+        Other scan summaries whose points the ``cutoff-ladder`` figure of a summary
+        draws too (e.g. an SFA scan beside a run scan kept in another directory).
 
     Returns
     -------
     Figures
         The written files by figure name.
     """
+    import contextlib
+
     import matplotlib
 
     matplotlib.use("Agg")
@@ -292,12 +297,18 @@ def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
     from ..io.checked_open import open_result
 
     written = {}
-    with open_result(path, kinds=KINDS) as f:
+    with contextlib.ExitStack() as stack:
+        f = stack.enter_context(open_result(path, kinds=KINDS))
         kind = f.kind
         figures = KINDS[kind]
         if what != "all" and what not in figures:
             raise InputError(f"{what!r} is not a figure of a {kind} file; choose from {', '.join(figures)}", "--what")
         cache = {}
+        if beside:
+            if kind != "scan-summary" or what not in ("all", "cutoff-ladder"):
+                raise InputError("--beside lays other scan summaries beside a summary's cutoff-ladder figure; "
+                                 f"not for the {what} figure of a {kind} file", "--beside")
+            cache["beside"] = [stack.enter_context(open_result(other, kinds=("scan-summary",))) for other in beside]
         for name, out in output_files(path, what, list(figures), output).items():
             fig = figures[name](f, cache)
             out.parent.mkdir(parents=True, exist_ok=True)

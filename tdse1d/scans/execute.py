@@ -348,8 +348,9 @@ def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard,
             client.register_plugin(_worker_setup(stop_http=False), name="tdse1d-stop-on-signals")
         # every worker loads the numerics at once, before the points are handed out, so
         # the first point on each costs what the others do (a worker that joins later
-        # pays it in its first point)
-        client.run(warm_up, on_error="ignore")  # a worker that cannot, fails its points instead
+        # pays it in its first point; a worker that cannot, fails its points instead), at
+        # the rungs the tasks ask for
+        client.run(warm_up, tuple(sorted({t.rung for t in todo})), on_error="ignore")
         by_key = {}
         futures = []
         for rank, task in enumerate(todo):

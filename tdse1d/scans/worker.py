@@ -251,9 +251,16 @@ snapshots = 0
 """
 
 
-def warm_up() -> float:
-    """Load what a point needs (the numerics, h5py, the compiled kernels) by running a
-    tiny problem in memory, so that a worker's first point costs what the others do.
+def warm_up(rungs=("run",)) -> float:
+    """Load what a point needs (the numerics, h5py, the compiled kernels) by computing a
+    tiny problem in memory at each of ``rungs``, so that a worker's first point costs
+    what the others do.
+
+    Parameters
+    ----------
+    rungs : sequence of str
+        The rungs of the scan (:mod:`tdse1d.scans.rungs`): ``"run"`` warms the
+        propagation, ``"sfa"`` the SFA kernels.
 
     Returns
     -------
@@ -261,14 +268,21 @@ def warm_up() -> float:
         The wall time it took (s).
     """
     started = time.perf_counter()
-    import h5py  # noqa: F401 - loaded here, used by every point's result file
+    import h5py  # noqa: F401 - loaded here, used by every point's file
 
-    from ..api import single_run  # noqa: F401
     from ..input.problem import build_problem
     from ..input.schema import load_input
-    from ..runs.runner import simulate
 
-    simulate(build_problem(load_input("warm-up", [], text=_WARM_UP_INPUT)), fft_effort="FFTW_ESTIMATE")
+    problem = build_problem(load_input("warm-up", [], text=_WARM_UP_INPUT))
+    if "run" in rungs:
+        from ..api import single_run  # noqa: F401
+        from ..runs.runner import simulate
+
+        simulate(problem, fft_effort="FFTW_ESTIMATE")
+    if "sfa" in rungs:
+        from ..analysis.sfa import sfa_readings, sfa_spectra
+
+        sfa_readings(sfa_spectra(problem, photoelectrons=False))
     return time.perf_counter() - started
 
 
