@@ -3,7 +3,9 @@
 :func:`write_summary` reads the finished point files of a :class:`~tdse1d.scans.plan.ScanPlan`
 and writes ``SCAN_DIR/summary.h5`` (root attribute ``kind = "scan-summary"``); the
 layout is listed in ``docs/scans.md``. Points without a finished file are kept as rows
-of NaN with ``/points/complete`` False, so a partial scan can be looked at.
+of NaN with ``/points/complete`` False, so a partial scan can be looked at. The SFA
+rung of the points (plan key ``rungs``), when asked for or present, goes to ``/sfa``
+(:mod:`tdse1d.scans.sfa_summary`).
 
 The fit of the cutoff energy read off each spectrum against Up (least squares, points
 with a resolved cutoff only) is set beside the semiclassical law ``Ip + 3.17 Up``
