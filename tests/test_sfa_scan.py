@@ -37,6 +37,24 @@ snapshots = 0
 
 INTENSITIES = ["1e14 W/cm^2", "1.5e14 W/cm^2", "2e14 W/cm^2"]
 
+#: a 2-cycle pulse and a coarse time step: a run of a fraction of a second (the machinery, not physics)
+SHORT = """
+[atom]
+softening = 1.4142135623730951
+[[laser]]
+wavelength = "800 nm"
+peak_intensity = "1e14 W/cm^2"
+cycles = 2
+[grid]
+points = 512
+spacing = 0.4
+[propagation]
+time_step = 0.2
+after_pulse = 0
+[output]
+snapshots = 0
+"""
+
 
 def _plan(tmp_path, rungs='["sfa"]', name="plan.toml"):
     (tmp_path / "atom.toml").write_text(FLAT_TOP)
@@ -151,3 +169,35 @@ def test_rungs_key_is_checked_with_the_plan(tmp_path):
         load_plan(_plan(tmp_path, '["classical"]'))
     with pytest.raises(PlanError, match="rungs: must be"):
         load_plan(_plan(tmp_path, "[]"))
+
+
+def test_run_and_sfa_rungs_of_one_plan_in_one_directory(tmp_path):
+    """The SFA added to a directory that holds the plan's runs: the finished runs are
+    skipped, each point gets its SFA file beside its run file, and one summary holds both
+    rungs, which the cutoff-ladder figure draws as two series. Through the job-array path
+    (``--point K`` then ``--gather``), in this process."""
+    import tdse1d
+    from tdse1d.plots.scan_figures import ladder_series
+    from tdse1d.scans.directory import ScanDirectory
+
+    (tmp_path / "atom.toml").write_text(SHORT)
+    text = 'base = "atom.toml"\n{rungs}[[axis]]\nkey = "laser.0.peak_intensity"\nvalues = ["1e14 W/cm^2"]\n'
+    runs, both = tmp_path / "runs.toml", tmp_path / "both.toml"
+    runs.write_text(text.format(rungs=""))
+    both.write_text(text.format(rungs='rungs = ["run", "sfa"]\n'))
+    directory = tmp_path / "scan"
+    assert tdse1d.scan(runs, directory, point=0).execution.done == [0]
+    run_file = ScanDirectory(directory).result(load_plan(runs).points[0])
+    stamp = run_file.stat().st_mtime_ns
+    task = tdse1d.scan(both, directory, point=0)
+    assert task.execution.done == [0] and task.execution.records[0]["rung"] == "sfa"
+    assert run_file.stat().st_mtime_ns == stamp  # the run was not computed again
+    summary = tdse1d.scan(both, directory, gather=True)
+    assert summary.missing == ()
+    with h5py.File(summary.summary.path, "r") as f:
+        assert f["points/complete"][()].all() and f["sfa/complete"][()].all()
+        # both rungs see the same pulse: the same Up, to round-off
+        assert f["sfa/ponderomotive_energy_eV"][()] == pytest.approx(f["estimates/ponderomotive_energy_eV"][()],
+                                                                      rel=1e-12)
+        series, _ = ladder_series(f)
+        assert [s[0] for s in series] == ["time-dependent runs", "SFA"]
