@@ -201,3 +201,25 @@ def test_run_and_sfa_rungs_of_one_plan_in_one_directory(tmp_path):
                                                                       rel=1e-12)
         series, _ = ladder_series(f)
         assert [s[0] for s in series] == ["time-dependent runs", "SFA"]
+
+
+def test_a_damaged_or_foreign_sfa_file_is_not_taken_for_a_finished_point(sfa_scan, tmp_path):
+    """A truncated SFA file, or the SFA file of another input, is no finished point: it is
+    deleted and the point redone (null cases of the check that skips finished points)."""
+    import shutil
+
+    from tdse1d.scans.directory import ScanDirectory, sfa_result_matches
+
+    tmp, outcome = sfa_scan
+    plan = load_plan(tmp / "plan.toml")
+    source = ScanDirectory(tmp / "scan")
+    good = source.result(plan.points[0], "sfa")
+    assert sfa_result_matches(good, plan.points[0].hash)
+    assert not sfa_result_matches(good, plan.points[1].hash)  # another input
+    directory = ScanDirectory(tmp_path / "copy")
+    directory.points.mkdir(parents=True)
+    target = directory.result(plan.points[0], "sfa")
+    target.write_bytes(good.read_bytes()[: good.stat().st_size // 2])  # truncated
+    assert directory.state(plan.points[0], "sfa") == "todo" and not target.exists()
+    shutil.copy(source.result(plan.points[1], "sfa"), target)  # the file of point 1 under point 0's name
+    assert directory.state(plan.points[0]) == "todo" and not target.exists()
