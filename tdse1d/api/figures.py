@@ -136,20 +136,27 @@ def _photoelectron(f, cache):
                                       bands=bands)
 
 
-def _sfa_group(f, name):
+def _sfa_view(f, cache, group):
+    """The preamble of the SFA figures: the run's analysis, checked for what the figure
+    of ``group`` draws the SFA over (a photoelectron spectrum; a time-frequency map for
+    the orbits), and the stored SFA group ``group`` (None when the file holds no ``sfa/``)."""
     from ..io.sfa_file import read_sfa
 
+    a = _analysis(f, cache)
+    if group == "photoelectron" and a.photoelectron_method is None:
+        raise InputError("the file holds no photoelectron spectrum", "--what")
+    if group == "orbits" and a.time_frequency is None:
+        raise InputError("no time-frequency map: the run has no field", "--what")
     sfa = read_sfa(f)
-    return None if sfa is None else sfa.get(name)
+    return a, None if sfa is None else sfa.get(group)
 
 
 def _sfa_harmonic(f, cache):
-    a = _analysis(f, cache)
+    a, sfa = _sfa_view(f, cache, "harmonic")
     g = f["spectra/harmonic"]
     cutoffs = [("Ip + 3.17 Up", a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
                ("1.32 Ip + 3.17 Up", LEWENSTEIN_IP * a.ionization_potential + CUTOFF_UP * a.ponderomotive_energy),
                ("run, read off", a.harmonic_cutoff)]
-    sfa = _sfa_group(f, "harmonic")
     if sfa is not None:
         cutoffs.append(("SFA, read off", sfa["cutoff_energy"]))
     return sfa_figures.harmonic_ladder_figure(g["frequency"][()], g["power"][()], a.omega0, a.ionization_potential,
@@ -157,29 +164,21 @@ def _sfa_harmonic(f, cache):
 
 
 def _sfa_photoelectron(f, cache):
-    a = _analysis(f, cache)
-    method = a.photoelectron_method
-    if method is None:
-        raise InputError("the file holds no photoelectron spectrum", "--what")
-    g = f[f"spectra/photoelectron/{method}"]
+    a, sfa = _sfa_view(f, cache, "photoelectron")
+    g = f[f"spectra/photoelectron/{a.photoelectron_method}"]
     up = a.ponderomotive_energy
     return sfa_figures.photoelectron_ladder_figure(g["energy"][()], g["energy_density_left"][()],
                                                    g["energy_density_right"][()], up,
-                                                   [("2 Up", 2 * up), ("10 Up", 10 * up)],
-                                                   _sfa_group(f, "photoelectron"))
+                                                   [("2 Up", 2 * up), ("10 Up", 10 * up)], sfa)
 
 
 def _sfa_time_frequency(f, cache):
-    a = _analysis(f, cache)
-    tf = a.time_frequency
-    if tf is None:
-        raise InputError("no time-frequency map: the run has no field", "--what")
-    s = a.three_step
+    a, sfa = _sfa_view(f, cache, "orbits")
+    tf, s = a.time_frequency, a.three_step
     branches = [("short", s.short_branch), ("long", s.long_branch)] if s is not None else []
     return sfa_figures.sfa_time_frequency_figure(tf.time, tf.frequency, tf.power, a.omega0, branches,
                                                  s.cutoff_energy if s is not None else math.nan,
-                                                 f["field/time"][()], f["field/electric"][()],
-                                                 _sfa_group(f, "orbits"))
+                                                 f["field/time"][()], f["field/electric"][()], sfa)
 
 
 def _populations(f, cache):
@@ -267,7 +266,7 @@ class Figures:
         return f"<Figures of a {self.kind} file: {len(self.files)} written ({names})>"
 
 
-def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
+def plot(path, what: str = "all", output=None, on_written=None, beside=()) -> Figures:
     """Draw the figures of a result file and write them (``tdse1d plot``).
 
     Parameters
@@ -281,12 +280,17 @@ def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
         figure, ``STEM-WHAT.EXT``. Default: beside the result file, PNG.
     on_written : callable, optional
         ``on_written(path)`` after each file is written (the command prints it).
+    beside : sequence of path
+        Other scan summaries whose points the ``cutoff-ladder`` figure of a summary
+        draws too (e.g. an SFA scan beside a run scan kept in another directory).
 
     Returns
     -------
     Figures
         The written files by figure name.
     """
+    import contextlib
+
     import matplotlib
 
     matplotlib.use("Agg")
@@ -295,7 +299,8 @@ def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
     from ..io.checked_open import open_result
 
     written = {}
-    with open_result(path, kinds=KINDS) as f:
+    with contextlib.ExitStack() as stack:
+        f = stack.enter_context(open_result(path, kinds=KINDS))
         kind = f.kind
         if kind == "run" and "two_electron" in f:  # a run of the two-electron atom: its own figures
             kind = "two-electron"
@@ -303,6 +308,11 @@ def plot(path, what: str = "all", output=None, on_written=None) -> Figures:
         if what != "all" and what not in figures:
             raise InputError(f"{what!r} is not a figure of a {kind} file; choose from {', '.join(figures)}", "--what")
         cache = {}
+        if beside:
+            if kind != "scan-summary" or what not in ("all", "cutoff-ladder"):
+                raise InputError("--beside lays other scan summaries beside a summary's cutoff-ladder figure; "
+                                 f"not for the {what} figure of a {kind} file", "--beside")
+            cache["beside"] = [stack.enter_context(open_result(other, kinds=("scan-summary",))) for other in beside]
         for name, out in output_files(path, what, list(figures), output).items():
             fig = figures[name](f, cache)
             out.parent.mkdir(parents=True, exist_ok=True)

@@ -159,6 +159,11 @@ def sfa_scan(plan, *, summary=None, figure=None) -> SfaScan:
     """SFA cutoffs over the points of a scan plan (the plan files of ``tdse1d scan``), and
     the figure of cutoff against Up for the SFA and, given its ``summary.h5``, the run scan.
 
+    The points are computed one after the other in this process, with no scan
+    directory: a quick look. On the scan machinery (Dask, job arrays, ``summary.h5``
+    with ``/sfa``), give the plan ``rungs = ["sfa"]`` and run ``tdse1d scan``
+    (:mod:`tdse1d.scans.rungs`; the figure: ``tdse1d plot SUMMARY --what cutoff-ladder``).
+
     Parameters
     ----------
     plan : path

@@ -19,10 +19,13 @@ def add_arguments(parser):
                         help="which figure (default: all, one file each)")
     parser.add_argument("-o", "--output", metavar="FILE", default=None,
                         help="output file (.png, .pdf or .svg); with --what all, a stem for one file per figure")
+    parser.add_argument("--beside", metavar="SUMMARY.h5", nargs="+", default=(),
+                        help="scan summaries whose cutoffs the cutoff-ladder figure of a summary draws too "
+                             "(e.g. the SFA scan of the same plan in another directory)")
 
 
 def main(args):
     from ..api.figures import plot
 
-    plot(args.result, args.what, args.output, on_written=lambda path: print(f"wrote {path}"))
+    plot(args.result, args.what, args.output, on_written=lambda path: print(f"wrote {path}"), beside=args.beside)
     return 0

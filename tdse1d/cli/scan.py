@@ -105,5 +105,9 @@ def _render_point(args, outcome, say):
     if report.skipped:
         say(f"point {k} already finished in {outcome.directory}")
     elif report.done:
-        say(f"point {k} done in {report.wall:.1f} s -> {outcome.result(k)}")
+        from ..scans.directory import ScanDirectory
+
+        point = outcome.plan.points[k]
+        files = ", ".join(str(ScanDirectory(outcome.directory).result(point, rung)) for rung in point.rungs)
+        say(f"point {k} done in {report.wall:.1f} s -> {files}")
     return 0 if report.ok else 1

@@ -161,6 +161,7 @@ def _derived_entries() -> tuple[Entry, ...]:
 
 
 from .layout_pair import _PAIR_ROWS  # noqa: E402  (needs _entries and the units above)
+from .layout_sfa import _SFA_SCAN_ROWS  # noqa: E402  (needs Entry and _entries)
 
 
 RESULT_LAYOUT: tuple[Entry, ...] = (
@@ -488,4 +489,5 @@ SUMMARY_LAYOUT: tuple[Entry, ...] = (
         ("incoherent", "atomic_units", "sum of w_k |a_k|^2", "(E,)"),
         ("coherent", "atomic_units", "|sum of w_k a_k|^2", "(E,)"),
     )),
+    *_SFA_SCAN_ROWS,
 )

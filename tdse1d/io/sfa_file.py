@@ -1,19 +1,31 @@
 """The strong-field approximation in a result file: the ``sfa/`` group (declared in
 :mod:`tdse1d.io.layout_tables`, ``SFA_LAYOUT``; docs/output.md) written by
-:func:`write_sfa` and read back by :func:`read_sfa`.
+:func:`write_sfa` and read back by :func:`read_sfa`; and the file of the SFA rung of a
+scan point (:func:`write_sfa_point`, root attribute ``kind = "sfa-point"``): the input,
+the estimates of its pulse and that ``sfa/`` group, written under a lock as
+``NAME.part`` and renamed when complete, as a run's result file is.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import asdict
+from pathlib import Path
 
+import h5py
 import numpy as np
 
+from .. import __version__
 from ..analysis.sfa import SfaReadings, SfaSpectra
-from .result_file import write_dataset
+from ..errors import OutputError
+from ..semiclassical.estimates import as_attributes
+from .guarded_file import COMPLETE_ATTR, PART_SUFFIX, GuardedFile, WriterLock, lock_path
+from .result_file import GuardedWriting, refuse_reason, write_dataset
 
-__all__ = ["write_sfa", "read_sfa", "read_sfa_readings"]
+__all__ = ["write_sfa", "read_sfa", "read_sfa_readings", "write_sfa_point", "SFA_POINT_KIND"]
+
+#: root attribute ``kind`` of the file of a scan point's SFA rung
+SFA_POINT_KIND = "sfa-point"
 
 
 def write_sfa(h5file, spectra: SfaSpectra, readings: SfaReadings) -> None:
@@ -97,3 +109,60 @@ def read_sfa_readings(h5file) -> SfaReadings | None:
     return SfaReadings(float(h.get("cutoff_energy", nan)), float(h.get("cutoff_uncertainty", nan)), orbit_cutoff,
                        float(pe.get("direct_edge", nan)), float(pe.get("backscattered_edge", nan)),
                        energy, short, long_, crest, h.get("cutoff_reason", "no harmonic spectrum"))
+
+
+def write_sfa_point(path, problem, spectra: SfaSpectra, readings: SfaReadings) -> None:
+    """Write the file of a scan point's SFA rung: the root attributes ``kind``
+    (:data:`SFA_POINT_KIND`), ``input`` (the resolved input), ``input_source``,
+    ``tdse1d_version``, ``complete``; the group ``estimates`` (the attributes of the
+    first pulse, as in a run's file); ``sfa/`` (:func:`write_sfa`).
+
+    Parameters
+    ----------
+    path : path
+        Final name; the data go to ``path + ".part"``, renamed when complete.
+    problem : tdse1d.input.problem.Problem
+        The point's problem (its input and pulse estimates).
+    spectra, readings
+        Its SFA (:func:`tdse1d.analysis.sfa.sfa_spectra`, :func:`~tdse1d.analysis.sfa.sfa_readings`).
+
+    Raises
+    ------
+    tdse1d.errors.OutputBusy
+        Another process writes the same file.
+    """
+    with _SfaPointWriter(path) as writer:
+        f, cfg = writer.file, problem.config
+        f.attrs["kind"] = SFA_POINT_KIND
+        f.attrs["input"] = cfg.resolved_toml
+        f.attrs["input_source"] = str(cfg.source)
+        f.attrs["tdse1d_version"] = __version__
+        est = f.create_group("estimates")
+        if problem.pulse_estimates:
+            for k, v in as_attributes(problem.pulse_estimates[0]).items():
+                est.attrs[k] = v
+        write_sfa(f, spectra, readings)
+        writer.check()
+        writer._finish()
+
+
+class _SfaPointWriter(GuardedWriting):
+    """The lock, ``.part`` file and rename of :func:`write_sfa_point` (those of a run's file)."""
+
+    def __init__(self, path):
+        self.path = Path(path)
+        self.part = self.path.with_name(self.path.name + PART_SUFFIX)
+        reason = refuse_reason(self.path)
+        if reason is not None:
+            raise OutputError(reason)
+        self.file = self._raw = None
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        self.lock = WriterLock(lock_path(self.path), what=str(self.path), purpose="tdse1d scan (SFA)").acquire()
+        try:
+            self.part.unlink(missing_ok=True)  # we hold the lock: a .part here was left by a writer that died
+            self._raw = GuardedFile.create(self.part, exclusive=True)
+            self.file = h5py.File(self._raw, "w")
+            self.file.attrs[COMPLETE_ATTR] = False
+        except BaseException:
+            self.abort()
+            raise

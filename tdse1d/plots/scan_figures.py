@@ -19,6 +19,11 @@ it through the command's table of file kinds. Styling follows :mod:`tdse1d.plots
     the semiclassical lines Ip + 3.17 Up (Krause, Schafer and Kulander, Phys. Rev. Lett.
     68, 3535 (1992)) and 1.32 Ip + 3.17 Up (Lewenstein et al., Phys. Rev. A 49, 2117
     (1994)).
+``cutoff-ladder``
+    Cutoff against Up for the rungs a summary holds: the time-dependent runs (read off
+    their spectra) and the SFA (``/sfa``: read off the SFA spectra), with the classical
+    line Ip + 3.17 Up and the SFA law Ip F(Ip/Up) + 3.17 Up; the points of the summaries
+    given with ``tdse1d plot --beside`` (cache key ``"beside"``) are drawn too.
 """
 
 from __future__ import annotations
@@ -26,11 +31,13 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.colors import LogNorm
 
+from .. import units
 from ..io.layout import find
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from .run_figures import DENSITY_CMAP, LOG_RANGE_SPECTROGRAM, _figure
+from .sfa_figures import cutoff_against_up_figure
 
-__all__ = ["FIGURES", "map_figure", "cutoff_fit_figure", "knee_figure"]
+__all__ = ["FIGURES", "map_figure", "cutoff_fit_figure", "knee_figure", "cutoff_ladder_figure", "ladder_series"]
 
 
 def _scan_axis(f):
@@ -93,7 +100,8 @@ def cutoff_fit_figure(f, cache=None):
     up = find(f, "estimates/ponderomotive_energy_eV")[()]
     read = find(f, "cutoff/cutoff_energy_eV")[()]
     resolved = f["cutoff/resolved"][()]
-    ip = np.nanmean(find(f, "estimates/ionization_potential_eV")[()])
+    ips = find(f, "estimates/ionization_potential_eV")[()]
+    ip = float(np.nanmean(ips)) if np.any(np.isfinite(ips)) else np.nan  # NaN: a scan of the SFA alone
     fig, (ax,) = _figure(1)
     ax.plot(up[resolved], read[resolved], "o", color="black", label="read off the spectrum")
     if np.any(~resolved):
@@ -147,5 +155,52 @@ def knee_figure(f, cache=None):
     return fig
 
 
+def ladder_series(f, tag=""):
+    """The cutoff-against-Up series of one summary, as :func:`cutoff_against_up_figure`
+    takes them (label, Up, cutoff, half width; hartree), and its Ips (hartree).
+
+    The runs' cutoffs (resolved ones) get one photon energy as half width, the reading
+    rule's +-1 order (docs/sfa.md); the SFA's carry theirs (``/sfa/cutoff_uncertainty_eV``).
+    """
+    ev = units.HARTREE_EV
+    series, ips = [], []
+    up = find(f, "estimates/ponderomotive_energy_eV")[()] / ev
+    cutoff = find(f, "cutoff/cutoff_energy_eV")[()] / ev
+    if np.any(np.isfinite(cutoff)):
+        cutoff = np.where(f["cutoff/resolved"][()], cutoff, np.nan)
+        series.append((f"time-dependent runs{tag}", up, cutoff, find(f, "estimates/photon_energy_eV")[()] / ev))
+        ips.append(find(f, "estimates/ionization_potential_eV")[()] / ev)
+    if "sfa" in f and np.any(f["sfa/complete"][()]):
+        g = f["sfa"]
+        cutoff = np.where(g["resolved"][()], g["cutoff_energy_eV"][()], np.nan) / ev
+        series.append((f"SFA{tag}", g["ponderomotive_energy_eV"][()] / ev, cutoff, g["cutoff_uncertainty_eV"][()] / ev))
+        ips.append(g["ionization_potential_eV"][()] / ev)
+    return series, (np.concatenate(ips) if ips else np.zeros(0))
+
+
+def cutoff_ladder_figure(f, cache=None):
+    """Cutoff against Up for the runs and the SFA of this summary (and of the summaries
+    in ``cache["beside"]``), with Ip + 3.17 Up and Ip F(Ip/Up) + 3.17 Up."""
+    others = list((cache or {}).get("beside", ()))
+    series, ips = ladder_series(f, "" if not others else f" ({_name(f)})")
+    for other in others:
+        more, more_ips = ladder_series(other, f" ({_name(other)})")
+        series += more
+        ips = np.concatenate([ips, more_ips])
+    if not series:
+        fig, (ax,) = _figure(1)
+        ax.text(0.5, 0.5, "no finished point in this summary", ha="center", va="center", transform=ax.transAxes)
+        return fig
+    return cutoff_against_up_figure(series, float(np.nanmedian(ips)) if np.any(np.isfinite(ips)) else np.nan)
+
+
+def _name(f) -> str:
+    """A summary's short name: its scan directory."""
+    from pathlib import Path
+
+    return Path(f.filename).resolve().parent.name
+
+
 #: figure name -> function(open summary file, cache) -> Figure
-FIGURES = {"map": map_figure, "cutoff-fit": cutoff_fit_figure, "knee": knee_figure}
+FIGURES = {"map": map_figure, "cutoff-fit": cutoff_fit_figure, "knee": knee_figure,
+           "cutoff-ladder": cutoff_ladder_figure}

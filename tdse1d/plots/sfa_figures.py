@@ -141,7 +141,10 @@ def sfa_time_frequency_figure(time, frequency, power, omega0, branches=(), cutof
 
 
 def cutoff_against_up_figure(rungs, ip):
-    """Harmonic cutoff against Up for several rungs, with Ip + 3.17 Up and 1.32 Ip + 3.17 Up.
+    """Harmonic cutoff against Up for several rungs, with the classical line Ip + 3.17 Up
+    (Krause, Schafer and Kulander, Phys. Rev. Lett. 68, 3535 (1992)) and the SFA law
+    Ip F(Ip/Up) + 3.17 Up (Lewenstein et al., Phys. Rev. A 49, 2117 (1994):
+    :func:`tdse1d.semiclassical.sfa_orbits.cutoff_law`).
 
     Parameters
     ----------
@@ -151,15 +154,28 @@ def cutoff_against_up_figure(rungs, ip):
     ip : float
         Ionization potential (hartree).
     """
+    from ..semiclassical.sfa_orbits import cutoff_law
+
     fig, (ax,) = _figure(1, FIGURE_SIZE[1])
     everything = np.concatenate([np.asarray(r[1], float) for r in rungs]) if rungs else np.array([1.0])
-    ups = np.linspace(0, 1.1 * np.nanmax(everything), 50)
-    ax.plot(_ev(ups), _ev(ip + 3.17 * ups), color="0.5", ls="--", lw=0.8, label="Ip + 3.17 Up")
-    ax.plot(_ev(ups), _ev(1.32 * ip + 3.17 * ups), color="0.2", ls=":", lw=0.8, label="1.32 Ip + 3.17 Up")
+    top = np.nanmax(everything) if np.any(np.isfinite(everything)) else 1.0
+    ups = np.linspace(0, 1.1 * top, 50)
+    ax.plot(_ev(ups), _ev(ip + 3.17 * ups), color="0.5", ls="--", lw=0.8, label="Ip + 3.17 Up (classical)")
+    if math.isfinite(ip) and ip > 0:
+        law_ups = ups[ups >= 0.05 * top]  # F(Ip/Up) -> 1 as Up -> 0; the orbits are followed from Ip/Up ~ 20 up
+
+        def law(u):
+            try:
+                return cutoff_law(ip, u)
+            except ValueError:  # no quantum orbit found at this Ip/Up: the line leaves a gap
+                return math.nan
+
+        ax.plot(_ev(law_ups), _ev([law(u) for u in law_ups]), color="0.2", ls=":", lw=1.0,
+                label="Ip F(Ip/Up) + 3.17 Up (SFA law)")
     for k, (label, up, cutoff, error) in enumerate(rungs):
         up, cutoff, error = (np.asarray(v, dtype=float) for v in (up, cutoff, error))
-        ok = np.isfinite(cutoff)
-        ax.errorbar(_ev(up[ok]), _ev(cutoff[ok]), yerr=_ev(error[ok]), fmt="os^"[k % 3], ms=4, capsize=2,
+        ok = np.isfinite(cutoff) & np.isfinite(up)
+        ax.errorbar(_ev(up[ok]), _ev(cutoff[ok]), yerr=_ev(error[ok]), fmt="os^D"[k % 4], ms=4, capsize=2,
                     color=f"C{k}", label=label)
     ax.set_xlabel("Up (eV)")
     ax.set_ylabel("harmonic cutoff (eV)")

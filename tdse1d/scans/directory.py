@@ -5,7 +5,9 @@ failed point leaves ``points/<hash>.error`` (its traceback). The plan is recorde
 that a directory holding another plan's points is refused (:class:`PlanMismatch`)
 unless the user starts afresh. :meth:`ScanDirectory.lock` holds ``SCAN_DIR/scan.lock``
 for a whole scan, and every point file is written under its own lock
-(:class:`tdse1d.io.guarded_file.WriterLock`).
+(:class:`tdse1d.io.guarded_file.WriterLock`). Each rung of a point (:mod:`tdse1d.scans.rungs`)
+has its own files: ``points/<hash><suffix>.h5``, ``.json``, ``.error`` (the run's suffix is
+empty, the SFA's ``.sfa``).
 """
 
 from __future__ import annotations
@@ -18,6 +20,7 @@ import numpy as np
 
 from ..input.spec import tomllib
 from .plan import ScanPlan, ScanPoint, input_hash
+from .rungs import RUNGS
 
 
 MANIFEST = "manifest.json"
@@ -44,14 +47,18 @@ class ScanDirectory:
         self.root = Path(root)
         self.points = self.root / POINTS_DIR
 
-    def result(self, point: ScanPoint) -> Path:
-        return self.points / f"{point.hash}.h5"
+    def _name(self, point: ScanPoint, rung: str, extension: str) -> Path:
+        return self.points / f"{point.hash}{RUNGS[rung].suffix}{extension}"
 
-    def error(self, point: ScanPoint) -> Path:
-        return self.points / f"{point.hash}.error"
+    def result(self, point: ScanPoint, rung: str = "run") -> Path:
+        """The file of ``point`` at ``rung`` (the run's result file by default)."""
+        return self._name(point, rung, ".h5")
 
-    def record(self, point: ScanPoint) -> Path:
-        return self.points / f"{point.hash}.json"
+    def error(self, point: ScanPoint, rung: str = "run") -> Path:
+        return self._name(point, rung, ".error")
+
+    def record(self, point: ScanPoint, rung: str = "run") -> Path:
+        return self._name(point, rung, ".json")
 
     @property
     def summary(self) -> Path:
@@ -98,11 +105,11 @@ class ScanDirectory:
         self.root.mkdir(parents=True, exist_ok=True)
         return WriterLock(self.lock_file, what=f"the scan directory {str(self.root)!r}", purpose="tdse1d scan").acquire()
 
-    def writer_of(self, point: ScanPoint):
-        """The live process writing ``point`` (a :class:`~tdse1d.io.guarded_file.LockHolder`), or None."""
+    def writer_of(self, point: ScanPoint, rung: str = "run"):
+        """The live process writing ``point`` at ``rung`` (a :class:`~tdse1d.io.guarded_file.LockHolder`), or None."""
         from ..io.guarded_file import WriterLock, lock_path
 
-        return WriterLock.holder(lock_path(self.result(point)))
+        return WriterLock.holder(lock_path(self.result(point, rung)))
 
     def clear(self) -> None:
         """Delete the files a scan writes (and nothing else).
@@ -127,18 +134,24 @@ class ScanDirectory:
         for name in (MANIFEST, PLAN_COPY, SUMMARY):
             (self.root / name).unlink(missing_ok=True)
 
-    def state(self, point: ScanPoint) -> str:
+    def state(self, point: ScanPoint, rung: str | None = None) -> str:
         """``"done"``, ``"busy"`` (another live process writes it), ``"failed"`` or ``"todo"``;
-        a result file that fails verification (:func:`result_matches`) is deleted."""
-        path = self.result(point)
-        if self.writer_of(point) is not None:
+        a result file that fails verification (:func:`result_matches`) is deleted.
+
+        Without ``rung``, the state of the point over the rungs its plan asks for: done
+        when every one is done, else busy, failed or todo (the first that applies)."""
+        if rung is None:
+            states = [self.state(point, r) for r in point.rungs]
+            return next((s for s in ("busy", "failed", "todo") if s in states), "done")
+        path = self.result(point, rung)
+        if self.writer_of(point, rung) is not None:
             return "busy"
         if path.exists():
-            if result_matches(path, point.hash):
+            if MATCHES[rung](path, point.hash):
                 return "done"
             path.unlink(missing_ok=True)  # truncated, unfinished or another input: redo
-            self.record(point).unlink(missing_ok=True)
-        if self.error(point).exists():
+            self.record(point, rung).unlink(missing_ok=True)
+        if self.error(point, rung).exists():
             return "failed"
         return "todo"
 
@@ -172,3 +185,31 @@ def result_matches(path, expected_hash: str) -> bool:
     except Exception:  # h5py raises several types for a damaged file
         return False
     return input_hash(raw) == expected_hash
+
+
+def sfa_result_matches(path, expected_hash: str) -> bool:
+    """True if ``path`` is a complete file of a point's SFA rung
+    (:func:`tdse1d.io.sfa_file.write_sfa_point`) of the input named ``expected_hash``,
+    whose harmonic spectrum reads back whole and finite."""
+    import h5py
+
+    from ..io.result_file import is_complete
+    from ..io.sfa_file import SFA_POINT_KIND
+
+    if not is_complete(path):
+        return False
+    try:
+        with h5py.File(path, "r") as f:
+            if f.attrs.get("kind") != SFA_POINT_KIND:
+                return False
+            raw = tomllib.loads(f.attrs["input"])
+            for name in ("sfa/harmonic/power", "sfa/harmonic/frequency"):
+                if not np.all(np.isfinite(f[name][()])):
+                    return False
+    except Exception:  # h5py raises several types for a damaged file
+        return False
+    return input_hash(raw) == expected_hash
+
+
+#: rung -> check of a finished file of that rung, (path, expected hash) -> bool
+MATCHES = {"run": result_matches, "sfa": sfa_result_matches}

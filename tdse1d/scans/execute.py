@@ -9,7 +9,8 @@ existing scheduler given by address. :func:`run_one` runs one point in this proc
 arrays; it never writes a point that another process is writing), and
 :func:`tdse1d.scans.summary.write_summary` assembles ``summary.h5``. The plan is read by
 :mod:`tdse1d.scans.plan`, the directory kept by :mod:`tdse1d.scans.directory`, the points
-run by :mod:`tdse1d.scans.worker`.
+run by :mod:`tdse1d.scans.worker`. Each rung a point asks for (:mod:`tdse1d.scans.rungs`:
+the run, the SFA) is one task with its own file; a point is done when all its rungs are.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ import sys
 import time
 from dataclasses import dataclass, field
 
-from .directory import ScanDirectory, result_matches
+from .directory import MATCHES, ScanDirectory
 from .plan import ScanPlan, ScanPoint
 from .worker import _stop_scheduler_http, _worker_setup, run_point, warm_up
 
@@ -50,35 +51,71 @@ class ScanReport:
         return not self.failed and not self.busy and not self.interrupted
 
 
+@dataclass(frozen=True)
+class Task:
+    """One point at one rung: what a worker computes into one file."""
+
+    point: ScanPoint
+    rung: str = "run"
+
+    @property
+    def index(self) -> int:
+        return self.point.index
+
+    @property
+    def cost(self) -> float:
+        """For ordering and progress: the run's grid points x time steps; an SFA task
+        counts 1, negligible beside any run (and equal among SFA tasks)."""
+        if self.rung != "run":
+            return 1.0
+        return self.point.cost if math.isfinite(self.point.cost) else math.inf
+
+    @property
+    def key(self) -> str:
+        """The Dask key (the run's as before rungs existed)."""
+        tag = "point" if self.rung == "run" else self.rung
+        return f"tdse1d-{tag}-{self.point.hash}"
+
+
 def _prepare(plan: ScanPlan, directory: ScanDirectory, fresh: bool, retry_failed: bool, report: ScanReport):
-    """Claim the directory and sort the points into to-run and the rest."""
+    """Claim the directory and sort the tasks (:class:`Task`: a point at a rung) into
+    to-run, returned longest first, and the rest, filed in ``report``."""
     directory.claim(plan, fresh=fresh)
     todo = []
     for p in plan.points:
-        state = directory.state(p)
-        if state == "done":
+        if directory.state(p) == "done":
             report.skipped.append(p.index)
-        elif state == "busy":
-            holder = directory.writer_of(p)
-            report.busy[p.index] = f"being written by {holder.describe() if holder else 'another process'}"
-        elif state == "failed" and not retry_failed:
-            report.failed[p.index] = directory.error(p).read_text(encoding="utf-8").splitlines()[0]
-        else:
-            directory.error(p).unlink(missing_ok=True)
-            todo.append(p)
-    # longest first, so that the last points to finish are short ones
-    todo.sort(key=lambda p: (-(p.cost if math.isfinite(p.cost) else math.inf), p.index))
+            continue
+        for rung in p.rungs:
+            state = directory.state(p, rung)
+            if state == "busy":
+                holder = directory.writer_of(p, rung)
+                report.busy[p.index] = _at(rung, f"being written by {holder.describe() if holder else 'another process'}")
+            elif state == "failed" and not retry_failed:
+                report.failed[p.index] = _at(rung, directory.error(p, rung).read_text(encoding="utf-8").splitlines()[0])
+            elif state != "done":
+                directory.error(p, rung).unlink(missing_ok=True)
+                todo.append(Task(p, rung))
+    # longest first, so that the last tasks to finish are short ones (the SFA's: seconds)
+    todo.sort(key=lambda task: (-task.cost, task.index))
     return todo
 
 
-def _args(plan: ScanPlan, directory: ScanDirectory, p: ScanPoint):
-    return (p.resolved_toml, f"{plan.source} point {p.index}", str(plan.base_dir), str(directory.result(p)))
+def _at(rung: str, message: str) -> str:
+    """A task's message, naming its rung unless it is the run."""
+    return message if rung == "run" else f"{rung}: {message}"
+
+
+def _args(plan: ScanPlan, directory: ScanDirectory, p: ScanPoint, rung: str = "run"):
+    return (p.resolved_toml, f"{plan.source} point {p.index}", str(plan.base_dir), str(directory.result(p, rung)),
+            rung)
 
 
 def run_one(plan: ScanPlan, directory, index: int, fresh: bool = False, retry_failed: bool = True) -> ScanReport:
-    """Run point ``index`` of ``plan`` in this process (one task of a job array).
+    """Run point ``index`` of ``plan`` in this process (one task of a job array), at every
+    rung the plan asks for.
 
-    A finished point is not run again. Raises IndexError for an index outside the plan.
+    A finished point (rung) is not run again. Raises IndexError for an index outside the plan.
     """
     directory = ScanDirectory(directory)
     if not 0 <= index < len(plan.points):
@@ -86,36 +123,46 @@ def run_one(plan: ScanPlan, directory, index: int, fresh: bool = False, retry_fa
     report = ScanReport(total=1)
     directory.claim(plan, fresh=fresh)
     p = plan.points[index]
-    state = directory.state(p)
-    if state == "done":
+    if directory.state(p) == "done":
         report.skipped.append(index)
         return report
-    if state == "busy":
-        holder = directory.writer_of(p)
-        report.busy[index] = f"being written by {holder.describe() if holder else 'another process'}"
-        return report
-    if state == "failed" and not retry_failed:
-        report.failed[index] = directory.error(p).read_text(encoding="utf-8").splitlines()[0]
-        return report
     started = time.perf_counter()
-    record = run_point(*_args(plan, directory, p))
+    for rung in p.rungs:
+        state = directory.state(p, rung)
+        if state == "done":
+            continue
+        if state == "busy":
+            holder = directory.writer_of(p, rung)
+            report.busy[index] = _at(rung, f"being written by {holder.describe() if holder else 'another process'}")
+            break
+        if state == "failed" and not retry_failed:
+            report.failed[index] = _at(rung, directory.error(p, rung).read_text(encoding="utf-8").splitlines()[0])
+            break
+        record = run_point(*_args(plan, directory, p, rung))
+        _file_record(report, index, record, record["status"] == "done", rung)
+        if record["status"] != "done":
+            break
     report.wall = time.perf_counter() - started
-    report.records[index] = record
-    _file_record(report, index, record, record["status"] == "done")
+    if not (report.failed or report.busy or report.interrupted):
+        report.done.append(index)
     return report
 
 
-def _file_record(report: ScanReport, index: int, record: dict, done: bool) -> None:
-    """Sort a point's record into the report by its outcome."""
+def _file_record(report: ScanReport, index: int, record: dict, done: bool, rung: str = "run") -> None:
+    """Sort a task's record into the report by its outcome: a point whose every task is
+    done goes to ``done`` (the caller's business), any other outcome of a task files the
+    point under it. ``records`` keeps the run's record of a point (else its last task's)."""
     status = record.get("status")
+    if rung == "run" or index not in report.records:
+        report.records[index] = record
     if done:
-        report.done.append(index)
-    elif status == "busy":
-        report.busy[index] = record.get("error", "being written by another process")
+        return
+    if status == "busy":
+        report.busy[index] = _at(rung, record.get("error", "being written by another process"))
     elif status == "interrupted":
         report.interrupted.append(index)
     else:
-        report.failed[index] = record.get("error", "no result file")
+        report.failed[index] = _at(rung, record.get("error", "no result file"))
 
 
 def local_cluster(workers: int | None = None, dashboard: bool = False):
@@ -214,19 +261,20 @@ class _Progress:
         elapsed = time.perf_counter() - self.started
         return elapsed * (self.cost_total - self.cost_done) / self.cost_done
 
-    def update(self, point: ScanPoint, record: dict):
+    def update(self, point: ScanPoint, record: dict, cost: float):
         self.count += 1
-        self.cost_done += point.cost if math.isfinite(point.cost) else 0.0
+        self.cost_done += cost if math.isfinite(cost) else 0.0
         if not self.enabled:
             return
         status = record.get("status", "failed")
+        rung = "" if record.get("rung", "run") == "run" else f" ({record['rung']})"
         left = self.left()
         left_text = f"~{left:.0f} s left" if math.isfinite(left) else "time left unknown"
         if self.bar is not None:
             self.bar.update(1)
-            self.bar.set_postfix_str(f"{left_text}, last: point {point.index} {status}", refresh=True)
+            self.bar.set_postfix_str(f"{left_text}, last: point {point.index}{rung} {status}", refresh=True)
         else:
-            print(f"scan: {self.count}/{self.total} points, point {point.index} {status} "
+            print(f"scan: {self.count}/{self.total} tasks, point {point.index}{rung} {status} "
                   f"({record.get('seconds', math.nan):.1f} s), {left_text}", file=self.stream, flush=True)
 
     def close(self):
@@ -300,30 +348,38 @@ def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard,
             client.register_plugin(_worker_setup(stop_http=False), name="tdse1d-stop-on-signals")
         # every worker loads the numerics at once, before the points are handed out, so
         # the first point on each costs what the others do (a worker that joins later
-        # pays it in its first point)
-        client.run(warm_up, on_error="ignore")  # a worker that cannot, fails its points instead
+        # pays it in its first point; a worker that cannot, fails its points instead), at
+        # the rungs the tasks ask for
+        client.run(warm_up, tuple(sorted({t.rung for t in todo})), on_error="ignore")
         by_key = {}
         futures = []
-        for rank, p in enumerate(todo):
+        for rank, task in enumerate(todo):
             # priority keeps the longest-first order when workers free up
-            fut = client.submit(run_point, *_args(plan, directory, p), key=f"tdse1d-point-{p.hash}",
+            fut = client.submit(run_point, *_args(plan, directory, task.point, task.rung), key=task.key,
                                 pure=False, priority=len(todo) - rank, retries=0)
-            by_key[fut.key] = p
+            by_key[fut.key] = task
             futures.append(fut)
-        bar = _Progress(len(todo), sum(p.cost for p in todo if math.isfinite(p.cost)), progress)
+        left = {}  # point index -> its tasks not finished yet
+        for task in todo:
+            left[task.index] = left.get(task.index, 0) + 1
+        bar = _Progress(len(todo), sum(t.cost for t in todo if math.isfinite(t.cost)), progress)
         try:
             for fut in as_completed(futures, loop=client.loop):
-                p = by_key[fut.key]
+                task = by_key[fut.key]
+                p, rung = task.point, task.rung
                 try:
                     record = fut.result()
                 except Exception as exc:
                     # the worker died (KilledWorker) or the task was lost: not the point's
                     # own fault, so no .error file and a plain rerun runs it again
-                    record = {"status": "lost", "error": f"worker lost: {type(exc).__name__}: {exc}"}
-                report.records[p.index] = record
-                done = record["status"] == "done" and result_matches(directory.result(p), p.hash)
-                _file_record(report, p.index, record, done)
-                bar.update(p, record)
+                    record = {"status": "lost", "rung": rung, "error": f"worker lost: {type(exc).__name__}: {exc}"}
+                done = record["status"] == "done" and MATCHES[rung](directory.result(p, rung), p.hash)
+                _file_record(report, p.index, record, done, rung)
+                left[p.index] -= 1
+                if not left[p.index] and not (p.index in report.failed or p.index in report.busy
+                                              or p.index in report.interrupted):
+                    report.done.append(p.index)
+                bar.update(p, record, task.cost)
         finally:
             bar.close()
     finally:

@@ -18,6 +18,9 @@ A *scan plan* (TOML) names a base input and one or more axes::
     stop = "1200 nm"
     count = 3
 
+    rungs = ["run", "sfa"]         # optional (a top-level key): what each point computes
+                                   # (:mod:`tdse1d.scans.rungs`; default ["run"])
+
 :func:`load_plan` validates every point as a complete input before anything runs and
 reports all bad points at once (:class:`PlanError`, an :class:`~tdse1d.input.schema.InputError`).
 
@@ -31,18 +34,15 @@ import copy
 import hashlib
 import itertools
 import json
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
-import numpy as np
-
-from .. import units
-from ..input.schema import (AbsorberConfig, AtomConfig, CentreConfig, GridConfig, LaserConfig, OutputConfig,
-                            PropagationConfig, RunConfig, SpectraConfig, parse_input)
+from ..input.schema import RunConfig, parse_input
 from ..input.spec import InputError, apply_override, dump_toml, tomllib
+from .axes import SPACINGS, Axis, key_spec, read_axis  # noqa: F401 - SPACINGS, key_spec: the plan's names
 from .cost import estimate_cost
+from .rungs import DEFAULT_RUNGS, PLAN_KEY, read_rungs
 
 
 HASH_DIGITS = 16
@@ -79,107 +79,6 @@ def input_hash(raw: dict) -> str:
 
 # --------------------------------------------------------------------- plan model
 
-#: section name -> dataclass whose fields are the keys of that table
-_SECTION_CLASSES = {
-    "atom": AtomConfig,
-    "laser": LaserConfig,
-    "grid": GridConfig,
-    "propagation": PropagationConfig,
-    "absorber": AbsorberConfig,
-    "output": OutputConfig,
-    "spectra": SpectraConfig,
-}
-
-
-def key_spec(key: str):
-    """The :class:`~tdse1d.input.schema.Spec` of a dotted input key, or None if it names no value."""
-    import dataclasses
-
-    parts = [p for p in key.split(".") if not p.isdigit()]
-    if not parts or parts[0] not in _SECTION_CLASSES:
-        return None
-    cls = _SECTION_CLASSES[parts[0]]
-    rest = parts[1:]
-    if cls is AtomConfig and rest[:1] == ["centre"]:
-        cls, rest = CentreConfig, rest[1:]
-    if len(rest) != 1:
-        return None
-    if cls is AtomConfig:  # a model's own parameter, declared by its potential
-        from ..input.spec import parameter_spec
-        from ..physics.potentials import POTENTIALS
-
-        for model in POTENTIALS.values():
-            for p in model.parameters:
-                if p.name == rest[0]:
-                    return parameter_spec(p)
-    for f in dataclasses.fields(cls):
-        if f.name == rest[0] and "spec" in f.metadata:
-            return f.metadata["spec"]
-    return None
-
-
-def _split_unit(value) -> tuple[float | None, str]:
-    """``"1.5e14 W/cm^2"`` -> (1.5e14, "W/cm^2"); a bare number -> (number, "")."""
-    if isinstance(value, bool):
-        return None, ""
-    if isinstance(value, (int, float)):
-        return float(value), ""
-    if isinstance(value, str):
-        head, _, tail = value.strip().partition(" ")
-        try:
-            return float(head), tail.strip()
-        except ValueError:
-            return None, ""
-    return None, ""
-
-
-def _atomic_value(value, spec) -> float:
-    """A plan value in atomic units (NaN for non-numeric values such as envelope names)."""
-    if spec is not None and spec.kind == "quantity":
-        try:
-            return units.to_atomic(value, spec.dimension)
-        except units.UnitError:
-            return math.nan
-    number, _ = _split_unit(value)
-    return math.nan if number is None else number
-
-
-@dataclass(frozen=True)
-class Axis:
-    """One scanned key and its values, as they will be set in the input.
-
-    Attributes
-    ----------
-    key : str
-        Dotted input key, e.g. ``laser.0.peak_intensity``.
-    values : tuple
-        TOML values (strings with units, or numbers), applied like ``--set``.
-    unit : str
-        Unit of the values as written (``""`` for bare numbers); used for labels.
-    atomic : tuple of float
-        The values in atomic units (NaN where not numeric).
-    """
-
-    key: str
-    values: tuple
-    unit: str
-    atomic: tuple
-
-    @property
-    def label(self) -> str:
-        return f"{self.key} ({self.unit})" if self.unit else self.key
-
-    def display(self) -> np.ndarray:
-        """Values as numbers in :attr:`unit` (values written in other units are converted)."""
-        spec = key_spec(self.key)
-        if self.unit and spec is not None and spec.kind == "quantity":
-            try:
-                return np.array(self.atomic, float) / units.to_atomic(f"1 {self.unit}", spec.dimension)
-            except units.UnitError:
-                pass
-        return np.array([math.nan if _split_unit(v)[0] is None else _split_unit(v)[0] for v in self.values])
-
-
 @dataclass(frozen=True)
 class ScanPoint:
     """One run of a scan.
@@ -196,6 +95,8 @@ class ScanPoint:
         :func:`input_hash` of ``raw``: the name of its result file.
     cost : float
         :func:`estimate_cost`, grid points x time steps.
+    rungs : tuple of str
+        The rungs computed at this point (the plan's ``rungs``, :mod:`tdse1d.scans.rungs`).
     """
 
     index: int
@@ -204,6 +105,7 @@ class ScanPoint:
     hash: str
     cost: float
     config: RunConfig = field(repr=False, compare=False)
+    rungs: tuple = DEFAULT_RUNGS
 
     @property
     def resolved_toml(self) -> str:
@@ -221,6 +123,7 @@ class ScanPlan:
     axes: tuple
     fixed: tuple
     points: tuple
+    rungs: tuple = DEFAULT_RUNGS
 
     @property
     def identity(self) -> str:
@@ -241,6 +144,7 @@ class ScanPlan:
             "plan_identity": self.identity,
             "plan_source": self.source,
             "mode": self.mode,
+            "rungs": list(self.rungs),
             "axes": [{"key": a.key, "values": list(a.values), "unit": a.unit} for a in self.axes],
             "points": [
                 {"index": p.index, "hash": p.hash, "grid_index": list(p.grid_index), "cost": p.cost}
@@ -250,20 +154,6 @@ class ScanPlan:
 
 
 # -------------------------------------------------------------- axis and points
-
-
-def _linear(start, stop, count):
-    return np.linspace(start, stop, count)
-
-
-def _log(start, stop, count):
-    if start <= 0 or stop <= 0:
-        raise ValueError("a log-spaced range needs positive start and stop")
-    return np.geomspace(start, stop, count)
-
-
-#: range spacing name -> function(start, stop, count) -> values
-SPACINGS: dict[str, Callable] = {"linear": _linear, "log": _log}
 
 
 def _grid_points(axes):
@@ -282,80 +172,7 @@ def _zip_points(axes):
 #: point expansion name -> function(axes) -> list of index tuples
 EXPANSIONS: dict[str, Callable] = {"grid": _grid_points, "zip": _zip_points}
 
-_AXIS_KEYS = ("key", "values", "start", "stop", "count", "spacing")
-_PLAN_KEYS = ("base", "mode", "set", "axis")
-
-
-def _range_values(table, where, problems):
-    start, stop, count = table.get("start"), table.get("stop"), table.get("count")
-    spacing = table.get("spacing", "linear")
-    missing = [k for k, v in (("start", start), ("stop", stop), ("count", count)) if v is None]
-    if missing:
-        problems.append(f"{where}: a range needs start, stop and count (missing {', '.join(missing)})")
-        return None
-    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-        problems.append(f"{where}.count: must be a positive integer, got {count!r}")
-        return None
-    if spacing not in SPACINGS:
-        problems.append(f"{where}.spacing: unknown spacing {spacing!r}; choose one of {', '.join(SPACINGS)}")
-        return None
-    a, unit = _split_unit(start)
-    b, unit_b = _split_unit(stop)
-    if a is None or b is None:
-        problems.append(f"{where}: start and stop must be numbers or 'NUMBER UNIT' strings, got {start!r}, {stop!r}")
-        return None
-    if unit_b != unit and unit:
-        # convert stop into the unit of start through atomic units of a common dimension
-        for dim in units.DIMENSIONS:
-            try:
-                b = units.to_atomic(stop, dim) / units.to_atomic(f"1 {unit}", dim)
-                break
-            except units.UnitError:
-                continue
-        else:
-            problems.append(f"{where}: stop {stop!r} cannot be converted to the unit of start {start!r}")
-            return None
-    try:
-        numbers = SPACINGS[spacing](a, b, count)
-    except ValueError as exc:
-        problems.append(f"{where}: {exc}")
-        return None
-    return tuple(f"{float(v):.12g} {unit}" if unit else float(v) for v in numbers)
-
-
-def _read_axis(table, i, problems) -> Axis | None:
-    where = f"axis.{i}"
-    if not isinstance(table, dict):
-        problems.append(f"{where}: must be a table [[axis]]")
-        return None
-    for k in table:
-        if k not in _AXIS_KEYS:
-            problems.append(f"{where}.{k}: unknown key; known keys: {', '.join(_AXIS_KEYS)}")
-    key = table.get("key")
-    if not isinstance(key, str) or not key:
-        problems.append(f"{where}.key: missing or not a string (a dotted input key such as laser.0.wavelength)")
-        return None
-    has_values = "values" in table
-    has_range = any(k in table for k in ("start", "stop", "count"))
-    if has_values == has_range:
-        problems.append(f"{where} ({key}): give either 'values' or a range (start, stop, count)")
-        return None
-    if has_values:
-        values = table["values"]
-        if not isinstance(values, list):
-            problems.append(f"{where}.values ({key}): must be an array, got {values!r}")
-            return None
-        values = tuple(values)
-    else:
-        values = _range_values(table, where, problems)
-        if values is None:
-            return None
-    if not values:
-        problems.append(f"{where} ({key}): empty axis, no values to scan")
-        return None
-    spec = key_spec(key)
-    unit = _split_unit(values[0])[1]
-    return Axis(key=key, values=values, unit=unit, atomic=tuple(_atomic_value(v, spec) for v in values))
+_PLAN_KEYS = ("base", "mode", "set", "axis", PLAN_KEY)
 
 
 def _flatten(table, prefix=""):
@@ -394,6 +211,7 @@ def parse_plan(plan: dict, source: str = "<plan>", base_dir: Path | str = ".", t
     for k in plan:
         if k not in _PLAN_KEYS:
             problems.append(f"{k}: unknown key in the plan; known keys: {', '.join(_PLAN_KEYS)}")
+    rungs = read_rungs(plan.get(PLAN_KEY), problems)
     mode = plan.get("mode", "grid")
     if mode not in EXPANSIONS:
         problems.append(f"mode: unknown value {mode!r}; choose one of {', '.join(EXPANSIONS)}")
@@ -430,7 +248,7 @@ def parse_plan(plan: dict, source: str = "<plan>", base_dir: Path | str = ".", t
     if not isinstance(axes_raw, list) or not axes_raw:
         problems.append("axis: the plan needs at least one [[axis]] table")
         axes_raw = []
-    axes = [_read_axis(t, i, problems) for i, t in enumerate(axes_raw)]
+    axes = [read_axis(t, i, problems) for i, t in enumerate(axes_raw)]
     keys = [a.key for a in axes if a is not None]
     for k in sorted({k for k in keys if keys.count(k) > 1}):
         problems.append(f"axis: key {k!r} is scanned twice")
@@ -470,7 +288,7 @@ def parse_plan(plan: dict, source: str = "<plan>", base_dir: Path | str = ".", t
             continue
         points.append(
             ScanPoint(index=n, grid_index=tuple(idx), raw=config.raw, hash=input_hash(config.raw),
-                      cost=estimate_cost(config), config=config)
+                      cost=estimate_cost(config), config=config, rungs=rungs)
         )
     if problems:
         raise PlanError(problems, source)
@@ -478,7 +296,7 @@ def parse_plan(plan: dict, source: str = "<plan>", base_dir: Path | str = ".", t
     if len(set(hashes)) != len(hashes):
         raise PlanError(["two points have the same resolved input (an axis repeats a value)"], source)
     return ScanPlan(source=source, text=text, base_dir=input_dir, mode=mode, axes=axes, fixed=fixed,
-                    points=tuple(points))
+                    points=tuple(points), rungs=rungs)
 
 
 def load_plan(path) -> ScanPlan:

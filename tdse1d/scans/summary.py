@@ -3,7 +3,9 @@
 :func:`write_summary` reads the finished point files of a :class:`~tdse1d.scans.plan.ScanPlan`
 and writes ``SCAN_DIR/summary.h5`` (root attribute ``kind = "scan-summary"``); the
 layout is listed in ``docs/scans.md``. Points without a finished file are kept as rows
-of NaN with ``/points/complete`` False, so a partial scan can be looked at.
+of NaN with ``/points/complete`` False, so a partial scan can be looked at. The SFA
+rung of the points (plan key ``rungs``), when asked for or present, goes to ``/sfa``
+(:mod:`tdse1d.scans.sfa_summary`).
 
 The fit of the cutoff energy read off each spectrum against Up (least squares, points
 with a resolved cutoff only) is set beside the semiclassical law ``Ip + 3.17 Up``
@@ -202,7 +204,7 @@ def write_summary(plan, directory) -> Summary:
     records = []
     for p in plan.points:
         path = sd.result(p)
-        data.append(_read_point(path) if sd.state(p) == "done" else None)
+        data.append(_read_point(path) if sd.state(p, "run") == "done" else None)
         try:
             records.append(json.loads(sd.record(p).read_text(encoding="utf-8")))
         except (OSError, ValueError):
@@ -218,7 +220,7 @@ def write_summary(plan, directory) -> Summary:
     cutoff_ev = column(lambda d, r: d.attrs["cutoff_energy"] * ev)
     resolved = np.array([bool(d.attrs["cutoff_resolved"]) if d is not None else False for d in data])
 
-    if present:
+    if present:  # the runs' spectra on one grid (none in a scan of the SFA alone)
         steps = [d.energy_ev[1] - d.energy_ev[0] for d in present]
         tops = [d.energy_ev[-1] for d in present]
         reach = GRID_REACH * float(np.nanmax(est("cutoff_energy")))
@@ -303,6 +305,10 @@ def write_summary(plan, directory) -> Summary:
             write_dataset(knee, "peak_intensity_W_cm2", column(
                 lambda d, r: d.attrs["estimates"].get("peak_intensity_W_cm2", math.nan)), layout=SUMMARY_LAYOUT)
         _write_focal(f, plan, energy, power, amplitude)
+        if "sfa" in plan.rungs or any(sd.state(p, "sfa") == "done" for p in plan.points):
+            from .sfa_summary import write_sfa_group
+
+            write_sfa_group(f, plan, sd)
     os.replace(tmp, sd.summary)
     return Summary(sd.summary, fit)
 

@@ -17,17 +17,17 @@ from pathlib import Path
 
 from ..input.schema import parse_input
 from ..input.spec import tomllib
-from .directory import _write_atomic, result_matches
+from .directory import _write_atomic
 from .plan import input_hash
 
 
 # --------------------------------------------------------------------- one point
 
 
-def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> dict:
-    """Run one point and write its result file; the function Dask workers execute.
+def run_point(resolved_toml: str, source: str, base_dir: str, output: str, rung: str = "run") -> dict:
+    """Compute one point at one rung and write its file; the function Dask workers execute.
 
-    Never raises for a failure of the run itself: the traceback goes to
+    Never raises for a failure of the computation itself: the traceback goes to
     ``<output stem>.error`` and the returned record says ``status = "failed"``. A run
     stopped by SIGTERM/SIGINT (:func:`install_stop_handlers`) leaves its checkpoint and
     says ``"interrupted"``; a point another process is writing says ``"busy"``; neither
@@ -42,45 +42,48 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
     base_dir : str
         Directory for relative paths in the input.
     output : str
-        Result file ``points/<hash>.h5``.
+        The point's file at this rung, ``points/<hash>.h5`` (run) or
+        ``points/<hash>.sfa.h5`` (SFA).
+    rung : str
+        ``"run"`` (:func:`tdse1d.api.run`) or ``"sfa"`` (the strong-field approximation
+        of the input, harmonic spectrum and quantum orbits, no run; :mod:`tdse1d.scans.rungs`).
 
     Returns
     -------
     dict
-        ``status``, ``seconds`` (wall time of the run), ``host``, ``pid``,
-        ``started_at`` (Unix time), and for a finished point ``tunnelling_yield`` and
-        ``finished_at``; for a failed, busy or interrupted one ``error``.
+        ``status``, ``rung``, ``seconds`` (wall time), ``host``, ``pid``, ``started_at``
+        (Unix time), and for a finished point ``finished_at`` (and for a run
+        ``tunnelling_yield``); for a failed, busy or interrupted one ``error``.
     """
     import socket
 
-    from ..api import single_run as api
     from ..errors import OutputBusy
     from ..runs.runner import RunInterrupted
-    from ..io.wisdom import fftw_wisdom
+    from .directory import MATCHES
 
     output = Path(output)
     error_file = output.with_suffix(".error")
     record_file = output.with_suffix(".json")
     started = time.perf_counter()
-    record = {"host": socket.gethostname(), "pid": os.getpid(), "source": source, "started_at": time.time()}
+    record = {"host": socket.gethostname(), "pid": os.getpid(), "source": source, "rung": rung,
+              "started_at": time.time()}
     control = None
     try:
         raw = tomllib.loads(resolved_toml)
-        if result_matches(output, input_hash(raw)):
+        if MATCHES[rung](output, input_hash(raw)):
             # finished meanwhile (by another process, or by this task on a worker that was
             # stopped before it could report): not computed twice
             record.update(status="done", seconds=0.0, already_finished=True, finished_at=time.time())
             return record
         config = parse_input(raw, source=source, base_dir=base_dir)
-        control = _register(api.default_control(config))
-        with fftw_wisdom():
-            # an unfinished point continues from the checkpoint its last attempt left
-            outcome = api.run(config, output, resume=True, control=control)
-        tunnelling = _tunnelling_yield(outcome)
-        record.update(status="done", seconds=time.perf_counter() - started, tunnelling_yield=tunnelling,
-                      finished_at=time.time())
-        if outcome.notes:
-            record["notes"] = list(outcome.notes)
+        if rung == "sfa":
+            _compute_sfa(config, output)
+        else:
+            from ..api import single_run as api
+
+            control = _register(api.default_control(config))
+            record.update(_compute_run(api, config, output, control))
+        record.update(status="done", seconds=time.perf_counter() - started, finished_at=time.time())
         error_file.unlink(missing_ok=True)
         _write_atomic(record_file, json.dumps(record))
     except RunInterrupted as exc:
@@ -99,6 +102,32 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str) -> di
         if control is not None:
             _unregister(control)
     return record
+
+
+def _compute_run(api, config, output, control) -> dict:
+    """The time-dependent run of a point; the items it adds to the record."""
+    from ..io.wisdom import fftw_wisdom
+
+    with fftw_wisdom():
+        # an unfinished point continues from the checkpoint its last attempt left
+        outcome = api.run(config, output, resume=True, control=control)
+    items = {"tunnelling_yield": _tunnelling_yield(outcome)}
+    if outcome.notes:
+        items["notes"] = list(outcome.notes)
+    return items
+
+
+def _compute_sfa(config, output) -> None:
+    """The SFA rung of a point: harmonic spectrum, quantum orbits and their readings of
+    the point's pulse and ground state (as ``tdse1d sfa --no-photoelectrons``), written
+    by :func:`tdse1d.io.sfa_file.write_sfa_point`."""
+    from ..analysis.sfa import sfa_readings, sfa_spectra
+    from ..input.problem import build_problem
+    from ..io.sfa_file import write_sfa_point
+
+    problem = build_problem(config, with_states=False)
+    spectra = sfa_spectra(problem, photoelectrons=False)
+    write_sfa_point(output, problem, spectra, sfa_readings(spectra))
 
 
 # ------------------------------------------------------------------ stop on signals
@@ -222,9 +251,16 @@ snapshots = 0
 """
 
 
-def warm_up() -> float:
-    """Load what a point needs (the numerics, h5py, the compiled kernels) by running a
-    tiny problem in memory, so that a worker's first point costs what the others do.
+def warm_up(rungs=("run",)) -> float:
+    """Load what a point needs (the numerics, h5py, the compiled kernels) by computing a
+    tiny problem in memory at each of ``rungs``, so that a worker's first point costs
+    what the others do.
+
+    Parameters
+    ----------
+    rungs : sequence of str
+        The rungs of the scan (:mod:`tdse1d.scans.rungs`): ``"run"`` warms the
+        propagation, ``"sfa"`` the SFA kernels.
 
     Returns
     -------
@@ -232,14 +268,21 @@ def warm_up() -> float:
         The wall time it took (s).
     """
     started = time.perf_counter()
-    import h5py  # noqa: F401 - loaded here, used by every point's result file
+    import h5py  # noqa: F401 - loaded here, used by every point's file
 
-    from ..api import single_run  # noqa: F401
     from ..input.problem import build_problem
     from ..input.schema import load_input
-    from ..runs.runner import simulate
 
-    simulate(build_problem(load_input("warm-up", [], text=_WARM_UP_INPUT)), fft_effort="FFTW_ESTIMATE")
+    problem = build_problem(load_input("warm-up", [], text=_WARM_UP_INPUT))
+    if "run" in rungs:
+        from ..api import single_run  # noqa: F401
+        from ..runs.runner import simulate
+
+        simulate(problem, fft_effort="FFTW_ESTIMATE")
+    if "sfa" in rungs:
+        from ..analysis.sfa import sfa_readings, sfa_spectra
+
+        sfa_readings(sfa_spectra(problem, photoelectrons=False))
     return time.perf_counter() - started
 
 

@@ -220,6 +220,19 @@ def _interp(table, start, inv_step, v):
     return table[i] * (1.0 - f) + table[i + 1] * f
 
 
+@njit(cache=True, inline="always")
+def _saddle(p1, p2, ip, dt, i, k, jj):
+    """Momentum saddle point p_s and action S of the excursion from t_k to t_i
+    (tau = (jj + 1) dt), from the running integrals P1 = int A and P2 = int A^2: the
+    lines the harmonic dipole and the rescattered photoelectrons share."""
+    tau = (jj + 1) * dt
+    i1 = p1[i] - p1[k]
+    ps = -i1 / tau
+    # S = Ip tau + I2/2 - tau ps^2/2 with I1 = -tau ps: -tau ps^2/2 = i1 ps / 2
+    phase = ip * tau + 0.5 * (p2[i] - p2[k]) + 0.5 * i1 * ps
+    return ps, phase
+
+
 @njit(cache=True, parallel=True, nogil=True)
 def _dipole_kernel(a, e, p1, p2, ip, dt, w_short, w_long, table, start, inv_step, out_short, out_long):
     """out[i] = sum_j w[j] d*(p_s + A_i) E_k d(p_s + A_k) exp(-i S), k = i - j - 1."""
@@ -232,11 +245,7 @@ def _dipole_kernel(a, e, p1, p2, ip, dt, w_short, w_long, table, start, inv_step
             k = i - jj - 1
             if e[k] == 0.0:
                 continue
-            tau = (jj + 1) * dt
-            i1 = p1[i] - p1[k]
-            ps = -i1 / tau
-            # S = Ip tau + I2/2 - tau ps^2/2 with I1 = -tau ps: -tau ps^2/2 = i1 ps / 2
-            phase = ip * tau + 0.5 * (p2[i] - p2[k]) + 0.5 * i1 * ps
+            ps, phase = _saddle(p1, p2, ip, dt, i, k, jj)
             d_ret = _interp(table, start, inv_step, ps + a[i])
             d_ion = _interp(table, start, inv_step, ps + a[k])
             term = d_ret.conjugate() * d_ion * e[k] * complex(math.cos(phase), -math.sin(phase))

@@ -25,7 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq
 
-__all__ = ["OrbitBranches", "monochromatic_orbits", "HalfCycleOrbits", "pulse_orbits", "CREST_FRACTION"]
+__all__ = ["OrbitBranches", "monochromatic_orbits", "cutoff_law", "HalfCycleOrbits", "pulse_orbits", "CREST_FRACTION"]
 
 #: half cycles whose crest field is at least this fraction of the largest are analysed
 #: (the central ones, where the emission-time comparison is made)
@@ -183,6 +183,36 @@ def monochromatic_orbits(ionization_potential, vector_amplitude, omega, energies
         if curvature > 0:
             cutoff = float(x[1] + 0.5 * (x[1] - x[0]) * (y[0] - y[2]) / curvature)
     return OrbitBranches(energies, out["short"][0], out["short"][1], out["long"][0], out["long"][1], cutoff, k)
+
+
+def cutoff_law(ionization_potential, ponderomotive_energy, samples=300) -> float:
+    """The SFA cutoff law ``Ip F(Ip/Up) + 3.17 Up`` of Lewenstein et al. (1994): the
+    quantum-orbit cutoff (branch point) of a monochromatic field of that Up (hartree).
+
+    The saddle-point equations in the phase ``w t`` do not hold w, so the branch point
+    in units of Up depends on Ip/Up alone: F near 1.32 for Ip << Up, decreasing slowly
+    towards 1 as Ip/Up grows (docs/sfa.md gives the values measured in the tests).
+
+    Parameters
+    ----------
+    ionization_potential, ponderomotive_energy : float
+        Ip > 0 and Up > 0 (hartree).
+    samples : int
+        Photon energies the branches are followed on, over
+        [Ip + 2.6 Up, 1.4 Ip + 3.8 Up] (the branch point lies inside for every Ip/Up:
+        F between 1 and 1.32); the point is refined between samples
+        (:func:`monochromatic_orbits`).
+
+    Returns
+    -------
+    float
+        The cutoff photon energy (hartree).
+    """
+    ip, up = float(ionization_potential), float(ponderomotive_energy)
+    if not (ip > 0 and up > 0):
+        raise ValueError(f"Ip and Up must be positive, got {ip}, {up}")
+    energies = np.linspace(ip + 2.6 * up, 1.4 * ip + 3.8 * up, int(samples))
+    return monochromatic_orbits(ip, 2 * math.sqrt(up), 1.0, energies).cutoff
 
 
 @dataclass(frozen=True, eq=False)

@@ -36,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit, prange
 
-from .sfa_harmonic import DipoleTable, ExcursionWindow, SampledField, _interp, _tau_weights
+from .sfa_harmonic import DipoleTable, ExcursionWindow, SampledField, _interp, _saddle, _tau_weights
 
 __all__ = ["PotentialTable", "potential_table", "SfaPhotoelectrons", "sfa_photoelectrons",
            "INTERMEDIATE_STEP", "PHOTOELECTRON_WINDOW"]
@@ -105,10 +105,7 @@ def _gather(first, count_t, a, e, p1, p2, ip, dt, weights, table, start, inv_ste
             k = i - jj - 1
             if e[k] == 0.0:
                 continue
-            tau = (jj + 1) * dt
-            i1 = p1[i] - p1[k]
-            ks = -i1 / tau
-            phase = ip * tau + 0.5 * (p2[i] - p2[k]) + 0.5 * i1 * ks
+            ks, phase = _saddle(p1, p2, ip, dt, i, k, jj)
             d_ion = _interp(table, start, inv_step, ks + a[k])
             term = weights[jj] * d_ion * e[k] * complex(math.cos(phase), -math.sin(phase))
             u = (ks - k0) * inv_dk
