@@ -83,7 +83,8 @@ class TwoElectrons(System):
             first = self._started is None
             if first:
                 self._started = n
-            values = self.recorder.record(propagator.psi, after_step=not first)
+            # the stepper counts what each step's absorber takes (RegionRecorder.absorb)
+            values = self.recorder.read(propagator.psi)
             if first and n > 0:  # a resumed run: what was absorbed before is in the record
                 recorded = np.array([[getattr(propagator.observables, name)[n]
                                       for name in self._names_of(k)] for k in range(len(self.radii))])
@@ -92,6 +93,12 @@ class TwoElectrons(System):
                     values = recorded
             self._reading = (n, values)
         return self._reading[1]
+
+    def fused_readings(self):
+        """(recorder, names): the region readings as the 2-D steppers take them in their
+        own passes (:mod:`tdse1d.physics.grid_step`), the names in the recorder's order
+        (radius by radius, neutral, single, double)."""
+        return self.recorder, region_observable_names(self.radii)
 
     def _names_of(self, k: int) -> tuple[str, ...]:
         names = region_observable_names(self.radii)

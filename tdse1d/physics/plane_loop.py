@@ -1,0 +1,249 @@
+"""The split-operator time loop on a 2-D grid in one compiled function, FFTW called from inside.
+
+:class:`~tdse1d.physics.grid_step.GridStepper` hands whole chunks of steps of a system on
+a plane (two electrons on a line, each on its own axis) to :func:`run_plane`. It takes
+the steps of the array loop of :mod:`tdse1d.physics.grid_step` (same sub-steps at the
+same midpoint fields, same phase arrays), with three fused passes per Strang step and
+two threaded FFTW transforms (:class:`~tdse1d.physics.fftw_direct.GridPlans`):
+
+* a kick (potential phase times the field's phase, one short factor per axis);
+* the kinetic phase in momentum space, with <K> of the first kinetic sub-step in the
+  same pass (the momentum record needs it);
+* the last kick with the absorber folded into its phase; in the same pass, on every
+  step the norm the absorber took from each region of the plane (over the rows' runs
+  where M < 1 only, :class:`~tdse1d.physics.pair_regions.RegionRecorder`), and on a
+  record step the norm, <X>, <F>, the overlap with the reference state and the rows'
+  sums over the regions' column pieces.
+
+The passes run over rows on the cores numba is given (``prange``); the sums are
+reduced per row, then over rows, so they differ from the array loop's order only in
+round-off. The driver is compiled without fast-math flags (its scalar records), the
+passes with the reassociation that lets LLVM vectorise their sums.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit, prange
+
+from .fftw_direct import AVAILABLE, GridPlans, fftw_execute
+from .pair_regions import split_row_pieces
+
+__all__ = ["AVAILABLE", "GridPlans", "run_plane", "axis_phase"]
+
+_FAST = {"contract", "arcp", "nsz", "reassoc"}
+_PAR = dict(cache=True, nogil=True, fastmath=_FAST, error_model="numpy", parallel=True)
+
+
+@njit(cache=True, nogil=True)
+def axis_phase(theta, u, offset, out):
+    """out[j] = exp(-i (theta u[j] + offset)) as a float64 view (real, imaginary)."""
+    for j in range(u.shape[0]):
+        a = theta * u[j] + offset
+        out[2 * j] = np.cos(a)
+        out[2 * j + 1] = -np.sin(a)
+
+
+@njit(inline="always", fastmath=_FAST)
+def _cmul(ar, ai, br, bi):
+    return ar * br - ai * bi, ar * bi + ai * br
+
+
+@njit(**_PAR)
+def kick_plane(psi, phase, f1, f2):
+    """psi[i, j] *= phase[i, j] f1[i] f2[j] (float64 views; rows in parallel)."""
+    n1 = psi.shape[0]
+    n2 = psi.shape[1] // 2
+    for i in prange(n1):
+        ar = f1[2 * i]
+        ai = f1[2 * i + 1]
+        for j in range(n2):
+            fr, fi = _cmul(f2[2 * j], f2[2 * j + 1], ar, ai)
+            qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
+            psi[i, 2 * j], psi[i, 2 * j + 1] = _cmul(psi[i, 2 * j], psi[i, 2 * j + 1], qr, qi)
+
+
+@njit(**_PAR)
+def kinetic_plane(psi, phase, g1, g2, k1, k2, rows):
+    """The kinetic sub-step psi *= phase g1[i] g2[j]; rows[i] = (sum |psi|^2, sum K |psi|^2)
+    of row i before it (K = k1[i] + k2[j], the weighted momenta)."""
+    n1 = psi.shape[0]
+    n2 = psi.shape[1] // 2
+    for i in prange(n1):
+        ar = g1[2 * i]
+        ai = g1[2 * i + 1]
+        s0 = 0.0
+        s1 = 0.0
+        for j in range(n2):
+            vr = psi[i, 2 * j]
+            vi = psi[i, 2 * j + 1]
+            d = vr * vr + vi * vi
+            s0 += d
+            s1 += d * k2[j]
+            fr, fi = _cmul(g2[2 * j], g2[2 * j + 1], ar, ai)
+            qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
+            psi[i, 2 * j], psi[i, 2 * j + 1] = _cmul(vr, vi, qr, qi)
+        rows[i, 0] = s0
+        rows[i, 1] = s1 + k1[i] * s0
+
+
+@njit(**_PAR)
+def last_plane(psi, phase, f1, f2, observe, x2, force, ref, r1, r2, bounds, rows, pieces,
+               loss, pointer, first, end, piece, absorbed):
+    """The last kick (absorber folded into ``phase``); every step the absorbed norm
+    |psi|^2 (1/M^2 - 1) added to absorbed[i, piece] over the runs of each row where
+    M < 1; with ``observe``, rows[i] = (sum x2 |psi|^2, sum F |psi|^2, Re, Im of
+    sum conj(ref r1 r2) psi) and pieces[i, p] = sum |psi|^2 over the columns of piece p."""
+    n1 = psi.shape[0]
+    n2 = psi.shape[1] // 2
+    for i in prange(n1):
+        ar = f1[2 * i]
+        ai = f1[2 * i + 1]
+        if observe:
+            br = r1[2 * i]
+            bi = r1[2 * i + 1]
+            s1 = 0.0
+            s2 = 0.0
+            ovr = 0.0
+            ovi = 0.0
+            for p in range(bounds.shape[0] - 1):
+                s0 = 0.0
+                for j in range(bounds[p], bounds[p + 1]):
+                    fr, fi = _cmul(f2[2 * j], f2[2 * j + 1], ar, ai)
+                    qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
+                    wr, wi = _cmul(psi[i, 2 * j], psi[i, 2 * j + 1], qr, qi)
+                    psi[i, 2 * j] = wr
+                    psi[i, 2 * j + 1] = wi
+                    d = wr * wr + wi * wi
+                    s0 += d
+                    s1 += d * x2[j]
+                    s2 += d * force[i, j]
+                    gr, gi = _cmul(r2[2 * j], r2[2 * j + 1], br, bi)
+                    rr, ri = _cmul(ref[i, 2 * j], ref[i, 2 * j + 1], gr, gi)
+                    ovr += rr * wr + ri * wi
+                    ovi += rr * wi - ri * wr
+                pieces[i, p] = s0
+            rows[i, 0] = s1
+            rows[i, 1] = s2
+            rows[i, 2] = ovr
+            rows[i, 3] = ovi
+        else:
+            for j in range(n2):
+                fr, fi = _cmul(f2[2 * j], f2[2 * j + 1], ar, ai)
+                qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
+                psi[i, 2 * j], psi[i, 2 * j + 1] = _cmul(psi[i, 2 * j], psi[i, 2 * j + 1], qr, qi)
+        for s in range(pointer[i], pointer[i + 1]):
+            t = 0.0
+            for j in range(first[s], end[s]):
+                wr = psi[i, 2 * j]
+                wi = psi[i, 2 * j + 1]
+                t += (wr * wr + wi * wi) * loss[i, j]
+            absorbed[i, piece[s]] += t
+
+
+@njit(cache=True, nogil=True, error_model="numpy")
+def run_plane(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, kinetic_w, h, volume,
+              length, charge, every, x1, x2, k1, k2, e_mid, a_mid, electric, vecpot,
+              norm, dipole, momentum, acceleration, population, carry,
+              force, ref, f1, f2, g1, g2, r1, r2, ones1, ones2, rows_k, rows_x,
+              bounds, inside, starts, stops, weight, pieces, loss, pointer, first, end, piece,
+              absorbed_rows, absorbed_base, regions):
+    """Take ``count`` steps from step ``n0``; returns the number taken before a norm
+    check failed (``count`` if none did).
+
+    ``psi``, the phase stacks ``kick`` (sub-steps + 1, n1, 2 n2) and ``kinetic``
+    (sub-steps, n1, 2 n2), ``ref`` and the per-axis tables ``f1`` ... ``r2`` are float64
+    views; ``x1``, ``x2``, ``k1``, ``k2`` are the coordinates and momenta of each axis
+    times its field weight; the records are as :func:`tdse1d.physics.time_loop.run_line`
+    writes them (record j is step j * every), with ``volume`` the volume element, and
+    regions[j] the (P0, P1, P2) of each radius at record j: the state's (``pieces``
+    split by :func:`~tdse1d.physics.pair_regions.split_row_pieces`), ``absorbed_base``
+    and what ``absorbed_rows`` gathered since the chunk began. ``carry`` holds <K> of
+    step n's first kinetic sub-step and <F> of the last record.
+    """
+    last = kick.shape[0] - 1
+    n1 = psi.shape[0]
+    for step in range(count):
+        n = n0 + step
+        for i in range(last + 1):
+            if length:
+                theta = 0.0
+                for q in range(2):
+                    c = kick_c[i, q]
+                    if c != 0.0:
+                        theta += c * h * e_mid[n, kick_j[i, q]]
+                axis_phase(theta, x1, 0.0, f1)
+                axis_phase(theta, x2, 0.0, f2)
+                p1, p2 = f1, f2
+            else:
+                p1, p2 = ones1, ones2
+            if i < last:
+                kick_plane(psi, kick[i], p1, p2)
+                fftw_execute(forward)
+                if length:
+                    q1, q2 = ones1, ones2
+                else:
+                    wh = kinetic_w[i] * h
+                    am = a_mid[n, i]
+                    axis_phase(wh * am, k1, 0.5 * wh * charge * am * am, g1)
+                    axis_phase(wh * am, k2, 0.0, g2)
+                    q1, q2 = g1, g2
+                kinetic_plane(psi, kinetic[i], q1, q2, k1, k2, rows_k)
+                if i == 0:
+                    m0 = 0.0
+                    m1 = 0.0
+                    for r in range(n1):
+                        m0 += rows_k[r, 0]
+                        m1 += rows_k[r, 1]
+                    carry[0] = m1 / m0 if m0 > 0 else 0.0
+                fftw_execute(backward)
+            else:
+                observe = (n + 1) % every == 0
+                a1 = vecpot[n + 1]
+                if observe and not length and a1 != 0.0:
+                    axis_phase(a1, x1, 0.0, r1)
+                    axis_phase(a1, x2, 0.0, r2)
+                    c1, c2 = r1, r2
+                else:
+                    c1, c2 = ones1, ones2
+                last_plane(psi, kick[i], p1, p2, observe, x2, force, ref, c1, c2, bounds, rows_x, pieces,
+                           loss, pointer, first, end, piece, absorbed_rows)
+        if n % every == 0:
+            # <P>(t_n): as Propagator._record_momentum
+            j = n // every
+            kick_force = carry[1]
+            if length:
+                kick_force += charge * e_mid[n, 0] * norm[j]
+            p = carry[0] * norm[j] + kick_c[0, 0] * h * kick_force
+            if not length:
+                p += charge * vecpot[n] * norm[j]
+            momentum[j] = p
+        if (n + 1) % every == 0:
+            # the position records of t_{n+1}: as Propagator._record_position
+            j = (n + 1) // every
+            s0 = 0.0
+            s1 = 0.0
+            s2 = 0.0
+            ovr = 0.0
+            ovi = 0.0
+            for r in range(n1):
+                d = 0.0
+                for q in range(pieces.shape[1]):
+                    d += pieces[r, q]
+                s0 += d
+                s1 += d * x1[r] + rows_x[r, 0]
+                s2 += rows_x[r, 1]
+                ovr += rows_x[r, 2]
+                ovi += rows_x[r, 3]
+            norm[j] = s0 * volume
+            dipole[j] = s1 * volume
+            acceleration[j] = -s2 * volume - charge * electric[j] * s0 * volume
+            population[j] = (ovr * ovr + ovi * ovi) * volume * volume
+            carry[1] = s2 * volume
+            out = regions[j]
+            out[:, :] = absorbed_base
+            split_row_pieces(pieces, inside, starts, stops, weight, out)
+            split_row_pieces(absorbed_rows, inside, starts, stops, weight, out)
+            if not (norm[j] <= norm[j - 1] * (1 + 1e-9) + 1e-12):
+                return step
+    return count
