@@ -32,7 +32,7 @@ from .pair_regions import split_row_pieces
 __all__ = ["AVAILABLE", "GridPlans", "run_plane", "axis_phase"]
 
 _FAST = {"contract", "arcp", "nsz", "reassoc"}
-_PAR = dict(cache=True, nogil=True, fastmath=_FAST, error_model="numpy", parallel=True)
+_PAR = dict(cache=True, nogil=True, fastmath=_FAST, error_model="numpy", parallel=False)
 
 
 @njit(cache=True, nogil=True)
@@ -88,24 +88,28 @@ def kinetic_plane(psi, phase, g1, g2, k1, k2, rows):
 
 
 @njit(**_PAR)
-def last_plane(psi, phase, f1, f2, observe, x2, force, ref, r1, r2, bounds, rows, pieces,
-               loss, pointer, first, end, piece, absorbed):
+def last_plane(psi, phase, f1, f2, observe, x2, fx1, fx2, force, separable, ref, phased, r1, r2, bounds, rows,
+               pieces, loss, pointer, first, end, piece, absorbed):
     """The last kick (absorber folded into ``phase``); every step the absorbed norm
     |psi|^2 (1/M^2 - 1) added to absorbed[i, piece] over the runs of each row where
     M < 1; with ``observe``, rows[i] = (sum x2 |psi|^2, sum F |psi|^2, Re, Im of
-    sum conj(ref r1 r2) psi) and pieces[i, p] = sum |psi|^2 over the columns of piece p."""
+    sum conj(ref r1 r2) psi) and pieces[i, p] = sum |psi|^2 over the columns of piece p.
+
+    F is fx1[i] + fx2[j] if ``separable``, else force[i, j]; without ``phased`` the
+    reference is taken as it is (r1, r2 not read).
+    """
     n1 = psi.shape[0]
     n2 = psi.shape[1] // 2
     for i in prange(n1):
         ar = f1[2 * i]
         ai = f1[2 * i + 1]
         if observe:
-            br = r1[2 * i]
-            bi = r1[2 * i + 1]
+            fcol = fx2 if separable else force[i]
             s1 = 0.0
             s2 = 0.0
             ovr = 0.0
             ovi = 0.0
+            d_row = 0.0
             for p in range(bounds.shape[0] - 1):
                 s0 = 0.0
                 for j in range(bounds[p], bounds[p + 1]):
@@ -117,14 +121,19 @@ def last_plane(psi, phase, f1, f2, observe, x2, force, ref, r1, r2, bounds, rows
                     d = wr * wr + wi * wi
                     s0 += d
                     s1 += d * x2[j]
-                    s2 += d * force[i, j]
-                    gr, gi = _cmul(r2[2 * j], r2[2 * j + 1], br, bi)
-                    rr, ri = _cmul(ref[i, 2 * j], ref[i, 2 * j + 1], gr, gi)
+                    s2 += d * fcol[j]
+                    rr = ref[i, 2 * j]
+                    ri = ref[i, 2 * j + 1]
+                    if phased:
+                        rr, ri = _cmul(rr, ri, r2[2 * j], r2[2 * j + 1])
                     ovr += rr * wr + ri * wi
                     ovi += rr * wi - ri * wr
                 pieces[i, p] = s0
+                d_row += s0
+            if phased:  # conj(r1[i]) times the row's sum
+                ovr, ovi = _cmul(ovr, ovi, r1[2 * i], -r1[2 * i + 1])
             rows[i, 0] = s1
-            rows[i, 1] = s2
+            rows[i, 1] = s2 + fx1[i] * d_row
             rows[i, 2] = ovr
             rows[i, 3] = ovi
         else:
@@ -145,7 +154,7 @@ def last_plane(psi, phase, f1, f2, observe, x2, force, ref, r1, r2, bounds, rows
 def run_plane(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, kinetic_w, h, volume,
               length, charge, every, x1, x2, k1, k2, e_mid, a_mid, electric, vecpot,
               norm, dipole, momentum, acceleration, population, carry,
-              force, ref, f1, f2, g1, g2, r1, r2, ones1, ones2, rows_k, rows_x,
+              fx1, fx2, force, separable, ref, f1, f2, g1, g2, r1, r2, ones1, ones2, rows_k, rows_x,
               bounds, inside, starts, stops, weight, pieces, loss, pointer, first, end, piece,
               absorbed_rows, absorbed_base, regions):
     """Take ``count`` steps from step ``n0``; returns the number taken before a norm
@@ -154,7 +163,8 @@ def run_plane(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, 
     ``psi``, the phase stacks ``kick`` (sub-steps + 1, n1, 2 n2) and ``kinetic``
     (sub-steps, n1, 2 n2), ``ref`` and the per-axis tables ``f1`` ... ``r2`` are float64
     views; ``x1``, ``x2``, ``k1``, ``k2`` are the coordinates and momenta of each axis
-    times its field weight; the records are as :func:`tdse1d.physics.time_loop.run_line`
+    times its field weight; the force F along the coupling is ``force`` or, if
+    ``separable``, fx1[i] + fx2[j]; the records are as :func:`tdse1d.physics.time_loop.run_line`
     writes them (record j is step j * every), with ``volume`` the volume element, and
     regions[j] the (P0, P1, P2) of each radius at record j: the state's (``pieces``
     split by :func:`~tdse1d.physics.pair_regions.split_row_pieces`), ``absorbed_base``
@@ -200,14 +210,12 @@ def run_plane(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, 
             else:
                 observe = (n + 1) % every == 0
                 a1 = vecpot[n + 1]
-                if observe and not length and a1 != 0.0:
+                phased = observe and not length and a1 != 0.0
+                if phased:
                     axis_phase(a1, x1, 0.0, r1)
                     axis_phase(a1, x2, 0.0, r2)
-                    c1, c2 = r1, r2
-                else:
-                    c1, c2 = ones1, ones2
-                last_plane(psi, kick[i], p1, p2, observe, x2, force, ref, c1, c2, bounds, rows_x, pieces,
-                           loss, pointer, first, end, piece, absorbed_rows)
+                last_plane(psi, kick[i], p1, p2, observe, x2, fx1, fx2, force, separable, ref, phased, r1, r2,
+                           bounds, rows_x, pieces, loss, pointer, first, end, piece, absorbed_rows)
         if n % every == 0:
             # <P>(t_n): as Propagator._record_momentum
             j = n // every
