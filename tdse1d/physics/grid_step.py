@@ -191,13 +191,18 @@ class GridStepper:
         self._regions = np.zeros((len(p.observables.time), len(rec.radii), 3))
         self._recorder = rec
         obs = p.observables
-        return (self.plans.forward, self.plans.backward, f(self.psi), f(self._kick_phase), f(self._kinetic_phase),
+        # the last kick of a step and the first of the next as one pass (run_plane), and the
+        # reference seen through that first kick
+        self._join = self._kick_phase[-1] * self._kick_phase[0]
+        self._ref_join = system.reference * self._kick_phase[0]
+        return (self.plans.forward, self.plans.backward, f(self.psi), f(self._kick_phase), f(self._join),
+                f(self._kinetic_phase),
                 kc, kj, np.asarray(p._kinetic_weights, float), p.time_step, grid.volume_element,
                 p.gauge == "length", p._charge_sum, p.record_every,
                 w1 * grid.axis(0).x, w2 * grid.axis(1).x, w1 * grid.axis(0).k, w2 * grid.axis(1).k,
                 np.ascontiguousarray(p._e_mid), np.ascontiguousarray(p._a_mid), obs.electric, p._a_t,
                 obs.norm, obs.dipole, obs.momentum, obs.acceleration, obs.initial_population, self._carry,
-                *self._force_tables(), f(system.reference), table(n1), table(n2), table(n1), table(n2), table(n1),
+                *self._force_tables(), f(system.reference), f(self._ref_join), table(n1), table(n2), table(n1), table(n2), table(n1),
                 table(n2), table(n1), table(n2), np.zeros((n1, 2)), np.zeros((n1, 4)),
                 rec.bounds, rec.inside, rec.starts, rec.stops, rec.weight, np.zeros((n1, pieces)), loss,
                 pointer, first, end, piece, self._absorbed_rows)

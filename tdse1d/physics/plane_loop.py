@@ -15,16 +15,19 @@ two threaded FFTW transforms (:class:`~tdse1d.physics.fftw_direct.GridPlans`):
   record step the norm, <X>, <F>, the overlap with the reference state and the rows'
   sums over the regions' column pieces.
 
-The passes run over rows on the cores numba is given (``prange``); the sums are
-reduced per row, then over rows, so they differ from the array loop's order only in
-round-off. The driver is compiled without fast-math flags (its scalar records), the
-passes with the reassociation that lets LLVM vectorise their sums.
+The sums are taken per row, then over rows, so they differ from the array loop's only
+in the order of the additions (round-off). The passes run on one thread, the
+transforms on FFTW's: numba's parallel rows (its OpenMP pool beside the one FFTW
+brings) made the step and the floor beside it 5 to 50 times slower on the shared two
+cores (docs/performance.md), and with numba's own work queue the step was still
+slower than on one thread. The driver is compiled without fast-math flags (its scalar
+records), the passes with the reassociation that lets LLVM vectorise their sums.
 """
 
 from __future__ import annotations
 
 import numpy as np
-from numba import njit, prange
+from numba import njit
 
 from .fftw_direct import AVAILABLE, GridPlans, fftw_execute
 from .pair_regions import split_row_pieces
@@ -32,7 +35,7 @@ from .pair_regions import split_row_pieces
 __all__ = ["AVAILABLE", "GridPlans", "run_plane", "axis_phase"]
 
 _FAST = {"contract", "arcp", "nsz", "reassoc"}
-_PAR = dict(cache=True, nogil=True, fastmath=_FAST, error_model="numpy", parallel=False)
+_PASS = dict(cache=True, nogil=True, fastmath=_FAST, error_model="numpy")
 
 
 @njit(cache=True, nogil=True)
@@ -49,12 +52,12 @@ def _cmul(ar, ai, br, bi):
     return ar * br - ai * bi, ar * bi + ai * br
 
 
-@njit(**_PAR)
+@njit(**_PASS)
 def kick_plane(psi, phase, f1, f2):
-    """psi[i, j] *= phase[i, j] f1[i] f2[j] (float64 views; rows in parallel)."""
+    """psi[i, j] *= phase[i, j] f1[i] f2[j] (float64 views)."""
     n1 = psi.shape[0]
     n2 = psi.shape[1] // 2
-    for i in prange(n1):
+    for i in range(n1):
         ar = f1[2 * i]
         ai = f1[2 * i + 1]
         for j in range(n2):
@@ -63,13 +66,13 @@ def kick_plane(psi, phase, f1, f2):
             psi[i, 2 * j], psi[i, 2 * j + 1] = _cmul(psi[i, 2 * j], psi[i, 2 * j + 1], qr, qi)
 
 
-@njit(**_PAR)
+@njit(**_PASS)
 def kinetic_plane(psi, phase, g1, g2, k1, k2, rows):
     """The kinetic sub-step psi *= phase g1[i] g2[j]; rows[i] = (sum |psi|^2, sum K |psi|^2)
     of row i before it (K = k1[i] + k2[j], the weighted momenta)."""
     n1 = psi.shape[0]
     n2 = psi.shape[1] // 2
-    for i in prange(n1):
+    for i in range(n1):
         ar = g1[2 * i]
         ai = g1[2 * i + 1]
         s0 = 0.0
@@ -87,7 +90,7 @@ def kinetic_plane(psi, phase, g1, g2, k1, k2, rows):
         rows[i, 1] = s1 + k1[i] * s0
 
 
-@njit(**_PAR)
+@njit(**_PASS)
 def last_plane(psi, phase, f1, f2, observe, x2, fx1, fx2, force, separable, ref, phased, r1, r2, bounds, rows,
                pieces, loss, pointer, first, end, piece, absorbed):
     """The last kick (absorber folded into ``phase``); every step the absorbed norm
@@ -100,7 +103,7 @@ def last_plane(psi, phase, f1, f2, observe, x2, fx1, fx2, force, separable, ref,
     """
     n1 = psi.shape[0]
     n2 = psi.shape[1] // 2
-    for i in prange(n1):
+    for i in range(n1):
         ar = f1[2 * i]
         ai = f1[2 * i + 1]
         if observe:
@@ -151,10 +154,52 @@ def last_plane(psi, phase, f1, f2, observe, x2, fx1, fx2, force, separable, ref,
 
 
 @njit(cache=True, nogil=True, error_model="numpy")
-def run_plane(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, kinetic_w, h, volume,
+def _kick_angle(kick_c, kick_j, i, h, e_mid, n):
+    """The field's angle theta of kick i of step n (length gauge): sum of c h E_mid."""
+    theta = 0.0
+    for q in range(2):
+        c = kick_c[i, q]
+        if c != 0.0:
+            theta += c * h * e_mid[n, kick_j[i, q]]
+    return theta
+
+
+@njit(cache=True, nogil=True, error_model="numpy")
+def _records(j, n1, x1, pieces, rows_x, volume, charge, electric, norm, dipole, acceleration, population, carry,
+             inside, starts, stops, weight, absorbed_rows, absorbed_base, regions):
+    """The position records of record j (as Propagator._record_position) from the last
+    pass's row sums; returns whether the norm check holds."""
+    s0 = 0.0
+    s1 = 0.0
+    s2 = 0.0
+    ovr = 0.0
+    ovi = 0.0
+    for r in range(n1):
+        d = 0.0
+        for q in range(pieces.shape[1]):
+            d += pieces[r, q]
+        s0 += d
+        s1 += d * x1[r] + rows_x[r, 0]
+        s2 += rows_x[r, 1]
+        ovr += rows_x[r, 2]
+        ovi += rows_x[r, 3]
+    norm[j] = s0 * volume
+    dipole[j] = s1 * volume
+    acceleration[j] = -s2 * volume - charge * electric[j] * s0 * volume
+    population[j] = (ovr * ovr + ovi * ovi) * volume * volume
+    carry[1] = s2 * volume
+    out = regions[j]
+    out[:, :] = absorbed_base
+    split_row_pieces(pieces, inside, starts, stops, weight, out)
+    split_row_pieces(absorbed_rows, inside, starts, stops, weight, out)
+    return norm[j] <= norm[j - 1] * (1 + 1e-9) + 1e-12
+
+
+@njit(cache=True, nogil=True, error_model="numpy")
+def run_plane(count, n0, forward, backward, psi, kick, join, kinetic, kick_c, kick_j, kinetic_w, h, volume,
               length, charge, every, x1, x2, k1, k2, e_mid, a_mid, electric, vecpot,
               norm, dipole, momentum, acceleration, population, carry,
-              fx1, fx2, force, separable, ref, f1, f2, g1, g2, r1, r2, ones1, ones2, rows_k, rows_x,
+              fx1, fx2, force, separable, ref, ref_join, f1, f2, g1, g2, r1, r2, ones1, ones2, rows_k, rows_x,
               bounds, inside, starts, stops, weight, pieces, loss, pointer, first, end, piece,
               absorbed_rows, absorbed_base, regions):
     """Take ``count`` steps from step ``n0``; returns the number taken before a norm
@@ -170,25 +215,53 @@ def run_plane(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, 
     split by :func:`~tdse1d.physics.pair_regions.split_row_pieces`), ``absorbed_base``
     and what ``absorbed_rows`` gathered since the chunk began. ``carry`` holds <K> of
     step n's first kinetic sub-step and <F> of the last record.
+
+    Within a chunk the last kick of step n and the first of step n + 1 are one pass
+    with ``join`` = kick[last] kick[0] and the sum of their field angles: a step is then
+    two passes and two transforms. The records of t_{n+1} are read in that pass: the
+    densities are those after step n (the first kick of n + 1 is unimodular), and the
+    overlap <ref|psi_n> is taken as <ref kick[0] exp(-i theta X)|psi> with
+    ``ref_join`` = ref kick[0]. A chunk ends on a whole step.
     """
     last = kick.shape[0] - 1
     n1 = psi.shape[0]
+    pending = False  # the last kick of the previous step is still to be applied
+    theta_pending = 0.0
     for step in range(count):
         n = n0 + step
         for i in range(last + 1):
-            if length:
-                theta = 0.0
-                for q in range(2):
-                    c = kick_c[i, q]
-                    if c != 0.0:
-                        theta += c * h * e_mid[n, kick_j[i, q]]
-                axis_phase(theta, x1, 0.0, f1)
-                axis_phase(theta, x2, 0.0, f2)
-                p1, p2 = f1, f2
-            else:
-                p1, p2 = ones1, ones2
+            theta = _kick_angle(kick_c, kick_j, i, h, e_mid, n) if length else 0.0
+            if i == 0 and pending:
+                observe = n % every == 0
+                a0 = vecpot[n]
+                if length:
+                    axis_phase(theta + theta_pending, x1, 0.0, f1)
+                    axis_phase(theta + theta_pending, x2, 0.0, f2)
+                    p1, p2 = f1, f2
+                else:
+                    p1, p2 = ones1, ones2
+                # the overlap's phase: exp(-i (theta + A) X) of the first kick and the gauge
+                angle = theta + (0.0 if length else a0)
+                phased = observe and angle != 0.0
+                if phased:
+                    axis_phase(angle, x1, 0.0, r1)
+                    axis_phase(angle, x2, 0.0, r2)
+                last_plane(psi, join, p1, p2, observe, x2, fx1, fx2, force, separable, ref_join, phased, r1, r2,
+                           bounds, rows_x, pieces, loss, pointer, first, end, piece, absorbed_rows)
+                pending = False
+                if observe:
+                    if not _records(n // every, n1, x1, pieces, rows_x, volume, charge, electric, norm, dipole,
+                                    acceleration, population, carry, inside, starts, stops, weight,
+                                    absorbed_rows, absorbed_base, regions):
+                        return step - 1
+            elif i < last:
+                if length:
+                    axis_phase(theta, x1, 0.0, f1)
+                    axis_phase(theta, x2, 0.0, f2)
+                    kick_plane(psi, kick[i], f1, f2)
+                else:
+                    kick_plane(psi, kick[i], ones1, ones2)
             if i < last:
-                kick_plane(psi, kick[i], p1, p2)
                 fftw_execute(forward)
                 if length:
                     q1, q2 = ones1, ones2
@@ -206,52 +279,38 @@ def run_plane(count, n0, forward, backward, psi, kick, kinetic, kick_c, kick_j, 
                         m0 += rows_k[r, 0]
                         m1 += rows_k[r, 1]
                     carry[0] = m1 / m0 if m0 > 0 else 0.0
+                    if n % every == 0:
+                        # <P>(t_n), as Propagator._record_momentum (before the records of t_{n+1})
+                        j = n // every
+                        kick_force = carry[1]
+                        if length:
+                            kick_force += charge * e_mid[n, 0] * norm[j]
+                        p = carry[0] * norm[j] + kick_c[0, 0] * h * kick_force
+                        if not length:
+                            p += charge * vecpot[n] * norm[j]
+                        momentum[j] = p
                 fftw_execute(backward)
-            else:
+            elif step < count - 1:
+                pending = True
+                theta_pending = theta
+            else:  # the chunk's last step ends whole
                 observe = (n + 1) % every == 0
                 a1 = vecpot[n + 1]
+                if length:
+                    axis_phase(theta, x1, 0.0, f1)
+                    axis_phase(theta, x2, 0.0, f2)
+                    p1, p2 = f1, f2
+                else:
+                    p1, p2 = ones1, ones2
                 phased = observe and not length and a1 != 0.0
                 if phased:
                     axis_phase(a1, x1, 0.0, r1)
                     axis_phase(a1, x2, 0.0, r2)
                 last_plane(psi, kick[i], p1, p2, observe, x2, fx1, fx2, force, separable, ref, phased, r1, r2,
                            bounds, rows_x, pieces, loss, pointer, first, end, piece, absorbed_rows)
-        if n % every == 0:
-            # <P>(t_n): as Propagator._record_momentum
-            j = n // every
-            kick_force = carry[1]
-            if length:
-                kick_force += charge * e_mid[n, 0] * norm[j]
-            p = carry[0] * norm[j] + kick_c[0, 0] * h * kick_force
-            if not length:
-                p += charge * vecpot[n] * norm[j]
-            momentum[j] = p
-        if (n + 1) % every == 0:
-            # the position records of t_{n+1}: as Propagator._record_position
-            j = (n + 1) // every
-            s0 = 0.0
-            s1 = 0.0
-            s2 = 0.0
-            ovr = 0.0
-            ovi = 0.0
-            for r in range(n1):
-                d = 0.0
-                for q in range(pieces.shape[1]):
-                    d += pieces[r, q]
-                s0 += d
-                s1 += d * x1[r] + rows_x[r, 0]
-                s2 += rows_x[r, 1]
-                ovr += rows_x[r, 2]
-                ovi += rows_x[r, 3]
-            norm[j] = s0 * volume
-            dipole[j] = s1 * volume
-            acceleration[j] = -s2 * volume - charge * electric[j] * s0 * volume
-            population[j] = (ovr * ovr + ovi * ovi) * volume * volume
-            carry[1] = s2 * volume
-            out = regions[j]
-            out[:, :] = absorbed_base
-            split_row_pieces(pieces, inside, starts, stops, weight, out)
-            split_row_pieces(absorbed_rows, inside, starts, stops, weight, out)
-            if not (norm[j] <= norm[j - 1] * (1 + 1e-9) + 1e-12):
-                return step
+                if observe:
+                    if not _records((n + 1) // every, n1, x1, pieces, rows_x, volume, charge, electric, norm,
+                                    dipole, acceleration, population, carry, inside, starts, stops, weight,
+                                    absorbed_rows, absorbed_base, regions):
+                        return step
     return count
