@@ -80,11 +80,9 @@ class GridStepper:
                           and all(e.name in own for e in system.per_step_observables()))
         self.plans = plane_loop.GridPlans(self.psi, fft_effort, threads) if self._compiled else None
         self._compiled_args = None
-        # flat arrays for the compiled sums (no BLAS: its threads stall on a shared machine)
+        # flat views for the compiled sums (no BLAS: its threads stall on a shared machine);
+        # X and K enter through one table per axis (no arrays of the grid's size)
         self._force = np.ascontiguousarray(system.force).ravel()
-        self._coupling = np.ascontiguousarray(system.coupling()).ravel()
-        self._coupling_k = np.ascontiguousarray(system.coupling_momentum()).ravel()
-        self._reference = system.reference.ravel().view(np.float64)
         self._flat = self.psi.reshape(-1).view(np.float64)
 
     # ------------------------------------------------------------ pieces
@@ -101,20 +99,27 @@ class GridStepper:
         ``a`` is A(t) of the current state, used to compare a velocity-gauge state with
         the length-gauge reference: <ref|psi_L> = sum conj(ref) exp(i A X) psi_V.
         """
-        flat = self._flat
+        psi = self.psi
+        s0, s2 = kernels.density_moments(self._flat, self._force)
+        s1 = self._moment(psi, self._x_axes)
         if self.prop.gauge == "velocity" and a != 0.0:
-            psi = self.psi.copy()
+            psi = psi.copy()
             for a_, w in self._coupled:
                 psi *= np.exp(1j * a * w * self._x_axes[a_]).reshape(self._bshape[a_])
-            flat = psi.reshape(-1).view(np.float64)
-        s0, s1, s2, ovr, ovi = kernels.observe(flat, self._coupling, self._force, self._reference)
-        return s0, s1, s2, complex(ovr, ovi)
+        return s0, s1, s2, complex(np.sum(self.prop.system.reference.conj() * psi))
+
+    def _moment(self, psi, tables):
+        """sum_a w_a sum u_a |psi|^2 with u_a = ``tables[a]`` along axis a."""
+        d = psi.real**2 + psi.imag**2
+        nd = d.ndim
+        return float(sum(w * (d.sum(axis=tuple(b for b in range(nd) if b != a)) @ tables[a])
+                         for a, w in self._coupled))
 
     def mean_momentum(self) -> float:
         """<K> of the current state (the state is left unchanged)."""
         saved = self.psi.copy()
         self._fft.forward()
-        s0, s1 = kernels.density_moments(self._flat, self._coupling_k)
+        s0, s1 = float(np.sum(self.psi.real**2 + self.psi.imag**2)), self._moment(self.psi, self._k_axes)
         self.psi[:] = saved
         return s1 / s0 if s0 > 0 else 0.0
 
@@ -148,7 +153,7 @@ class GridStepper:
                     break
                 fft.forward()
                 if i == 0:
-                    s0, s1 = kernels.density_moments(self._flat, self._coupling_k)
+                    s0, s1 = float(np.sum(psi.real**2 + psi.imag**2)), self._moment(psi, self._k_axes)
                     p._pending_momentum = s1 / s0 if s0 > 0 else 0.0
                 np.multiply(psi, self._kinetic_phase[i], out=psi)
                 if not length:

@@ -6,12 +6,13 @@ gauge), and the recorded acceleration is the total dipole acceleration
 -<dV/dx1 + dV/dx2> - 2 E(t) N(t), whose spectrum is the harmonic spectrum of the atom
 (the repulsion drops out of it: an internal force).
 
-Beside the propagator's own observables the system records, after every step, the
+Beside the propagator's own observables the system records, at every record step, the
 probabilities of the neutral atom, of single and of double ionization from regions of
 the (x1, x2) plane (:mod:`tdse1d.physics.pair_regions`), with the norm the absorbers
-took attributed to its region, at the reported radius and at the others of
-:data:`~tdse1d.physics.pair_regions.RADII` (their spread is the reading's
-uncertainty).
+took on every step attributed to its region, at the reported radius and at the others
+of :data:`~tdse1d.physics.pair_regions.RADII` (their spread is the reading's
+uncertainty). The 2-D steppers take these readings in their own passes
+(:meth:`TwoElectrons.fused_readings`); the entries' ``measure`` reads the start of a run.
 """
 
 from __future__ import annotations
@@ -79,7 +80,6 @@ class TwoElectrons(System):
     def _read(self, propagator) -> np.ndarray:
         n = propagator.step_index
         if self._reading is None or self._reading[0] != n:
-            # the first call of a run reads the state no absorber has touched yet
             first = self._started is None
             if first:
                 self._started = n
