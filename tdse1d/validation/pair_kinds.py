@@ -176,7 +176,8 @@ class PairKnee(CaseKind):
     for the same pulse by more than ``params.decades`` decades, at an intensity where
     single ionization stays below ``params.saturation``. The double yield is the lowest
     over the region radii (the reading's band); the same run without a field, scored by
-    the same statistic, must fail it (else the statistic is passed by the grid's floor)."""
+    the same statistic, must fail it (else the statistic is passed by the grid's floor),
+    and the double yield must stand above that floor by the same margin."""
 
     def run(self):
         decades = float(self.case.get("params.decades"))
@@ -216,6 +217,11 @@ class PairKnee(CaseKind):
         rows.append(self.row(score, quantity="null: the same statistic for the run without a field",
                              reference=decades, tolerance=0.0, units="decades", passed=bool(score < decades),
                              rule=f"must fail: < {decades:g}"))
+        # the double yield itself must stand above that floor (else it is not a value)
+        above = math.log10(double / floor) if floor > 0 and double > 0 else (math.inf if double > 0 else math.nan)
+        rows.append(self.row(above, quantity="log10(double ionization / the field-free run's double reading)",
+                             reference=decades, tolerance=0.0, units="decades", passed=bool(above > decades),
+                             rule=f"> {decades:g} (above the grid's floor)"))
         self.notes.append(f"double ionization {double:.3g} (lowest over the radii {list(result.radii)} bohr), "
                           f"sequential {n2:.3g}, field-free floor {floor:.3g}; single {single:.3g}")
         return rows
