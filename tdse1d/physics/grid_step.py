@@ -221,7 +221,7 @@ class GridStepper:
         fx2 = force[0, :].copy()
         scale = np.max(np.abs(force))
         if np.max(np.abs(force - (fx1[:, None] + fx2[None, :]))) <= 1e-13 * scale:
-            return fx1, fx2, np.zeros((1, 1)), True
+            return fx1, fx2, fx2[None, :], True
         return np.zeros(force.shape[0]), np.zeros(force.shape[1]), force, False
 
     def _advance_compiled(self, count: int) -> int:

@@ -60,10 +60,12 @@ def kick_plane(psi, phase, f1, f2):
     for i in range(n1):
         ar = f1[2 * i]
         ai = f1[2 * i + 1]
+        row = psi[i]
+        prow = phase[i]
         for j in range(n2):
             fr, fi = _cmul(f2[2 * j], f2[2 * j + 1], ar, ai)
-            qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
-            psi[i, 2 * j], psi[i, 2 * j + 1] = _cmul(psi[i, 2 * j], psi[i, 2 * j + 1], qr, qi)
+            qr, qi = _cmul(prow[2 * j], prow[2 * j + 1], fr, fi)
+            row[2 * j], row[2 * j + 1] = _cmul(row[2 * j], row[2 * j + 1], qr, qi)
 
 
 @njit(**_PASS)
@@ -77,15 +79,17 @@ def kinetic_plane(psi, phase, g1, g2, k1, k2, rows):
         ai = g1[2 * i + 1]
         s0 = 0.0
         s1 = 0.0
+        row = psi[i]
+        prow = phase[i]
         for j in range(n2):
-            vr = psi[i, 2 * j]
-            vi = psi[i, 2 * j + 1]
+            vr = row[2 * j]
+            vi = row[2 * j + 1]
             d = vr * vr + vi * vi
             s0 += d
             s1 += d * k2[j]
             fr, fi = _cmul(g2[2 * j], g2[2 * j + 1], ar, ai)
-            qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
-            psi[i, 2 * j], psi[i, 2 * j + 1] = _cmul(vr, vi, qr, qi)
+            qr, qi = _cmul(prow[2 * j], prow[2 * j + 1], fr, fi)
+            row[2 * j], row[2 * j + 1] = _cmul(vr, vi, qr, qi)
         rows[i, 0] = s0
         rows[i, 1] = s1 + k1[i] * s0
 
@@ -98,58 +102,71 @@ def last_plane(psi, phase, f1, f2, observe, x2, fx1, fx2, force, separable, ref,
     M < 1; with ``observe``, rows[i] = (sum x2 |psi|^2, sum F |psi|^2, Re, Im of
     sum conj(ref r1 r2) psi) and pieces[i, p] = sum |psi|^2 over the columns of piece p.
 
-    F is fx1[i] + fx2[j] if ``separable``, else force[i, j]; without ``phased`` the
-    reference is taken as it is (r1, r2 not read).
+    F is fx1[i] + force[0, j] if ``separable``, else force[i, j]; without ``phased``
+    the reference is taken as it is (r1, r2 not read).
     """
     n1 = psi.shape[0]
     n2 = psi.shape[1] // 2
     for i in range(n1):
         ar = f1[2 * i]
         ai = f1[2 * i + 1]
+        row = psi[i]
+        prow = phase[i]
+        for j in range(n2):
+            fr, fi = _cmul(f2[2 * j], f2[2 * j + 1], ar, ai)
+            qr, qi = _cmul(prow[2 * j], prow[2 * j + 1], fr, fi)
+            row[2 * j], row[2 * j + 1] = _cmul(row[2 * j], row[2 * j + 1], qr, qi)
         if observe:
-            fcol = fx2 if separable else force[i]
-            s1 = 0.0
-            s2 = 0.0
-            ovr = 0.0
-            ovi = 0.0
+            # the sums over the row just written (in cache), one simple loop each so
+            # that each vectorises
+            rrow = ref[i]
             d_row = 0.0
             for p in range(bounds.shape[0] - 1):
+                # a slice, so that the loop's index starts at 0: numba's negative-index
+                # wrap-around then folds away and the loop vectorises
+                seg = row[2 * bounds[p]:2 * bounds[p + 1]]
                 s0 = 0.0
-                for j in range(bounds[p], bounds[p + 1]):
-                    fr, fi = _cmul(f2[2 * j], f2[2 * j + 1], ar, ai)
-                    qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
-                    wr, wi = _cmul(psi[i, 2 * j], psi[i, 2 * j + 1], qr, qi)
-                    psi[i, 2 * j] = wr
-                    psi[i, 2 * j + 1] = wi
-                    d = wr * wr + wi * wi
-                    s0 += d
-                    s1 += d * x2[j]
-                    s2 += d * fcol[j]
-                    rr = ref[i, 2 * j]
-                    ri = ref[i, 2 * j + 1]
-                    if phased:
-                        rr, ri = _cmul(rr, ri, r2[2 * j], r2[2 * j + 1])
-                    ovr += rr * wr + ri * wi
-                    ovi += rr * wi - ri * wr
+                for k in range(seg.shape[0]):
+                    s0 += seg[k] * seg[k]
                 pieces[i, p] = s0
                 d_row += s0
-            if phased:  # conj(r1[i]) times the row's sum
+            fcol = force[0] if separable else force[i]
+            s1 = 0.0
+            s2 = 0.0
+            for j in range(n2):
+                d = row[2 * j] * row[2 * j] + row[2 * j + 1] * row[2 * j + 1]
+                s1 += d * x2[j]
+                s2 += d * fcol[j]
+            ovr = 0.0
+            ovi = 0.0
+            if phased:
+                for j in range(n2):
+                    rr, ri = _cmul(rrow[2 * j], rrow[2 * j + 1], r2[2 * j], r2[2 * j + 1])
+                    wr = row[2 * j]
+                    wi = row[2 * j + 1]
+                    ovr += rr * wr + ri * wi
+                    ovi += rr * wi - ri * wr
+                # conj(r1[i]) times the row's sum
                 ovr, ovi = _cmul(ovr, ovi, r1[2 * i], -r1[2 * i + 1])
+            else:
+                for j in range(n2):
+                    rr = rrow[2 * j]
+                    ri = rrow[2 * j + 1]
+                    wr = row[2 * j]
+                    wi = row[2 * j + 1]
+                    ovr += rr * wr + ri * wi
+                    ovi += rr * wi - ri * wr
             rows[i, 0] = s1
             rows[i, 1] = s2 + fx1[i] * d_row
             rows[i, 2] = ovr
             rows[i, 3] = ovi
-        else:
-            for j in range(n2):
-                fr, fi = _cmul(f2[2 * j], f2[2 * j + 1], ar, ai)
-                qr, qi = _cmul(phase[i, 2 * j], phase[i, 2 * j + 1], fr, fi)
-                psi[i, 2 * j], psi[i, 2 * j + 1] = _cmul(psi[i, 2 * j], psi[i, 2 * j + 1], qr, qi)
+        lrow = loss[i]
         for s in range(pointer[i], pointer[i + 1]):
+            seg = row[2 * first[s]:2 * end[s]]
+            lseg = lrow[first[s]:end[s]]
             t = 0.0
-            for j in range(first[s], end[s]):
-                wr = psi[i, 2 * j]
-                wi = psi[i, 2 * j + 1]
-                t += (wr * wr + wi * wi) * loss[i, j]
+            for j in range(lseg.shape[0]):
+                t += (seg[2 * j] * seg[2 * j] + seg[2 * j + 1] * seg[2 * j + 1]) * lseg[j]
             absorbed[i, piece[s]] += t
 
 
