@@ -13,8 +13,8 @@ velocity gauge), so its phase exp(-i theta X) is applied as one short factor per
 coupled axis, broadcast along the others: no ``exp`` of the whole grid in the loop.
 
 On a 2-D grid, chunks of steps run in the compiled loop of
-:mod:`tdse1d.physics.plane_loop` (three fused passes and two threaded FFTW transforms
-a step) when FFTW can be called directly, the propagator is ``compiled`` and every
+:mod:`tdse1d.physics.plane_loop` (two fused passes and two threaded FFTW transforms
+a Strang step) when FFTW can be called directly, the propagator is ``compiled`` and every
 per-step observable is either the propagator's own or one of the system's fused
 readings. A system offers such readings with ``fused_readings()`` returning
 ``(recorder, names)``: a :class:`~tdse1d.physics.pair_regions.RegionRecorder` whose

@@ -3,8 +3,8 @@
 :class:`~tdse1d.physics.grid_step.GridStepper` hands whole chunks of steps of a system on
 a plane (two electrons on a line, each on its own axis) to :func:`run_plane`. It takes
 the steps of the array loop of :mod:`tdse1d.physics.grid_step` (same sub-steps at the
-same midpoint fields, same phase arrays), with three fused passes per Strang step and
-two threaded FFTW transforms (:class:`~tdse1d.physics.fftw_direct.GridPlans`):
+same midpoint fields, same phase arrays), with fused passes over rows and two threaded
+FFTW transforms (:class:`~tdse1d.physics.fftw_direct.GridPlans`) a step:
 
 * a kick (potential phase times the field's phase, one short factor per axis);
 * the kinetic phase in momentum space, with <K> of the first kinetic sub-step in the
@@ -13,7 +13,9 @@ two threaded FFTW transforms (:class:`~tdse1d.physics.fftw_direct.GridPlans`):
   step the norm the absorber took from each region of the plane (over the rows' runs
   where M < 1 only, :class:`~tdse1d.physics.pair_regions.RegionRecorder`), and on a
   record step the norm, <X>, <F>, the overlap with the reference state and the rows'
-  sums over the regions' column pieces.
+  sums over the regions' column pieces;
+* within a chunk, the last kick of a step and the first of the next in one pass
+  (:func:`run_plane`), so that a Strang step is two passes and two transforms.
 
 The sums are taken per row, then over rows, so they differ from the array loop's only
 in the order of the additions (round-off). The passes run on one thread, the
