@@ -22,7 +22,7 @@ import threading
 
 import pyfftw
 
-__all__ = ["AVAILABLE", "fftw_execute", "LinePlans"]
+__all__ = ["AVAILABLE", "fftw_execute", "LinePlans", "GridPlans"]
 
 _SYMBOL = "tdse1d_fftw_execute"
 # planner flags of fftw3.h (part of FFTW's public interface)
@@ -60,6 +60,9 @@ if AVAILABLE:
     _LIB.fftw_plan_dft_1d.restype = ctypes.c_void_p
     _LIB.fftw_plan_dft_1d.argtypes = [ctypes.c_int, ctypes.c_void_p, ctypes.c_void_p, ctypes.c_int, ctypes.c_uint]
     _LIB.fftw_destroy_plan.argtypes = [ctypes.c_void_p]
+    _LIB.fftw_plan_dft.restype = ctypes.c_void_p
+    _LIB.fftw_plan_dft.argtypes = [ctypes.c_int, ctypes.c_void_p, ctypes.c_void_p, ctypes.c_void_p, ctypes.c_int,
+                                   ctypes.c_uint]
     _llvm.add_symbol(_SYMBOL, ctypes.cast(_LIB.fftw_execute, ctypes.c_void_p).value)
     #: ``fftw_execute(plan)`` callable from numba code; the plan is passed as an integer
     #: (a pointer-sized integer is passed like a pointer on every ABI numba targets)
@@ -115,3 +118,41 @@ class LinePlans:
             if plan and _LIB is not None:
                 with _PLAN_LOCK:
                     _LIB.fftw_destroy_plan(plan)
+
+
+class GridPlans(LinePlans):
+    """Forward and backward in-place plans over every axis of one aligned complex array,
+    on ``threads`` threads (FFTW's OpenMP build; one thread if it is not there).
+
+    Parameters
+    ----------
+    data : ndarray of complex128, C order
+        The aligned array (``InPlaceFFT.data``, any number of axes); it must outlive the plans.
+    effort : str
+        FFTW planner flag.
+    threads : int
+        Threads of the plans.
+    """
+
+    def __init__(self, data, effort="FFTW_MEASURE", threads=1):  # noqa: D107 (LinePlans' fields)
+        if not AVAILABLE:
+            raise RuntimeError("the FFTW library pyfftw uses was not found")
+        if data.dtype.kind != "c" or data.itemsize != 16 or not data.flags.c_contiguous:
+            raise ValueError("GridPlans needs a C-ordered complex128 array")
+        self._data = data
+        flags = _FLAGS[effort] | _DESTROY_INPUT
+        dims = (ctypes.c_int * data.ndim)(*data.shape)
+        ptr = data.ctypes.data
+        saved = data.copy()
+        with _PLAN_LOCK:
+            if _SET_THREADS is not None:
+                _SET_THREADS(int(threads))
+            try:
+                self.forward = _LIB.fftw_plan_dft(data.ndim, dims, ptr, ptr, _FORWARD, flags)
+                self.backward = _LIB.fftw_plan_dft(data.ndim, dims, ptr, ptr, _BACKWARD, flags)
+            finally:
+                if _SET_THREADS is not None:
+                    _SET_THREADS(1)
+        data[:] = saved
+        if not self.forward or not self.backward:
+            raise RuntimeError(f"FFTW made no plan for shape {data.shape}")

@@ -25,10 +25,10 @@ single ionization: a later ionization of the second electron is then not counted
 from __future__ import annotations
 
 import numpy as np
-from numba import njit, prange
+from numba import njit
 
 __all__ = ["RADII", "DEFAULT_RADIUS", "region_probabilities", "RegionRecorder", "double_ionization_momenta",
-           "MOMENTUM_MASK_WIDTH"]
+           "MOMENTUM_MASK_WIDTH", "split_row_pieces"]
 
 #: radii (bohr) at which the regions are read; the first is the one reported, the
 #: others give the spread (8 bohr holds the bound states; 15 bohr is still well inside
@@ -40,46 +40,37 @@ DEFAULT_RADIUS = RADII[0]
 MOMENTUM_MASK_WIDTH = 2.0
 
 
-@njit(cache=True, nogil=True, parallel=True)
-def _region_sums(psi, u, starts, stops, chunks):
-    """One pass over psi: per row the sums of |psi|^2 and of |psi|^2 u(x2), per column
-    (in ``chunks`` row blocks, summed after) the same with u(x1), and per radius k the
-    sums over the inner box [starts[k], stops[k])^2, plain and weighted by u(x1) u(x2)."""
-    n = psi.shape[0]
-    kk = starts.size
-    rows = np.zeros(n)
-    rows_u = np.zeros(n)
-    cols = np.zeros((chunks, n))
-    cols_u = np.zeros((chunks, n))
-    box = np.zeros((chunks, kk))
-    box_u = np.zeros((chunks, kk))
-    size = (n + chunks - 1) // chunks
-    for c in prange(chunks):
-        for i in range(c * size, min(n, (c + 1) * size)):
-            s = 0.0
-            su = 0.0
-            ui = u[i]
-            for j in range(n):
-                z = psi[i, j]
-                d = z.real * z.real + z.imag * z.imag
-                s += d
-                su += d * u[j]
-                cols[c, j] += d
-                cols_u[c, j] += d * ui
-            rows[i] = s
-            rows_u[i] = su
-            for k in range(kk):
-                if starts[k] <= i < stops[k]:
-                    b = 0.0
-                    bu = 0.0
-                    for j in range(starts[k], stops[k]):
-                        z = psi[i, j]
-                        d = z.real * z.real + z.imag * z.imag
-                        b += d
-                        bu += d * u[j]
-                    box[c, k] += b
-                    box_u[c, k] += bu * ui
-    return rows, rows_u, cols.sum(axis=0), cols_u.sum(axis=0), box.sum(axis=0), box_u.sum(axis=0)
+@njit(cache=True, nogil=True)
+def split_row_pieces(pieces, inside, starts, stops, weight, out):
+    """out[k] += weight * (P0, P1, P2) at radius k from per-row sums over column pieces.
+
+    ``pieces[i, p]`` is the sum of a density (or of the norm absorbed) over row i and
+    the columns of piece p; ``inside[p, k]`` says whether piece p lies in the inner
+    range [starts[k], stops[k]) of radius k. A row inside that range puts its inner
+    columns in the neutral region and the rest in single ionization; a row outside,
+    its inner columns in single ionization and the rest in double ionization.
+    """
+    n, count = pieces.shape
+    for k in range(starts.size):
+        p0 = 0.0
+        p1 = 0.0
+        p2 = 0.0
+        for i in range(n):
+            inner = 0.0
+            total = 0.0
+            for q in range(count):
+                total += pieces[i, q]
+                if inside[q, k]:
+                    inner += pieces[i, q]
+            if starts[k] <= i < stops[k]:
+                p0 += inner
+                p1 += total - inner
+            else:
+                p1 += inner
+                p2 += total - inner
+        out[k, 0] += weight * p0
+        out[k, 1] += weight * p1
+        out[k, 2] += weight * p2
 
 
 def _inner(x: np.ndarray, radius: float) -> slice:
@@ -130,9 +121,17 @@ def region_probabilities(density: np.ndarray, x: np.ndarray, spacing: float, rad
 class RegionRecorder:
     """Region probabilities of a propagating state, with the absorbed norm attributed.
 
-    Call :meth:`record` after every step with the state; it returns, for each radius of
+    After every step call :meth:`absorb` with the state (it counts what that step's
+    absorber took from each region); :meth:`read` returns, for each radius of
     ``radii``, (P0, P1, P2) = norm in the region plus the norm absorbers took from it
-    so far (see the module docstring).
+    so far (see the module docstring). :meth:`record` does both.
+
+    The columns of a row are cut into pieces at the inner ranges' edges
+    (:attr:`bounds`, :attr:`inside`), so that one pass of per-row piece sums gives
+    every radius (:func:`split_row_pieces`); the compiled 2-D loop
+    (:mod:`tdse1d.physics.plane_loop`) takes the same sums in its last pass of a step.
+    The absorbed norm |psi|^2 (1/M^2 - 1) is summed over the runs of each row where
+    M < 1 only (:attr:`segments`).
 
     Parameters
     ----------
@@ -152,69 +151,67 @@ class RegionRecorder:
         self.radii = tuple(float(r) for r in radii)
         self.inner = [_inner(self.x, r) for r in self.radii]
         n = self.x.size
-        self.loss = self.axis_weight = None
+        self.starts = np.array([i.start for i in self.inner], dtype=np.int64)
+        self.stops = np.array([i.stop for i in self.inner], dtype=np.int64)
+        #: column pieces: [bounds[p], bounds[p + 1]), and whether each lies in radius k's range
+        self.bounds = np.unique(np.concatenate([[0, n], self.starts, self.stops])).astype(np.int64)
+        lo, hi = self.bounds[:-1, None], self.bounds[1:, None]
+        self.inside = (lo >= self.starts[None, :]) & (hi <= self.stops[None, :])
+        self.loss = None
+        self.segments = (np.zeros(n + 1, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64),
+                         np.zeros(0, np.int64))
         if absorber_factor is not None:
             m = np.asarray(absorber_factor, dtype=float)
             if m.shape != (n, n) or np.any(m <= 0) or np.any(m > 1):
                 raise ValueError("absorber_factor must be (n, n) with values in (0, 1]")
-            # layers on each axis make M = m(x1) m(x2); then the loss 1/M^2 - 1 is
-            # u(x1) u(x2) - 1 with u = 1/m^2, and its region sums are two matrix-vector
-            # products instead of a product array (read from the line through x2 = 0)
-            line = m[:, int(np.argmin(np.abs(self.x)))]
-            if np.allclose(m, line[:, None] * line[None, :], rtol=1e-12, atol=0):
-                self.axis_weight = 1.0 / line**2
-            else:
-                self.loss = 1.0 / m**2 - 1.0
+            self.loss = 1.0 / m**2 - 1.0
+            self.segments = _loss_segments(self.loss > 0, self.bounds)
         self.absorbed = np.zeros((len(self.radii), 3))
-        self._ones = np.ones(n)
-        self._starts = np.array([i.start for i in self.inner], dtype=np.int64)
-        self._stops = np.array([i.stop for i in self.inner], dtype=np.int64)
-        self._chunks = 2  # one block of rows per core (the machine's two)
-        self._d = self._t = None
 
-    def _density(self, psi):  # the general path only (an absorber that is not per axis)
-        if self._d is None:
-            self._d, self._t = np.empty(psi.shape), np.empty(psi.shape)
+    def row_pieces(self, density: np.ndarray) -> np.ndarray:
+        """Per-row sums of ``density`` (n, n) over the column pieces, shape (n, pieces)."""
+        return np.add.reduceat(density, self.bounds[:-1], axis=1)
 
-        d, t = self._d, self._t
-        np.multiply(psi.real, psi.real, out=d)
-        np.multiply(psi.imag, psi.imag, out=t)
-        d += t
-        return d
+    def _regions(self, pieces) -> np.ndarray:
+        out = np.zeros((len(self.radii), 3))
+        split_row_pieces(np.ascontiguousarray(pieces), self.inside, self.starts, self.stops, self.weight, out)
+        return out
+
+    def absorb(self, psi: np.ndarray) -> None:
+        """Count the norm the absorber of the step that ended in ``psi`` took, by region."""
+        if self.loss is not None:
+            self.absorbed += self._regions(self.row_pieces((psi.real**2 + psi.imag**2) * self.loss))
+
+    def read(self, psi: np.ndarray) -> np.ndarray:
+        """(P0, P1, P2) of each radius, shape (len(radii), 3): the state's and what was absorbed."""
+        return self._regions(self.row_pieces(psi.real**2 + psi.imag**2)) + self.absorbed
 
     def record(self, psi: np.ndarray, after_step: bool = True) -> np.ndarray:
-        """The (P0, P1, P2) of each radius, shape (len(radii), 3).
-
-        ``psi`` is the state just after a step (whose absorber is counted), or, with
-        ``after_step=False``, a state no absorber has acted on yet (the initial one).
-        """
-        w = self.weight
-        after_step = after_step and (self.loss is not None or self.axis_weight is not None)
-        if self.loss is None:  # no absorber, or layers on each axis: one fused pass
-            u = self.axis_weight if self.axis_weight is not None else self._ones
-            rows, rows_u, cols, cols_u, box, box_u = _region_sums(psi, u, self._starts, self._stops, self._chunks)
-            rows, cols, box = rows * w, cols * w, box * w
-            boxes = list(box)
-            if after_step:
-                t_rows, t_cols = rows_u * u * w - rows, cols_u * u * w - cols
-                t_box = list(box_u * w - box)
-        else:
-            d = self._density(psi)
-            rows, cols = d.sum(axis=1) * w, d.sum(axis=0) * w
-            boxes = [float(d[i, i].sum()) * w for i in self.inner]
-            if after_step:
-                taken = d * self.loss
-                t_rows, t_cols = taken.sum(axis=1) * w, taken.sum(axis=0) * w
-                t_box = [float(taken[i, i].sum()) * w for i in self.inner]
-        total = float(rows.sum())
+        """:meth:`absorb` (unless ``after_step`` is False: a state no absorber has acted
+        on, such as the initial one), then :meth:`read`."""
         if after_step:
-            t_total = float(t_rows.sum())
-        out = np.empty((len(self.radii), 3))
-        for k, inner in enumerate(self.inner):
-            out[k] = _split(rows, cols, boxes[k], total, inner)
-            if after_step:
-                self.absorbed[k] += _split(t_rows, t_cols, t_box[k], t_total, inner)
-        return out + self.absorbed
+            self.absorb(psi)
+        return self.read(psi)
+
+
+def _loss_segments(absorbing: np.ndarray, bounds: np.ndarray):
+    """The runs of True in each row of ``absorbing``, cut at the piece ``bounds``:
+    (row pointer (n + 1), first column, end column, piece index), a row's runs at
+    [pointer[i], pointer[i + 1])."""
+    n = absorbing.shape[0]
+    piece_of = np.searchsorted(bounds, np.arange(absorbing.shape[1]), side="right") - 1
+    pointer, first, end = [0], [], []
+    for i in range(n):
+        row = np.concatenate([[False], absorbing[i], [False]])
+        edges = np.flatnonzero(row[1:] != row[:-1])
+        for lo, hi in zip(edges[::2], edges[1::2]):
+            inner = [lo] + [int(c) for c in bounds[(bounds > lo) & (bounds < hi)]] + [hi]
+            first += inner[:-1]
+            end += inner[1:]
+        pointer.append(len(first))
+    first = np.array(first, dtype=np.int64)
+    return (np.array(pointer, dtype=np.int64), first, np.array(end, dtype=np.int64),
+            piece_of[first].astype(np.int64) if first.size else np.zeros(0, np.int64))
 
 
 def double_ionization_momenta(psi: np.ndarray, x: np.ndarray, spacing: float, radius: float = DEFAULT_RADIUS,

@@ -6,12 +6,13 @@ gauge), and the recorded acceleration is the total dipole acceleration
 -<dV/dx1 + dV/dx2> - 2 E(t) N(t), whose spectrum is the harmonic spectrum of the atom
 (the repulsion drops out of it: an internal force).
 
-Beside the propagator's own observables the system records, after every step, the
+Beside the propagator's own observables the system records, at every record step, the
 probabilities of the neutral atom, of single and of double ionization from regions of
 the (x1, x2) plane (:mod:`tdse1d.physics.pair_regions`), with the norm the absorbers
-took attributed to its region, at the reported radius and at the others of
-:data:`~tdse1d.physics.pair_regions.RADII` (their spread is the reading's
-uncertainty).
+took on every step attributed to its region, at the reported radius and at the others
+of :data:`~tdse1d.physics.pair_regions.RADII` (their spread is the reading's
+uncertainty). The 2-D steppers take these readings in their own passes
+(:meth:`TwoElectrons.fused_readings`); the entries' ``measure`` reads the start of a run.
 """
 
 from __future__ import annotations
@@ -79,11 +80,11 @@ class TwoElectrons(System):
     def _read(self, propagator) -> np.ndarray:
         n = propagator.step_index
         if self._reading is None or self._reading[0] != n:
-            # the first call of a run reads the state no absorber has touched yet
             first = self._started is None
             if first:
                 self._started = n
-            values = self.recorder.record(propagator.psi, after_step=not first)
+            # the stepper counts what each step's absorber takes (RegionRecorder.absorb)
+            values = self.recorder.read(propagator.psi)
             if first and n > 0:  # a resumed run: what was absorbed before is in the record
                 recorded = np.array([[getattr(propagator.observables, name)[n]
                                       for name in self._names_of(k)] for k in range(len(self.radii))])
@@ -92,6 +93,12 @@ class TwoElectrons(System):
                     values = recorded
             self._reading = (n, values)
         return self._reading[1]
+
+    def fused_readings(self):
+        """(recorder, names): the region readings as the 2-D steppers take them in their
+        own passes (:mod:`tdse1d.physics.grid_step`), the names in the recorder's order
+        (radius by radius, neutral, single, double)."""
+        return self.recorder, region_observable_names(self.radii)
 
     def _names_of(self, k: int) -> tuple[str, ...]:
         names = region_observable_names(self.radii)
