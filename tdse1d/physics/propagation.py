@@ -200,6 +200,16 @@ class Propagator:
     def time(self) -> float:
         return float(self.times[self.step_index])
 
+    @property
+    def recorded_force(self) -> float:
+        """Mean force <F> (a.u.) of the last record, which the next record's momentum
+        uses; a checkpoint keeps it so a resumed run continues bitwise."""
+        return self._force
+
+    @recorded_force.setter
+    def recorded_force(self, value: float) -> None:
+        self._force = float(value)
+
     def start(self, psi0, step_index: int = 0):
         """Set the state at ``times[step_index]`` and record its observables.
 

@@ -15,6 +15,9 @@ What it holds (root attribute ``system = "two-electron"``):
 * the norm the absorbers took from each region so far (``regions/absorbed``, radius x
   (neutral, single, double)): the readings add it to every later step, so a resumed
   run continues the same sums, bitwise;
+* the mean force <F> of the last record (``record_force``, a.u.), which the momentum of
+  the next record uses: measured again at the resumed step by other code, it would
+  differ in its last bits;
 * the density snapshots written so far (copied one at a time: the memory of a run and
   of its checkpoint does not grow with their number).
 """
@@ -36,7 +39,7 @@ from .checkpoint import _fsync_dir
 __all__ = ["PairRunState", "PairCheckpointSink", "write_pair_checkpoint", "read_pair_checkpoint", "PAIR_SYSTEM"]
 
 _FORMAT = "tdse1d-checkpoint"  # the format of every checkpoint; ``system`` says whose
-_FORMAT_VERSION = 1
+_FORMAT_VERSION = 2  # 2: record_force
 #: the ``system`` root attribute of a checkpoint of the two-electron atom
 PAIR_SYSTEM = "two-electron"
 
@@ -59,6 +62,8 @@ class PairRunState:
         Every per-step observable by name (NaN beyond what was recorded).
     absorbed : ndarray, shape (radii, 3)
         Norm the absorbers took so far from the neutral, single and double regions.
+    record_force : float
+        Mean force <F> (a.u.) of the last record, for the momentum of the next one.
     """
 
     step_index: int
@@ -67,6 +72,7 @@ class PairRunState:
     psi: np.ndarray
     observables: dict
     absorbed: np.ndarray
+    record_force: float
 
 
 def write_pair_checkpoint(path, state: PairRunState, digest: str, density=None):
@@ -92,6 +98,7 @@ def write_pair_checkpoint(path, state: PairRunState, digest: str, density=None):
         a["tdse1d_version"], a["input_hash"] = __version__, digest
         a["step_index"], a["next_event"] = state.step_index, state.next_event
         a["snapshots_done"], a["written_unix_time"] = state.snapshots_done, time.time()
+        a["record_force"] = state.record_force
         f.create_dataset("psi", data=state.psi)
         obs = f.create_group("observables")
         for name, values in state.observables.items():
@@ -162,7 +169,7 @@ def read_pair_checkpoint(path, digest: str | None = None, names=None) -> PairRun
             step_index=int(f.attrs["step_index"]), next_event=int(f.attrs["next_event"]),
             snapshots_done=int(f.attrs["snapshots_done"]), psi=f["psi"][()],
             observables={n: stored[n][()] for n in (names if names is not None else stored)},
-            absorbed=f["regions/absorbed"][()])
+            absorbed=f["regions/absorbed"][()], record_force=float(f.attrs["record_force"]))
 
 
 class PairCheckpointSink:

@@ -371,6 +371,7 @@ def _start(prop, psi0, resume):
             raise ValueError(f"the state to resume holds no per-step {name!r} of {record.shape[0]} records")
         record[:] = resume.observables[name]
     recorder.absorbed[:] = resume.absorbed
+    prop.recorded_force = resume.record_force
     return resume.next_event, resume.snapshots_done
 
 
@@ -405,7 +406,8 @@ def _propagate(problem, prop, snapshot_sink, progress, radii, clock, control, ch
                     raise PairRunStopped(prop.step_index, float(times[prop.step_index]))
                 continue
             checkpoint_sink.checkpoint(PairRunState(prop.step_index, event + 1, snapshots_done, prop.psi,
-                                                    prop.observables.as_dict(), prop.system.recorder.absorbed))
+                                                    prop.observables.as_dict(), prop.system.recorder.absorbed,
+                                                    prop.recorded_force))
             control.checkpoint_written()
             if control.stop_requested:
                 raise RunInterrupted(prop.step_index, float(times[prop.step_index]))
