@@ -46,6 +46,7 @@ __all__ = [
     "input_hash",
     "write_checkpoint",
     "read_checkpoint",
+    "open_checkpoint",
     "CheckpointSink",
 ]
 
@@ -123,6 +124,45 @@ def write_checkpoint(path, state, digest: str, snapshots=None):
     _fsync_dir(path.parent)
 
 
+def open_checkpoint(path, digest: str | None = None) -> h5py.File:
+    """Open a checkpoint of any system for reading, its format and input checked.
+
+    Parameters
+    ----------
+    path : path
+    digest : str, optional
+        Expected :func:`input_hash`; a checkpoint of another input is refused.
+
+    Returns
+    -------
+    h5py.File
+        Open for reading (use it as a context manager).
+
+    Raises
+    ------
+    InputError
+        One line, for a file that cannot be read, is not a tdse1d checkpoint, or was
+        written for another input.
+    """
+    path = Path(path)
+    try:
+        f = h5py.File(path, "r")
+    except OSError as exc:
+        raise InputError(f"cannot read the checkpoint {str(path)!r} ({exc})", "--resume") from None
+    try:
+        if f.attrs.get("format") != _FORMAT:
+            raise InputError(f"{str(path)!r} is not a tdse1d checkpoint", "--resume")
+        if digest is not None and f.attrs.get("input_hash") != digest:
+            raise InputError(
+                f"the checkpoint {str(path)!r} was written for a different input (resolved-input hash "
+                f"{str(f.attrs.get('input_hash'))[:12]}..., this input {digest[:12]}...); remove it or run without "
+                "--resume", "--resume")
+    except InputError:
+        f.close()
+        raise
+    return f
+
+
 def read_checkpoint(path, digest: str | None = None):
     """Read a checkpoint written by :func:`write_checkpoint`.
 
@@ -146,24 +186,12 @@ def read_checkpoint(path, digest: str | None = None):
     from .runner import RunState
 
     path = Path(path)
-    try:
-        f = h5py.File(path, "r")
-    except OSError as exc:
-        raise InputError(f"cannot read the checkpoint {str(path)!r} ({exc})", "--resume") from None
-    with f:
-        if f.attrs.get("format") != _FORMAT:
-            raise InputError(f"{str(path)!r} is not a tdse1d checkpoint", "--resume")
+    with open_checkpoint(path, digest) as f:
         version = int(f.attrs.get("format_version", 0))
         if version != _FORMAT_VERSION:
             raise InputError(
                 f"the checkpoint {str(path)!r} has format version {version}, this tdse1d reads "
                 f"{_FORMAT_VERSION} (the photoelectron accumulator changed); run without --resume",
-                "--resume",
-            )
-        if digest is not None and f.attrs["input_hash"] != digest:
-            raise InputError(
-                f"the checkpoint {str(path)!r} was written for a different input (resolved-input hash "
-                f"{f.attrs['input_hash'][:12]}..., this input {digest[:12]}...); remove it or run without --resume",
                 "--resume",
             )
         missing = [name for name in per_step_names() if name not in f["observables"]]

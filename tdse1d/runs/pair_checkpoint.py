@@ -34,11 +34,10 @@ import numpy as np
 
 from .. import __version__
 from ..input.spec import InputError
-from .checkpoint import _fsync_dir
+from .checkpoint import _FORMAT, _fsync_dir, open_checkpoint  # one format for every checkpoint; ``system`` says whose
 
 __all__ = ["PairRunState", "PairCheckpointSink", "write_pair_checkpoint", "read_pair_checkpoint", "PAIR_SYSTEM"]
 
-_FORMAT = "tdse1d-checkpoint"  # the format of every checkpoint; ``system`` says whose
 _FORMAT_VERSION = 2  # 2: record_force
 #: the ``system`` root attribute of a checkpoint of the two-electron atom
 PAIR_SYSTEM = "two-electron"
@@ -141,18 +140,7 @@ def read_pair_checkpoint(path, digest: str | None = None, names=None) -> PairRun
         another format version, of another input, or without an observable.
     """
     path = Path(path)
-    try:
-        f = h5py.File(path, "r")
-    except OSError as exc:
-        raise InputError(f"cannot read the checkpoint {str(path)!r} ({exc})", "--resume") from None
-    with f:
-        if f.attrs.get("format") != _FORMAT:
-            raise InputError(f"{str(path)!r} is not a tdse1d checkpoint", "--resume")
-        if digest is not None and f.attrs.get("input_hash") != digest:
-            raise InputError(
-                f"the checkpoint {str(path)!r} was written for a different input (resolved-input hash "
-                f"{str(f.attrs.get('input_hash'))[:12]}..., this input {digest[:12]}...); remove it or run without "
-                "--resume", "--resume")
+    with open_checkpoint(path, digest) as f:
         if f.attrs.get("system") != PAIR_SYSTEM:
             raise InputError(f"the checkpoint {str(path)!r} is not one of the two-electron atom; remove it or run "
                              "without --resume", "--resume")
