@@ -32,6 +32,7 @@ import numpy as np
 from numba import njit
 
 from .fftw_direct import AVAILABLE, GridPlans, fftw_execute
+from .time_loop import recorded_momentum
 from .pair_regions import split_row_pieces
 
 __all__ = ["AVAILABLE", "GridPlans", "run_plane", "axis_phase"]
@@ -301,13 +302,8 @@ def run_plane(count, n0, forward, backward, psi, kick, join, kinetic, kick_c, ki
                     if n % every == 0:
                         # <P>(t_n), as Propagator._record_momentum (before the records of t_{n+1})
                         j = n // every
-                        kick_force = carry[1]
-                        if length:
-                            kick_force += charge * e_mid[n, 0] * norm[j]
-                        p = carry[0] * norm[j] + kick_c[0, 0] * h * kick_force
-                        if not length:
-                            p += charge * vecpot[n] * norm[j]
-                        momentum[j] = p
+                        momentum[j] = recorded_momentum(carry, norm[j], kick_c[0, 0] * h, length, charge,
+                                                        e_mid[n, 0], vecpot[n])
                 fftw_execute(backward)
             elif step < count - 1:
                 pending = True

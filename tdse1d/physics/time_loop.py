@@ -25,7 +25,7 @@ from numba import njit, types
 from . import kernels
 from .fftw_direct import AVAILABLE, LinePlans, fftw_execute
 
-__all__ = ["AVAILABLE", "LinePlans", "run_line"]
+__all__ = ["AVAILABLE", "LinePlans", "run_line", "recorded_momentum"]
 
 # CPython's abs(complex) is the C library's hypot and float ** 2 its pow; numba (and
 # LLVM, which turns pow(x, 2) into x * x) round differently in the last bit now and then
@@ -34,6 +34,24 @@ _llvm.add_symbol("tdse1d_c_hypot", ctypes.cast(_LIBM.hypot, ctypes.c_void_p).val
 _llvm.add_symbol("tdse1d_c_pow", ctypes.cast(_LIBM.pow, ctypes.c_void_p).value)
 c_hypot = types.ExternalFunction("tdse1d_c_hypot", types.float64(types.float64, types.float64))
 c_pow = types.ExternalFunction("tdse1d_c_pow", types.float64(types.float64, types.float64))
+
+
+@njit(inline="always", error_model="numpy")
+def recorded_momentum(carry, norm, kick_time, length, charge, field, vector_potential):
+    """<P>(t_n) of a record, as ``Propagator._record_momentum``: the pending <K> of the
+    step's first kinetic sub-step (``carry[0]``) times the norm, plus the first kick's
+    impulse (``kick_time`` = its weight x dt) of the last record's mean force
+    (``carry[1]``) and, in the length gauge, of the field; in the velocity gauge plus
+    charge x A(t_n) x norm. Shared by the 1-D and 2-D compiled loops (same operations,
+    same rounding)."""
+    kick_force = carry[1]
+    if length:
+        kick_force += charge * field * norm
+    p = carry[0] * norm + kick_time * kick_force
+    if not length:
+        p += charge * vector_potential * norm
+    return p
+
 
 if AVAILABLE:
 
@@ -110,13 +128,8 @@ if AVAILABLE:
             if n % every == 0:
                 # <p>(t_n): as Propagator._record_momentum
                 j = n // every
-                kick_force = carry[1]
-                if length:
-                    kick_force += charge * e_mid[n, 0] * norm[j]
-                p = carry[0] * norm[j] + kick_c[0, 0] * h * kick_force
-                if not length:
-                    p += charge * vecpot[n] * norm[j]
-                momentum[j] = p
+                momentum[j] = recorded_momentum(carry, norm[j], kick_c[0, 0] * h, length, charge, e_mid[n, 0],
+                                                vecpot[n])
             if (n + 1) % every == 0:
                 # the position records of t_{n+1}: as Propagator._record_position
                 j = (n + 1) // every
