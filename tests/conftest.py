@@ -115,6 +115,18 @@ def _toml_value(value) -> str:
     return f'"{value}"' if isinstance(value, str) else repr(value)
 
 
+def small_pair_input(*, field=0.3, snapshots=3, propagation="") -> str:
+    """The TOML text of a small and fast two-electron input: a 2-cycle pulse of photon
+    energy 1 a.u. and peak field ``field`` (a.u.) on a 48^2 grid of 0.8 bohr;
+    ``propagation`` is raw text added to the ``[propagation]`` table."""
+    lines = ["[atom]", 'model = "two-electron"', "[[laser]]", 'photon_energy = "1 au"', f"peak_field = {field}",
+             "cycles = 2", "[grid]", "points = 48", "spacing = 0.8", "[absorber]", 'width = "3 bohr"',
+             "[propagation]", "time_step = 0.05", 'after_pulse = "1 au"']
+    lines += [propagation] if propagation else []
+    lines += ["[output]", f"snapshots = {snapshots}", "snapshot_stride = 4"]
+    return "\n".join(lines) + "\n"
+
+
 def small_input(*, intensity="1e14 W/cm^2", envelope=None, cycles=2, points=256, spacing=0.4,
                 absorber_width=None, time_step=0.2, gauge=None, after_pulse="0.5 fs", propagation="",
                 photoelectrons=None, snapshots=0) -> str:

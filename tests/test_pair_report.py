@@ -31,7 +31,7 @@ import h5py
 import numpy as np
 import pytest
 import scipy.constants as sc
-from conftest import small_input
+from conftest import small_input, small_pair_input
 
 from tdse1d import api
 from tdse1d.analysis.pair_report import PairRecord, PairReport, pair_rows
@@ -40,24 +40,7 @@ from tdse1d.input.schema import load_input
 from tdse1d.runs.pair_runner import pair_memory_bytes
 
 FIELD, OMEGA = 0.3, 1.0
-INPUT = f"""[atom]
-model = "two-electron"
-[[laser]]
-photon_energy = "{OMEGA} au"
-peak_field = {FIELD}
-cycles = 2
-[grid]
-points = 48
-spacing = 0.8
-[absorber]
-width = "3 bohr"
-[propagation]
-time_step = 0.05
-after_pulse = "1 au"
-[output]
-snapshots = 3
-snapshot_stride = 4
-"""
+INPUT = small_pair_input(field=FIELD, snapshots=3)  # photon energy OMEGA = 1 a.u.
 
 #: atomic unit of time in fs, CODATA through scipy: hbar / E_h
 AU_FS = sc.hbar / sc.physical_constants["Hartree energy"][0] * 1e15

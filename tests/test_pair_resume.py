@@ -25,29 +25,11 @@ import sys
 import h5py
 import numpy as np
 import pytest
-from conftest import Handshake
+from conftest import Handshake, small_pair_input
 
 from tdse1d.runs.checkpoint import checkpoint_path
 from tdse1d.runs.pair_checkpoint import read_pair_checkpoint
 
-INPUT = """[atom]
-model = "two-electron"
-[[laser]]
-photon_energy = "1 au"
-peak_field = {field}
-cycles = 2
-[grid]
-points = 48
-spacing = 0.8
-[absorber]
-width = "3 bohr"
-[propagation]
-time_step = 0.05
-after_pulse = "1 au"
-[output]
-snapshots = 5
-snapshot_stride = 4
-"""
 
 #: what differs between two runs of one input however they ran: the writer's token and
 #: the wall-clock time of the propagation
@@ -93,7 +75,7 @@ def interrupted(tmp_path_factory):
     """An uninterrupted run's file, and the checkpoint a SIGTERM left (kept aside)."""
     base = tmp_path_factory.mktemp("pair-resume")
     path = base / "he.toml"
-    path.write_text(INPUT.format(field=0.3))
+    path.write_text(small_pair_input(field=0.3, snapshots=5))
     full = base / "full.h5"
     done = _cli("run", path, "-o", full, "--quiet")
     assert done.returncode == 0, done.stderr
@@ -165,7 +147,7 @@ def test_null_a_checkpoint_without_the_absorbed_norm_gives_another_file(interrup
 
 def test_a_checkpoint_of_another_input_is_refused_in_one_line(interrupted, tmp_path):
     other = tmp_path / "other.toml"
-    other.write_text(INPUT.format(field=0.31))
+    other.write_text(small_pair_input(field=0.31, snapshots=5))
     out = tmp_path / "other.h5"
     done = _resume_from(interrupted["checkpoint"], other, out)
     assert done.returncode == 2, done.stderr
@@ -208,7 +190,7 @@ def test_two_stops_in_the_velocity_gauge_at_fourth_order_resume_to_the_bit(tmp_p
     from tdse1d.runs.runner import RunControl, RunInterrupted
 
     path = tmp_path / "hev.toml"
-    path.write_text(INPUT.format(field=0.3).replace("time_step = 0.05", 'time_step = 0.05\ngauge = "velocity"\norder = 4'))
+    path.write_text(small_pair_input(field=0.3, snapshots=5, propagation='gauge = "velocity"\norder = 4'))
     problem = build_pair_problem(load_input(path))
     full = api.run(problem, tmp_path / "full.h5").path
     out = tmp_path / "cut.h5"
