@@ -1,5 +1,5 @@
 """All bound states of a mirror-symmetric potential from the even and odd blocks of H
-(physics/states.py: _dense_bound) against an independent dense solve of the whole grid.
+(physics/parity.py, used by physics/states.py) against an independent dense solve of the whole grid.
 
 The independent side is the closed-form Fourier-grid kinetic matrix of tests/test_states.py
 plus V, diagonalised whole by scipy (no parity used). Bands, set before the comparison:
@@ -16,6 +16,7 @@ from test_states import fourier_kinetic
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.potentials import Centre, SoftCore
 from tdse1d.physics import states as S
+from tdse1d.physics.parity import is_mirror_symmetric, parity_blocks, parity_vectors
 
 
 def _independent(grid, potential):
@@ -32,7 +33,7 @@ def _independent(grid, potential):
 ])
 def test_parity_blocks_give_the_whole_grid_states(potential):
     grid = Grid(600, 0.25)
-    assert S._is_mirror_symmetric(grid, potential.value(grid.x))
+    assert is_mirror_symmetric(grid, potential.value(grid.x))
     states = S.bound_states(grid, potential)
     energies, vectors = _independent(grid, potential)
     assert len(states) == energies.size
@@ -55,7 +56,7 @@ def test_parity_blocks_give_the_whole_grid_states(potential):
 def test_an_asymmetric_potential_is_solved_whole():
     grid = Grid(600, 0.25)
     potential = SoftCore((Centre(-1.5, 1.0, 0.8), Centre(2.0, 0.5, 1.3)))
-    assert not S._is_mirror_symmetric(grid, potential.value(grid.x))
+    assert not is_mirror_symmetric(grid, potential.value(grid.x))
     states = S.bound_states(grid, potential)
     energies, _ = _independent(grid, potential)
     assert np.allclose(states.energies, energies, rtol=0, atol=1e-10)
@@ -67,17 +68,17 @@ def test_null_a_wrong_odd_mapping_is_caught():
     grid = Grid(200, 0.3)
     potential = SoftCore((Centre(0.0, 1.0, 1.0),))
     h = S.hamiltonian_matrix(grid, potential)
-    even, odd, pairs = S._parity_blocks(h)
+    even, odd, pairs = parity_blocks(h)
     e, v = scipy.linalg.eigh(odd, subset_by_index=(0, 0))
     wrong = np.zeros((grid.points, 1))
     wrong[pairs] = wrong[grid.points - pairs] = v / np.sqrt(2.0)  # the odd core spread with the even sign
     assert np.allclose(np.linalg.norm(wrong), 1.0)
-    right = S._parity_vectors(v, pairs, grid.points, even=False)
+    right = parity_vectors(v, pairs, grid.points, even=False)
     assert np.linalg.norm(h @ right[:, 0] - e[0] * right[:, 0]) < 1e-10
     residual = np.linalg.norm(h @ wrong[:, 0] - e[0] * wrong[:, 0])
     assert residual > 1e-2
     shifted = SoftCore((Centre(0.3, 1.0, 1.0),))
     hs = S.hamiltonian_matrix(grid, shifted)
-    blocks = S._parity_blocks(hs)
+    blocks = parity_blocks(hs)
     wrong_energy = scipy.linalg.eigvalsh(blocks[0])[0]
     assert abs(wrong_energy - scipy.linalg.eigvalsh(hs)[0]) > 1e-4

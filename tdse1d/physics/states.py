@@ -11,7 +11,8 @@ Two ways of asking:
   the whole grid, none dropped, so the ionization probability (:mod:`tdse1d.physics.ionization`)
   can count every bound state the box holds. Up to :data:`DENSE_POINTS` points this is a
   dense solve of the whole grid restricted to E < 0 (LAPACK MRRR via
-  :func:`scipy.linalg.eigh`, only the eigenpairs used). On larger grids the E < 0
+  :func:`scipy.linalg.eigh`, only the eigenpairs used; a mirror-symmetric potential in
+  its even and odd blocks, :mod:`tdse1d.physics.parity`). On larger grids the E < 0
   eigenvalues of a banded high-order finite-difference Hamiltonian (LAPACK band
   reduction, cost ~ points^2) count the states and give start vectors by inverse
   iteration; a Rayleigh-Ritz step with the Fourier-grid H (applied by FFT) on those
@@ -32,19 +33,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from .grid import Grid
+from .parity import is_mirror_symmetric, negative_states_by_parity
 from .potentials import Potential
 from .threads import one_blas_thread
 
-__all__ = [
-    "BoundStates",
-    "kinetic_matrix",
-    "hamiltonian_matrix",
-    "bound_states",
-    "ground_state_energy",
-    "fit_softening",
-    "initial_wavefunction",
-    "SofteningFitError",
-]
+__all__ = ["BoundStates", "kinetic_matrix", "hamiltonian_matrix", "bound_states", "ground_state_energy",
+           "fit_softening", "initial_wavefunction", "SofteningFitError"]
 
 #: half-width (bohr) of the window in which a given number of lowest states is looked for
 STATE_WINDOW = 150.0
@@ -53,7 +47,7 @@ FIT_WINDOW = 25.0
 #: most points of a dense window (the dense solve costs points^3)
 MAX_WINDOW_POINTS = 2048
 #: largest grid on which all bound states come from a dense solve of the whole grid
-#: (measured on one core: 0.07 s at 1000 points, 0.45 s at 2000, 7 s at 4000)
+#: (one core, whole grid: 0.07 s at 1000 points, 0.45 s at 2000, 7 s at 4000; parity blocks a quarter)
 DENSE_POINTS = 4096
 #: half-width of the finite-difference stencil of the banded Hamiltonian (order 2 x this)
 FD_HALF_WIDTH = 8
@@ -146,72 +140,16 @@ def _dense_states(grid: Grid, potential: Potential, count: int):
     return energies[:count], vectors[:, :count]
 
 
-def _parity_blocks(h: np.ndarray):
-    """The even and odd blocks of a dense H that commutes with x -> -x on the periodic grid.
-
-    The grid's point i mirrors onto (n - i) mod n (points 0 and n/2 onto themselves);
-    in the basis e_0, e_{n/2}, (e_i +- e_{n-i}) / sqrt 2 (0 < i < n/2) H splits into an
-    even block of n/2 + 1 rows and an odd one of n/2 - 1, formed in O(n^2) from H's
-    entries (H[n-i, n-j] = H[i, j]). Returns (even, odd, pairs): ``pairs`` the i of the
-    paired points.
-    """
-    n = h.shape[0]
-    half = n // 2
-    pairs = np.arange(1, half)
-    mirror = n - pairs
-    direct, crossed = h[np.ix_(pairs, pairs)], h[np.ix_(pairs, mirror)]
-    odd = direct - crossed
-    even = np.empty((half + 1, half + 1))
-    single = np.array([0, half])
-    even[:2, :2] = h[np.ix_(single, single)]
-    even[:2, 2:] = np.sqrt(2.0) * h[np.ix_(single, pairs)]
-    even[2:, :2] = even[:2, 2:].T
-    even[2:, 2:] = direct + crossed
-    return even, odd, pairs
-
-
-def _parity_vectors(vectors: np.ndarray, pairs: np.ndarray, n: int, even: bool) -> np.ndarray:
-    """Grid vectors (columns) of a parity block's eigenvectors (see :func:`_parity_blocks`)."""
-    full = np.zeros((n, vectors.shape[1]))
-    core = vectors[2:] if even else vectors
-    full[pairs] = core / np.sqrt(2.0)
-    full[n - pairs] = core / np.sqrt(2.0) if even else -core / np.sqrt(2.0)
-    if even:
-        full[0], full[n // 2] = vectors[0], vectors[1]
-    return full
-
-
-def _is_mirror_symmetric(grid: Grid, values: np.ndarray) -> bool:
-    """V(x_i) = V(x_{(n - i) mod n}) to round-off on an even periodic grid centred on 0."""
-    n = grid.points
-    if n % 2 or n < 8 or abs(grid.x[n // 2]) > 1e-12 * grid.spacing:
-        return False
-    mirrored = values[(n - np.arange(n)) % n]
-    return bool(np.max(np.abs(values - mirrored)) <= 1e-13 * max(np.max(np.abs(values)), 1.0))
-
-
 def _dense_bound(grid: Grid, potential: Potential):
-    """All eigenpairs with E < 0 of the whole grid's dense H (the lowest few if none).
-
-    A mirror-symmetric potential (an atom, a symmetric molecular ion) is solved in its
-    even and odd blocks: two problems of half the size, a quarter of the work of the
-    O(n^3) reduction, the same eigenpairs to round-off (a 1-D bound spectrum has no
-    degeneracy to mix).
-    """
+    """All eigenpairs with E < 0 of the whole grid's dense H (the lowest few if none);
+    a mirror-symmetric potential in its even and odd blocks (:mod:`tdse1d.physics.parity`)."""
     h = hamiltonian_matrix(grid, potential)
-    values = potential.value(grid.x)
-    if _is_mirror_symmetric(grid, values) and np.all(np.isfinite(values)):
-        blocks = _parity_blocks(h)
-        with one_blas_thread():
-            parts = [_linalg().eigh(b, subset_by_value=(-np.inf, 0.0), driver="evr") for b in blocks[:2]]
-        if parts[0][0].size + parts[1][0].size > 0:
-            energies = np.concatenate([parts[0][0], parts[1][0]])
-            vectors = np.hstack([_parity_vectors(parts[0][1], blocks[2], grid.points, True),
-                                 _parity_vectors(parts[1][1], blocks[2], grid.points, False)])
-            order = np.argsort(energies, kind="stable")
-            return energies[order], vectors[:, order]
+    symmetric = is_mirror_symmetric(grid, potential.value(grid.x))
     # MRRR for a subset: only the eigenpairs used are formed (2.5x faster than all)
     with one_blas_thread():
+        found = negative_states_by_parity(h, _linalg().eigh) if symmetric else None
+        if found is not None:
+            return found
         energies, vectors = _linalg().eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
         if energies.size == 0:  # a confining trap (all E > 0): its lowest levels
             energies, vectors = _linalg().eigh(h, subset_by_index=(0, min(TRAP_LEVELS, grid.points) - 1),
