@@ -160,6 +160,11 @@ _PLAIN_UNITS: dict[str, dict[str, float]] = {
     "angle": {"rad": 1.0},
 }
 
+#: the atomic unit of a dimension by its own name: exactly 1 a.u. by definition, read
+#: without a conversion through SI (pint's bohr and hartree follow the CODATA edition of
+#: its version, 2018 or 2022, which differ by 7e-10 from each other and from ours)
+_ATOMIC_NAMES: dict[str, tuple[str, ...]] = {"length": ("bohr", "a0"), "energy": ("hartree", "Ha", "Eh")}
+
 _PLAIN = re.compile(r"^\s*(?P<num>[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?)\s*(?P<unit>[^\s\d.+-][^\s]*)\s*$")
 
 
@@ -169,6 +174,8 @@ def _plain_quantity(value: str, dim: Dimension):
     match = _PLAIN.match(value)
     if not match:
         return None
+    if match.group("unit") in _ATOMIC_NAMES.get(dim.name, ()):
+        return float(match.group("num"))
     factor = _PLAIN_UNITS.get(dim.name, {}).get(match.group("unit"))
     if factor is None:
         return None

@@ -43,3 +43,16 @@ def test_reading_the_shipped_units_does_not_import_pint():
     code = "import sys; from tdse1d import units; units.to_atomic('1 furlong', 'length'); print('pint' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "True"
+
+
+@pytest.mark.parametrize("text, dimension", [("1000 bohr", "length"), ("0.25 a0", "length"),
+                                             ("2.5 hartree", "energy"), ("-0.5 Ha", "energy")])
+def test_the_atomic_unit_by_name_is_exact(text, dimension):
+    """A bohr is the atomic unit of length and a hartree that of energy by definition:
+    the number itself, to the bit, whichever CODATA edition pint carries (its 2018 and
+    2022 Bohr radii differ by 6.8e-10 relative, which put "1000 bohr" above a maximum of
+    1000 bohr on one installation)."""
+    number = float(text.split()[0])
+    assert units.to_atomic(text, dimension) == number
+    # null: a unit that is not the atomic one is converted (1 angstrom is 1.89 bohr)
+    assert units.to_atomic("1000 angstrom", "length") != 1000.0
