@@ -82,3 +82,25 @@ def test_null_a_wrong_odd_mapping_is_caught():
     blocks = parity_blocks(hs)
     wrong_energy = scipy.linalg.eigvalsh(blocks[0])[0]
     assert abs(wrong_energy - scipy.linalg.eigvalsh(hs)[0]) > 1e-4
+
+
+@pytest.mark.parametrize("points", [16, 200, 1024])
+def test_blocks_from_the_kinetic_column_are_those_of_the_matrix_to_the_last_bit(points):
+    """The blocks formed from the kinetic column and V alone (no n x n matrix) are the
+    blocks of the dense H, bit for bit: the same sums in the same order, so the bound
+    states (and the regression reference) cannot move."""
+    from tdse1d.physics.parity import circulant_parity_blocks
+
+    grid = Grid(points, 0.37)
+    potential = SoftCore((Centre(-0.74, 1.3, 1.0), Centre(0.74, 1.3, 1.0)))
+    values = potential.value(grid.x)
+    assert is_mirror_symmetric(grid, values)
+    column = S.kinetic_column(grid.points, grid.spacing)
+    want = parity_blocks(S.hamiltonian_matrix(grid, potential))
+    got = circulant_parity_blocks(column, values)
+    for a, b in zip(want, got):
+        assert a.shape == b.shape and np.array_equal(a, b)
+    # the null: one diagonal entry of V changed by 1 Hartree shows in the even block
+    lopsided = values.copy()
+    lopsided[1] += 1.0
+    assert not np.array_equal(circulant_parity_blocks(column, lopsided)[0], want[0])

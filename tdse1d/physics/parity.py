@@ -15,7 +15,8 @@ import numpy as np
 
 from .grid import Grid
 
-__all__ = ["is_mirror_symmetric", "parity_blocks", "parity_vectors", "negative_states_by_parity"]
+__all__ = ["is_mirror_symmetric", "parity_blocks", "circulant_parity_blocks", "parity_vectors",
+           "negative_states_by_parity"]
 
 
 def is_mirror_symmetric(grid: Grid, values: np.ndarray) -> bool:
@@ -63,6 +64,46 @@ def parity_blocks(h: np.ndarray):
     return even, odd, pairs
 
 
+def circulant_parity_blocks(column: np.ndarray, diagonal: np.ndarray):
+    """The blocks of :func:`parity_blocks` for H = C + diag(V), C circulant with first
+    column ``column`` (the Fourier-grid kinetic matrix, C[i, j] = column[(i - j) mod n]),
+    formed from the column and V alone: the same numbers to the last bit as
+    ``parity_blocks(circulant(column) + diag(V))`` (the same sums in the same order), with
+    neither the n x n matrix (134 MB at 4096 points) nor its gathers formed.
+
+    Parameters
+    ----------
+    column : ndarray, shape (n,)
+        First column of the circulant part (Hartree).
+    diagonal : ndarray, shape (n,)
+        The potential on the grid (Hartree), mirror-symmetric.
+
+    Returns
+    -------
+    even, odd, pairs
+        As :func:`parity_blocks`.
+    """
+    n = column.size
+    half = n // 2
+    pairs = np.arange(1, half)
+    mirror = n - pairs
+    # H[i, j] for i, j in pairs, with V added on the diagonal as hamiltonian_matrix does
+    direct = column[(pairs[:, None] - pairs[None, :]) % n]
+    direct[np.diag_indices_from(direct)] += diagonal[pairs]
+    crossed = column[(pairs[:, None] - mirror[None, :]) % n]  # H[i, n - j]: off the diagonal of H
+    odd = direct - crossed
+    even = np.empty((half + 1, half + 1))
+    single = np.array([0, half])
+    corner = column[(single[:, None] - single[None, :]) % n]
+    corner[np.diag_indices_from(corner)] += diagonal[single]
+    even[:2, :2] = corner
+    even[:2, 2:] = np.sqrt(2.0) * column[(single[:, None] - pairs[None, :]) % n]
+    even[2:, :2] = even[:2, 2:].T
+    even[2:, 2:] = direct + crossed
+    del direct, crossed
+    return even, odd, pairs
+
+
 def parity_vectors(vectors: np.ndarray, pairs: np.ndarray, n: int, even: bool) -> np.ndarray:
     """Grid vectors (columns, length n) of a block's eigenvectors (see :func:`parity_blocks`)."""
     full = np.zeros((n, vectors.shape[1]))
@@ -74,13 +115,15 @@ def parity_vectors(vectors: np.ndarray, pairs: np.ndarray, n: int, even: bool) -
     return full
 
 
-def negative_states_by_parity(h: np.ndarray, eigh):
+def negative_states_by_parity(blocks, n: int, eigh):
     """Every eigenpair with E < 0 of a mirror-symmetric dense H, from its two blocks.
 
     Parameters
     ----------
-    h : ndarray, shape (n, n)
-        Dense H (Hartree), mirror-symmetric (:func:`is_mirror_symmetric` of its potential).
+    blocks : (even, odd, pairs)
+        From :func:`parity_blocks` or :func:`circulant_parity_blocks`.
+    n : int
+        Points of the grid.
     eigh : callable
         ``scipy.linalg.eigh`` (passed in: imported by the caller only when it solves).
 
@@ -89,12 +132,12 @@ def negative_states_by_parity(h: np.ndarray, eigh):
     (energies, vectors) or None
         Energies ascending (Hartree) and grid vectors as columns; None if no E < 0.
     """
-    even, odd, pairs = parity_blocks(h)
+    even, odd, pairs = blocks
     parts = [eigh(block, subset_by_value=(-np.inf, 0.0), driver="evr") for block in (even, odd)]
     if parts[0][0].size + parts[1][0].size == 0:
         return None
     energies = np.concatenate([parts[0][0], parts[1][0]])
-    vectors = np.hstack([parity_vectors(parts[0][1], pairs, h.shape[0], True),
-                         parity_vectors(parts[1][1], pairs, h.shape[0], False)])
+    vectors = np.hstack([parity_vectors(parts[0][1], pairs, n, True),
+                         parity_vectors(parts[1][1], pairs, n, False)])
     order = np.argsort(energies, kind="stable")
     return energies[order], vectors[:, order]

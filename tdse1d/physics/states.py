@@ -33,7 +33,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .grid import Grid
-from .parity import is_mirror_symmetric, negative_states_by_parity
+from .parity import circulant_parity_blocks, is_mirror_symmetric, negative_states_by_parity
 from .potentials import Potential
 from .threads import one_blas_thread
 
@@ -100,14 +100,18 @@ class BoundStates:
         return len(self.energies)
 
 
+def kinetic_column(points: int, spacing: float) -> np.ndarray:
+    """First column of the Fourier-grid kinetic matrix (Hartree): the inverse FFT of k^2/2."""
+    k = 2 * np.pi * np.fft.fftfreq(points, spacing)
+    return np.fft.ifft(0.5 * k**2).real
+
+
 def kinetic_matrix(points: int, spacing: float) -> np.ndarray:
     """Dense Fourier-grid kinetic matrix (Hartree) of a periodic grid.
 
-    T is circulant: its first column is the inverse FFT of k^2/2.
+    T is circulant, T[i, j] = c[(i - j) mod n] with c = :func:`kinetic_column`.
     """
-    k = 2 * np.pi * np.fft.fftfreq(points, spacing)
-    column = np.fft.ifft(0.5 * k**2).real
-    return _linalg().circulant(column)
+    return _linalg().circulant(kinetic_column(points, spacing))
 
 
 def hamiltonian_matrix(grid: Grid, potential: Potential) -> np.ndarray:
@@ -143,13 +147,17 @@ def _dense_states(grid: Grid, potential: Potential, count: int):
 def _dense_bound(grid: Grid, potential: Potential):
     """All eigenpairs with E < 0 of the whole grid's dense H (the lowest few if none);
     a mirror-symmetric potential in its even and odd blocks (:mod:`tdse1d.physics.parity`)."""
-    h = hamiltonian_matrix(grid, potential)
-    symmetric = is_mirror_symmetric(grid, potential.value(grid.x))
+    values = potential.value(grid.x)
     # MRRR for a subset: only the eigenpairs used are formed (2.5x faster than all)
     with one_blas_thread():
-        found = negative_states_by_parity(h, _linalg().eigh) if symmetric else None
-        if found is not None:
-            return found
+        if is_mirror_symmetric(grid, values):
+            # the blocks straight from the kinetic column: the whole grid's matrix is not formed
+            blocks = circulant_parity_blocks(kinetic_column(grid.points, grid.spacing), values)
+            found = negative_states_by_parity(blocks, grid.points, _linalg().eigh)
+            del blocks
+            if found is not None:
+                return found
+        h = hamiltonian_matrix(grid, potential)
         energies, vectors = _linalg().eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
         if energies.size == 0:  # a confining trap (all E > 0): its lowest levels
             energies, vectors = _linalg().eigh(h, subset_by_index=(0, min(TRAP_LEVELS, grid.points) - 1),

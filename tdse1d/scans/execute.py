@@ -327,6 +327,32 @@ def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, timeout
                            retry_failed, progress, client)
 
 
+def _start_local_presolving(todo, workers, dashboard):
+    """:func:`open_local_client` in a background thread while this process solves the
+    problems the points share (:func:`tdse1d.scans.presolve.presolve_shared`) into the
+    store the workers read: the workers start while the shared fit and states are solved
+    once here, instead of by every worker at once for its first point.
+
+    Returns
+    -------
+    cluster, client
+    """
+    from concurrent.futures import ThreadPoolExecutor
+
+    from .presolve import presolve_shared
+
+    with ThreadPoolExecutor(max_workers=1, thread_name_prefix="tdse1d-cluster") as pool:
+        starting = pool.submit(open_local_client, workers, dashboard)
+        try:
+            presolve_shared([t.point for t in todo if t.rung == "run"])
+        except BaseException:  # Ctrl-C: the cluster is still closed
+            cluster, client = starting.result()
+            client.close()
+            cluster.close()
+            raise
+        return starting.result()
+
+
 def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard, fresh, retry_failed,
                 progress, client):
     from distributed import as_completed
@@ -341,7 +367,7 @@ def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard,
             if scheduler is not None:
                 client = own_client = connect(scheduler, timeout)
             else:
-                own_cluster, client = open_local_client(workers, dashboard)
+                own_cluster, client = _start_local_presolving(todo, workers, dashboard)
                 own_client = client
         if own_cluster is None:
             # workers stop their runs with a checkpoint on SIGTERM/SIGINT (also workers that join later)

@@ -106,9 +106,11 @@ def run_point(resolved_toml: str, source: str, base_dir: str, output: str, rung:
 
 def _compute_run(api, config, output, control) -> dict:
     """The time-dependent run of a point; the items it adds to the record."""
+    from ..io.problem_store import problem_store
     from ..io.wisdom import fftw_wisdom
 
-    with fftw_wisdom():
+    # the store: the fit and states the scan's process solved once (scans/presolve.py)
+    with problem_store(), fftw_wisdom():
         # an unfinished point continues from the checkpoint its last attempt left
         outcome = api.run(config, output, resume=True, control=control)
     items = {"tunnelling_yield": _tunnelling_yield(outcome)}
