@@ -134,6 +134,14 @@ def test_summary_contents(local_scan):
         assert np.all(np.isfinite(f["spectra/power"][()]))
         p = f["ionization/probability"][()]
         assert np.all((p >= 0) & (p <= 1)) and p[2] > p[0]  # more ionization at higher intensity
+        # each point's band and converged flag are its own run's (a P_ion is never carried without them)
+        band, converged = f["ionization/probability_band"][()], f["ionization/converged"][()]
+        assert band.shape == (3, 2) and converged.shape == (3,)
+        for k, point in enumerate(plan.points):
+            with h5py.File(out / "points" / f"{point.hash}.h5", "r") as g:
+                assert np.array_equal(band[k], g["ionization/probability_band"][()])
+                assert bool(converged[k]) == bool(g["ionization"].attrs["converged"])
+                assert band[k, 0] <= p[k] <= band[k, 1]
         assert "focal" in f and f["focal/volume/incoherent"].shape == f["spectra/photon_energy_eV"].shape
         # the coherent sum of complex amplitudes never exceeds the incoherent sum of powers (Cauchy-Schwarz)
         assert np.all(f["focal/thin_jet/coherent"][()] <= f["focal/thin_jet/incoherent"][()] * (1 + 1e-9) + 1e-300)

@@ -456,6 +456,11 @@ SUMMARY_LAYOUT: tuple[Entry, ...] = (
     )),
     *_entries("ionization", ALWAYS, (
         ("probability", "1", "1 - final bound population (each run's ionization/probability)", "(points,)"),
+        ("probability_band", "1", "lower and upper ends of each run's band (its ionization/probability_band; "
+                                  "NaN: not finished)", "(points, 2)"),
+        ("converged", "flag", "the run's box converged its probability (its ionization@converged: the band "
+                              "within +-2 %); a point that is not is no value to plot without its band",
+         "(points,)"),
         ("tunnelling_yield", "1", "quasi-static tunnelling yield over the run's field "
                                   "(tdse1d.semiclassical.tunnelling.tunnelling_yield)", "(points,)"),
     )),

@@ -28,6 +28,7 @@ import numpy as np
 from .. import __version__, units
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
 from ..io.guarded_file import new_hdf5
+from ..io.analysis_file import ionization_band
 from ..io.layout import SUMMARY_LAYOUT, find, group_of, path as layout_path
 from ..io.result_file import write_dataset
 
@@ -71,6 +72,9 @@ def _read_point(path) -> _PointData:
             "cutoff_energy": float(_or_nan(find(f, "spectra/harmonic@cutoff_energy"))),
             "cutoff_resolved": bool(h.attrs.get("cutoff_resolved", False)),
             "ionization": float(f[layout_path("ionization/probability")][()]),
+            # its band and whether the box converged it (NaN and False for a file without them)
+            "ionization_band": ionization_band(f[group_of("ionization/probability_band")]) or (math.nan, math.nan),
+            "ionization_converged": bool(f[group_of("ionization@converged")].attrs.get("converged", False)),
             "photoelectron": photoelectron_cutoff(f, omega0),
             # edges read off by the run's own analysis, when it stored them
             "direct_edge": _scalar(f, layout_path("spectra/photoelectron/edges/direct")),
@@ -283,6 +287,11 @@ def write_summary(plan, directory) -> Summary:
         write_dataset(e, "photon_energy_eV", est("photon_energy"), layout=SUMMARY_LAYOUT)
         ion = f.create_group("ionization")
         write_dataset(ion, "probability", column(lambda d, r: d.attrs["ionization"]), layout=SUMMARY_LAYOUT)
+        write_dataset(ion, "probability_band", np.array([d.attrs["ionization_band"] if d is not None else
+                                                         (math.nan, math.nan) for d in data], float).reshape(n, 2),
+                      layout=SUMMARY_LAYOUT)
+        write_dataset(ion, "converged", np.array([bool(d is not None and d.attrs["ionization_converged"])
+                                                  for d in data]), layout=SUMMARY_LAYOUT)
         write_dataset(ion, "tunnelling_yield", column(lambda d, r: d.attrs["tunnelling"] if math.isfinite(
             d.attrs["tunnelling"]) else r.get("tunnelling_yield", math.nan)), layout=SUMMARY_LAYOUT)
         pe = f.create_group("photoelectron")
