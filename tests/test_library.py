@@ -159,3 +159,41 @@ def test_every_returned_object_has_a_short_repr(case, tmp_path):
     # limit is a real test of the reprs above, not a bound anything meets
     assert len(repr(case.outcome.result)) > REPR_LIMIT
     assert math.isfinite(case.outcome.result.ionization_probability)
+
+
+# ------------------------------------------------------------------ interrupted writes
+
+
+def test_an_interrupted_figure_or_table_leaves_the_earlier_file(case, tmp_path, monkeypatch):
+    """plot and export write to a temporary name and rename when done: a write that
+    fails half-way leaves the earlier file byte for byte, and no temporary file behind.
+    Null: the same failing writer aimed at the final name truncates it, so the byte
+    comparison would catch a plot or export that wrote in place."""
+    import matplotlib.figure
+
+    from tdse1d.api import results as results_module
+
+    figure = api.plot(case.path, "harmonic", tmp_path / "h.png").paths[0]
+    table = api.export(case.path, "harmonic", "eV", tmp_path / "h.csv").path
+    before = {p: p.read_bytes() for p in (figure, table)}
+
+    def failing_savefig(self, fname, **kwargs):
+        Path(fname).write_bytes(b"half a figure")
+        raise OSError(28, "No space left on device")
+
+    def failing_write(self, file):
+        Path(file).write_bytes(b"half a table")
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(matplotlib.figure.Figure, "savefig", failing_savefig)
+    monkeypatch.setattr(results_module.Table, "write", failing_write)
+    with pytest.raises(OSError):
+        api.plot(case.path, "harmonic", tmp_path / "h.png")
+    with pytest.raises(OSError):
+        api.export(case.path, "harmonic", "eV", tmp_path / "h.csv")
+    assert {p: p.read_bytes() for p in before} == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(p.name for p in before)
+    # the null: written in place, the same failure leaves a truncated file
+    with pytest.raises(OSError):
+        failing_write(None, table)
+    assert table.read_bytes() != before[table]

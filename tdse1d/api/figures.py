@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from ..input.spec import InputError
+from ..io.guarded_file import replaced_when_written
 from ..plots import pair_figures, run_figures, scan_figures, sfa_figures
 from ..spectra.derived import DERIVED_SPECTRA
 from ..semiclassical.estimates import CUTOFF_UP, LEWENSTEIN_IP
@@ -316,8 +317,11 @@ def plot(path, what: str = "all", output=None, on_written=None, beside=()) -> Fi
         for name, out in output_files(path, what, list(figures), output).items():
             fig = figures[name](f, cache)
             out.parent.mkdir(parents=True, exist_ok=True)
-            fig.savefig(out, dpi=DPI)
-            pyplot.close(fig)
+            try:
+                with replaced_when_written(out) as tmp:  # an interrupted figure leaves the earlier one
+                    fig.savefig(tmp, dpi=DPI)
+            finally:
+                pyplot.close(fig)
             written[name] = out
             if on_written is not None:
                 on_written(out)

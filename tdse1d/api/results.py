@@ -340,5 +340,8 @@ def export(path, what: str = "harmonic", units: str = "eV", output=None) -> Tabl
     table = Table(what, names, data)
     if output is None:
         return table
-    table.write(output)
+    from ..io.guarded_file import replaced_when_written
+
+    with replaced_when_written(output) as tmp:  # an interrupted table leaves the earlier one
+        table.write(tmp)
     return Table(what, names, data, Path(output))

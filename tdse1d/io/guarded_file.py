@@ -403,6 +403,35 @@ class GuardedFile:
 
 
 @contextlib.contextmanager
+def replaced_when_written(path):
+    """A temporary name beside ``path`` to write to; renamed onto ``path`` when the block
+    ends without an error, removed otherwise. A figure or table that fails half-way (a
+    full disk, Ctrl-C) leaves the earlier file intact, never a truncated one.
+
+    Parameters
+    ----------
+    path : path
+        The final file. The temporary name keeps its suffix (``NAME.<pid>.tmp.png``), so a
+        writer that picks the format from the suffix (matplotlib) picks the right one.
+
+    Yields
+    ------
+    pathlib.Path
+        The temporary file to write.
+    """
+    path = Path(path)
+    tmp = path.with_name(f"{path.stem}.{os.getpid()}.tmp{path.suffix}")
+    ok = False
+    try:
+        yield tmp
+        os.replace(tmp, path)
+        ok = True
+    finally:
+        if not ok:
+            tmp.unlink(missing_ok=True)
+
+
+@contextlib.contextmanager
 def new_hdf5(path, exclusive: bool = False):
     """Write a new HDF5 file through a :class:`GuardedFile`; on any failure it is removed.
 

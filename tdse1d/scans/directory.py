@@ -157,9 +157,10 @@ class ScanDirectory:
 
 
 def _write_atomic(path: Path, text: str) -> None:
-    tmp = path.with_name(f"{path.name}.{os.getpid()}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    from ..io.guarded_file import replaced_when_written
+
+    with replaced_when_written(path) as tmp:
+        tmp.write_text(text, encoding="utf-8")
 
 
 def result_matches(path, expected_hash: str) -> bool:
