@@ -239,14 +239,17 @@ def _potential(config: RunConfig) -> Potential:
 
 
 def model_estimates(potential: Potential, field: Field, ionization_potential: float, propagation=None,
-                    with_step: bool = True):
+                    with_step: bool = True, with_barrier: bool = True):
     """Semiclassical estimates for each pulse of ``field`` and the grid they call for.
 
     The time step is the largest whose splitting error, estimated on the model's core
     (:mod:`tdse1d.semiclassical.step_error`), is within ``propagation.tolerance`` for
     ``propagation``'s scheme (the default scheme and tolerance without it); with
-    ``with_step`` False the step is not estimated (the sampling limit only)."""
-    bsi = _memo(barrier_field, potential, -ionization_potential)
+    ``with_step`` False the step is not estimated (the sampling limit only). With
+    ``with_barrier`` False the barrier-suppression field is not solved (NaN in the
+    pulses' estimates; the grid does not depend on it): for a scan's cost of a point,
+    which would otherwise load the tunnelling module's scipy parts before the scan starts."""
+    bsi = _memo(barrier_field, potential, -ionization_potential) if with_barrier else math.nan
     pulses = [pulse_estimate(p.omega, p.peak_field, ionization_potential, bsi) for p in field.pulses]
     depth = -float(np.min(potential.value(np.linspace(-20, 20, 4001))))
     step_error = _step_error(potential, propagation) if with_step else None

@@ -38,7 +38,7 @@ def estimate_cost(config: RunConfig) -> float:
             after = AFTER_PULSE_CYCLES * 2 * math.pi / fld.omega if fld.pulses else FIELD_FREE_DURATION
         return float(grid.points**2 * max((fld.end + after - fld.start) / dt, 1.0))
     ip = config.atom.ionization_potential or 0.5
-    _, advice = model_estimates(_potential(config), fld, ip)
+    _, advice = model_estimates(_potential(config), fld, ip, with_barrier=False)
     spacing = config.grid.spacing or advice.spacing
     points = config.grid.points or fast_fft_size(int(math.ceil(2 * advice.half_width / spacing)))
     dt = config.propagation.time_step or advice.time_step

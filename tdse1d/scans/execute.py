@@ -200,6 +200,9 @@ def local_cluster(workers: int | None = None, dashboard: bool = False):
             security=Security.temporary(),
             dashboard_address="127.0.0.1:8787" if dashboard else "127.0.0.1:0",
             silence_logs=40,  # logging.ERROR: a restarted worker is reported by the scan itself
+            # each worker loads the numerics as it starts, while this process solves the
+            # shared problems (scans/presolve.py), not after the cluster is up
+            preload=["tdse1d.scans.worker_preload"],
         )
 
 
@@ -327,11 +330,20 @@ def run_scan(plan: ScanPlan, directory, *, scheduler: str | None = None, timeout
                            retry_failed, progress, client)
 
 
+def _warm_up_workers(client, todo) -> None:
+    """Every worker loads the numerics at once, before the points are handed out, so the
+    first point on each costs what the others do (a worker that joins later pays it in
+    its first point; a worker that cannot, fails its points instead), at the rungs the
+    tasks ask for."""
+    client.run(warm_up, tuple(sorted({t.rung for t in todo})), on_error="ignore")
+
+
 def _start_local_presolving(todo, workers, dashboard):
-    """:func:`open_local_client` in a background thread while this process solves the
-    problems the points share (:func:`tdse1d.scans.presolve.presolve_shared`) into the
-    store the workers read: the workers start while the shared fit and states are solved
-    once here, instead of by every worker at once for its first point.
+    """:func:`open_local_client` and the workers' warm-up in a background thread while
+    this process solves the problems the points share
+    (:func:`tdse1d.scans.presolve.presolve_shared`) into the store the workers read: the
+    workers start and load the numerics while the shared fit and states are solved once
+    here, instead of by every worker at once for its first point.
 
     Returns
     -------
@@ -341,8 +353,18 @@ def _start_local_presolving(todo, workers, dashboard):
 
     from .presolve import presolve_shared
 
+    def start():
+        cluster, client = open_local_client(workers, dashboard)
+        try:
+            _warm_up_workers(client, todo)
+        except BaseException:
+            client.close()
+            cluster.close()
+            raise
+        return cluster, client
+
     with ThreadPoolExecutor(max_workers=1, thread_name_prefix="tdse1d-cluster") as pool:
-        starting = pool.submit(open_local_client, workers, dashboard)
+        starting = pool.submit(start)
         try:
             presolve_shared([t.point for t in todo if t.rung == "run"])
         except BaseException:  # Ctrl-C: the cluster is still closed
@@ -372,11 +394,7 @@ def _run_locked(plan, directory, report, scheduler, timeout, workers, dashboard,
         if own_cluster is None:
             # workers stop their runs with a checkpoint on SIGTERM/SIGINT (also workers that join later)
             client.register_plugin(_worker_setup(stop_http=False), name="tdse1d-stop-on-signals")
-        # every worker loads the numerics at once, before the points are handed out, so
-        # the first point on each costs what the others do (a worker that joins later
-        # pays it in its first point; a worker that cannot, fails its points instead), at
-        # the rungs the tasks ask for
-        client.run(warm_up, tuple(sorted({t.rung for t in todo})), on_error="ignore")
+            _warm_up_workers(client, todo)  # (our own cluster's workers warmed while it started)
         by_key = {}
         futures = []
         for rank, task in enumerate(todo):
