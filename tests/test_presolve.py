@@ -13,6 +13,7 @@ from types import SimpleNamespace
 
 import numpy as np
 import pytest
+from test_problem_store import INPUT as PROBLEM_STORE_INPUT
 
 from tdse1d.input import problem as problem_module
 from tdse1d.input.problem import build_problem
@@ -21,21 +22,8 @@ from tdse1d.physics import states as states_module
 from tdse1d.scans.plan import load_plan
 from tdse1d.scans.presolve import presolve_shared, shared_problems
 
-# a fitted argon-like atom of our own on a small grid, scanned over the intensity
-BASE = """
-[atom]
-ionization_potential = "15.76 eV"
-[[laser]]
-wavelength = "800 nm"
-peak_intensity = "1e14 W/cm^2"
-envelope = "sin2"
-cycles = 2
-[grid]
-points = 384
-spacing = 0.4
-[propagation]
-after_pulse = "0.5 fs"
-"""
+# the fitted argon-like atom of the store's tests (a small input of our own), scanned over the intensity
+BASE = PROBLEM_STORE_INPUT.format(ip=15.76, spacing=0.4)
 
 
 def _points(tmp_path, values=("1e14 W/cm^2", "1.4e14 W/cm^2")):

@@ -17,7 +17,8 @@ Two ways of asking:
   reduction, cost ~ points^2) count the states and give start vectors by inverse
   iteration; a Rayleigh-Ritz step with the Fourier-grid H (applied by FFT) on those
   vectors and their preconditioned residuals turns them into eigenpairs of the run's
-  own H. The result says how many were found and whether each converged.
+  own H (:mod:`tdse1d.physics.banded_states`). The result says how many were found and
+  whether each converged.
 * **The lowest ``count`` states**: dense diagonalisation of H on a window of the grid
   around the origin (the whole grid when it is small), refined on the full grid with
   LOBPCG (Knyazev, SIAM J. Sci. Comput. 23, 517 (2001)) using H applied by FFT and a
@@ -49,10 +50,6 @@ MAX_WINDOW_POINTS = 2048
 #: largest grid on which all bound states come from a dense solve of the whole grid
 #: (one core, whole grid: 0.07 s at 1000 points, 0.45 s at 2000, 7 s at 4000; parity blocks a quarter)
 DENSE_POINTS = 4096
-#: half-width of the finite-difference stencil of the banded Hamiltonian (order 2 x this)
-FD_HALF_WIDTH = 8
-#: most block Rayleigh-Ritz sweeps refining the banded start vectors on a large grid
-REFINE_SWEEPS = 2
 #: levels kept when the model has no bound state at all (a confining trap, all E > 0)
 TRAP_LEVELS = 10
 #: largest relative change of a fitted ground state when the grid spacing is halved
@@ -107,10 +104,7 @@ def kinetic_column(points: int, spacing: float) -> np.ndarray:
 
 
 def kinetic_matrix(points: int, spacing: float) -> np.ndarray:
-    """Dense Fourier-grid kinetic matrix (Hartree) of a periodic grid.
-
-    T is circulant, T[i, j] = c[(i - j) mod n] with c = :func:`kinetic_column`.
-    """
+    """Dense Fourier-grid kinetic matrix (Hartree), circulant: T[i, j] = c[(i - j) mod n], c = :func:`kinetic_column`."""
     return _linalg().circulant(kinetic_column(points, spacing))
 
 
@@ -150,94 +144,18 @@ def _dense_bound(grid: Grid, potential: Potential):
     values = potential.value(grid.x)
     # MRRR for a subset: only the eigenpairs used are formed (2.5x faster than all)
     with one_blas_thread():
-        if is_mirror_symmetric(grid, values):
-            # the blocks straight from the kinetic column: the whole grid's matrix is not formed
+        if is_mirror_symmetric(grid, values):  # the blocks from the kinetic column, no n x n matrix
             blocks = circulant_parity_blocks(kinetic_column(grid.points, grid.spacing), values)
             found = negative_states_by_parity(blocks, grid.points, _linalg().eigh)
-            del blocks
             if found is not None:
                 return found
+            del blocks  # (a trap with no E < 0: the whole matrix below)
         h = hamiltonian_matrix(grid, potential)
         energies, vectors = _linalg().eigh(h, subset_by_value=(-np.inf, 0.0), driver="evr")
         if energies.size == 0:  # a confining trap (all E > 0): its lowest levels
             energies, vectors = _linalg().eigh(h, subset_by_index=(0, min(TRAP_LEVELS, grid.points) - 1),
                                                   driver="evr")
     return energies, vectors
-
-
-def _second_derivative_weights(half_width: int) -> np.ndarray:
-    """Central finite-difference weights of d^2/dx^2 (unit spacing), order 2 x half_width.
-
-    Solved from the Taylor (Vandermonde) conditions, as in Fornberg, Math. Comput. 51,
-    699 (1988) (from memory).
-    """
-    m = np.arange(-half_width, half_width + 1, dtype=float)
-    conditions = np.vander(m, increasing=True).T
-    rhs = np.zeros(m.size)
-    rhs[2] = 2.0
-    return np.linalg.solve(conditions, rhs)
-
-
-def _banded_hamiltonian(grid: Grid, potential: Potential, half_width: int = FD_HALF_WIDTH) -> np.ndarray:
-    """Upper band storage (LAPACK) of T + V with a finite-difference T (no wrap-around)."""
-    w = _second_derivative_weights(half_width) / grid.spacing**2
-    band = np.zeros((half_width + 1, grid.points))
-    for d in range(half_width + 1):
-        band[half_width - d, d:] = -0.5 * w[half_width + d]
-    band[half_width] += potential.value(grid.x)
-    return band
-
-
-def _banded_bound(grid: Grid, potential: Potential, tolerance: float):
-    """All E < 0 eigenpairs of a large grid: banded count and start, Fourier Rayleigh-Ritz.
-
-    Returns energies, vectors (columns) and residuals.
-    """
-    band = _banded_hamiltonian(grid, potential)
-    with one_blas_thread():
-        levels = _linalg().eigvals_banded(band, select="v", select_range=(-np.abs(band[-1]).max() - 1.0, 0.0))
-    if levels.size == 0:
-        levels = _linalg().eigvals_banded(band, select="i", select_range=(0, TRAP_LEVELS - 1))
-    # start vectors: two steps of inverse iteration of the banded H just off each level
-    full = np.zeros((2 * band.shape[0] - 1, grid.points))
-    full[: band.shape[0]] = band
-    for d in range(1, band.shape[0]):
-        full[band.shape[0] - 1 + d, : grid.points - d] = band[band.shape[0] - 1 - d, d:]
-    rng = np.random.default_rng(0)
-    guess = np.empty((grid.points, levels.size))
-    u = band.shape[0] - 1
-    for i, e in enumerate(levels):
-        shifted = full.copy()
-        gap = np.min(np.abs(np.delete(levels, i) - e)) if levels.size > 1 else 1.0
-        shifted[u] -= e + 1e-3 * gap
-        vec = rng.standard_normal(grid.points)
-        for _ in range(2):
-            vec = _linalg().solve_banded((u, u), shifted, vec)
-            vec /= np.linalg.norm(vec)
-        guess[:, i] = vec
-    apply_h = _apply_hamiltonian(grid, potential)
-    t = grid.kinetic_energy()
-    shift = max(1.0, -float(potential.value(grid.x).min()))
-    # block preconditioned Rayleigh-Ritz with the Fourier H (LOBPCG-like: the current
-    # vectors, their preconditioned residuals and the previous step's directions)
-    vectors, energies, previous = guess, levels, None
-    for _ in range(REFINE_SWEEPS):
-        resid = apply_h(vectors) - vectors * energies
-        if np.all(np.linalg.norm(resid, axis=0) <= 0.1 * np.sqrt(tolerance)):
-            break
-        correction = np.fft.ifft(np.fft.fft(resid, axis=0) / (t[:, None] + shift), axis=0).real
-        blocks = [vectors, correction] + ([previous] if previous is not None else [])
-        basis, _ = np.linalg.qr(np.hstack(blocks))
-        h_small = basis.T @ apply_h(basis)
-        ritz, coeffs = np.linalg.eigh(0.5 * (h_small + h_small.T))
-        # as many as the banded count, plus any further Ritz value below zero
-        n_keep = max(levels.size, int(np.count_nonzero(ritz < 0)))
-        new = basis @ coeffs[:, :n_keep]
-        previous = new[:, : vectors.shape[1]] - vectors if new.shape[1] == vectors.shape[1] else None
-        vectors, energies = new, ritz[:n_keep]
-    keep = energies < 0 if np.any(energies < 0) else np.arange(energies.size) < TRAP_LEVELS
-    energies, vectors = energies[keep], vectors[:, keep]
-    return energies, vectors, _residuals(apply_h, energies, vectors)
 
 
 def _apply_hamiltonian(grid: Grid, potential: Potential):
@@ -332,7 +250,9 @@ def bound_states(
             energies, vectors = _dense_bound(grid, potential)
             residuals = _residuals(apply_h, energies, vectors) if energies.size else np.zeros(0)
         else:
-            energies, vectors, residuals = _banded_bound(grid, potential, tolerance)
+            from .banded_states import banded_bound  # (the large-grid path; it uses this module)
+
+            energies, vectors, residuals = banded_bound(grid, potential, tolerance)
         complete = bool(np.all(residuals <= np.sqrt(tolerance))) and bool(np.all(energies < 0))
         return BoundStates(np.asarray(energies), _normalise(vectors, grid.spacing), grid, complete, residuals)
     sub, where = _window(grid, window)
