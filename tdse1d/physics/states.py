@@ -104,7 +104,10 @@ def kinetic_column(points: int, spacing: float) -> np.ndarray:
 
 
 def kinetic_matrix(points: int, spacing: float) -> np.ndarray:
-    """Dense Fourier-grid kinetic matrix (Hartree), circulant: T[i, j] = c[(i - j) mod n], c = :func:`kinetic_column`."""
+    """Dense Fourier-grid kinetic matrix (Hartree) of a periodic grid.
+
+    T is circulant, T[i, j] = c[(i - j) mod n] with c = :func:`kinetic_column`.
+    """
     return _linalg().circulant(kinetic_column(points, spacing))
 
 
