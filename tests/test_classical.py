@@ -324,3 +324,30 @@ def test_yield_matches_direct_rate_quadrature():
     # Parity: the mirrored molecule in the reversed field ionizes identically.
     mirrored = tunnelling.tunnelling_yield(time, -electric, Mirrored(molecule), energy)
     np.testing.assert_allclose(mirrored, probability, rtol=1e-9, atol=1e-300)
+
+
+def test_rate_tables_kept_per_process_give_the_same_rates_to_the_bit():
+    """A scan's points over the laser share the atom's rate table (kept per process):
+    the kept table gives what a table built afresh gives, to the last bit, and a table
+    is never reused for another level or another atom (null: each is compared with a
+    fresh build, which a table kept under a key without the energy or the softening would fail)."""
+    from tdse1d.physics.potentials import Centre
+    from tdse1d.physics.potentials import SoftCore as ModelSoftCore
+
+    time = np.linspace(0.0, 4.0 * PERIOD, 401)
+    electric = 0.07 * np.sin(np.pi * time / time[-1]) ** 2 * np.cos(OMEGA * time)
+    atom = ModelSoftCore((Centre(0.0, 1.0, 1.4142135623730951),))
+    other_atom = ModelSoftCore((Centre(0.0, 1.0, 1.2),))
+
+    def fresh(potential, energy):
+        tunnelling._TABLES.clear()
+        return tunnelling.tunnelling_yield(time, electric, potential, energy)
+
+    cases = [(atom, -0.5792), (atom, -0.5), (other_atom, -0.5792)]
+    expected = [fresh(p, e) for p, e in cases]
+    tunnelling._TABLES.clear()
+    for _ in range(2):  # built on the first pass, kept on the second
+        for (p, e), want in zip(cases, expected):
+            assert np.array_equal(tunnelling.tunnelling_yield(time, electric, p, e), want)
+    assert len(tunnelling._TABLES) == 6  # (atom, level, field sign): nothing shared that differs
+    assert not np.array_equal(expected[0], expected[1]) and not np.array_equal(expected[0], expected[2])

@@ -381,11 +381,34 @@ def tunnelling_rates(electric, potential, energy):
     electric = np.asarray(electric, dtype=float)
     if not np.all(np.isfinite(electric)):
         raise ValueError("electric must be finite")
-    period = classical_period(potential, energy)
     rate = np.zeros(electric.shape)
     for sign in (1, -1):
         chosen = sign * electric > 0.0
         if chosen.any():
-            table = _RateTable(_oriented(potential, sign), energy, period)
-            rate[chosen] = table(np.abs(electric[chosen]))
+            rate[chosen] = _rate_table(potential, energy, sign)(np.abs(electric[chosen]))
     return rate
+
+
+#: rate tables made in this process, by (potential, energy, field sign): a table depends
+#: on the atom and its level only, so a scan's points over the laser share it (building
+#: one is 256 WKB integrals, 0.06-0.08 s; most recent last, at most this many kept)
+_TABLES: dict = {}
+_MAX_TABLES = 16
+
+
+def _rate_table(potential, energy, sign) -> _RateTable:
+    """The :class:`_RateTable` of ``potential`` for a field of ``sign``, made once per
+    process for a hashable potential (the frozen dataclasses of
+    :mod:`tdse1d.physics.potentials`): the same object, so the same rates to the last bit."""
+    try:
+        key = (potential, float(energy), int(sign))
+        hash(key)
+    except TypeError:  # a potential that cannot be a key: made each time
+        return _RateTable(_oriented(potential, sign), energy, classical_period(potential, energy))
+    table = _TABLES.pop(key, None)
+    if table is None:
+        table = _RateTable(_oriented(potential, sign), energy, classical_period(potential, energy))
+        while len(_TABLES) >= _MAX_TABLES:
+            _TABLES.pop(next(iter(_TABLES)))
+    _TABLES[key] = table
+    return table
