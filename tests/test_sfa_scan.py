@@ -160,6 +160,10 @@ def test_a_job_array_task_runs_the_sfa_rung_and_a_rerun_skips_it(sfa_scan, tmp_p
         # the same input gives the same SFA, whichever path ran it (Dask worker or this process)
         assert f["sfa/cutoff_energy_eV"][2] == g["sfa/cutoff_energy_eV"][2]
         assert np.isnan(f["sfa/cutoff_energy_eV"][0])
+    # the outcome names each point's file at the plan's rung, and refuses a rung the plan has not
+    assert task.result(2, "sfa").name.endswith(".sfa.h5") and task.result(2, "sfa").is_file()
+    with pytest.raises(InputError, match="not 'run'"):
+        task.result(2)
 
 
 def test_rungs_key_is_checked_with_the_plan(tmp_path):

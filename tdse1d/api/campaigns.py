@@ -47,11 +47,15 @@ class ScanOutcome:
     def total(self) -> int:
         return len(self.plan.points)
 
-    def result(self, index: int) -> Path:
-        """Result file of point ``index``."""
+    def result(self, index: int, rung: str = "run") -> Path:
+        """File of point ``index`` at ``rung``: ``"run"`` (its result file, the default)
+        or ``"sfa"`` (its SFA file), of the plan's ``rungs`` (:mod:`tdse1d.scans.rungs`)."""
+        from ..input.spec import InputError
         from ..scans.directory import ScanDirectory
 
-        return ScanDirectory(self.directory).result(self.plan.points[index])
+        if rung not in self.plan.rungs:
+            raise InputError(f"the plan computes {', '.join(self.plan.rungs)}, not {rung!r}", "rungs")
+        return ScanDirectory(self.directory).result(self.plan.points[index], rung)
 
     def __repr__(self) -> str:
         parts = [f"{self.total - len(self.missing)} of {self.total} points done"] if self.mode != "list" else \
