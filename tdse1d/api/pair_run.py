@@ -184,7 +184,10 @@ def estimate_pair(config) -> PairEstimateResult:
     from ..physics.states import bound_states
     from ..runs.pair_runner import estimate_pair_wall_time, pair_memory_bytes
 
+    from ..io.wisdom import fftw_wisdom
+
     problem = build_pair_problem(config, compute_states=False)
     ion = bound_states(problem.grid, problem.atom.ion())  # one axis: cheap beside the atom's 2-D states
-    return PairEstimateResult(problem, pair_memory_bytes(problem), estimate_pair_wall_time(problem),
-                              -float(ion.energies[0]))
+    with fftw_wisdom():  # the timed steps' plans kept, as a run keeps them
+        wall = estimate_pair_wall_time(problem)
+    return PairEstimateResult(problem, pair_memory_bytes(problem), wall, -float(ion.energies[0]))

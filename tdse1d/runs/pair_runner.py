@@ -121,18 +121,24 @@ class PairWallEstimate:
                 "timed_points_per_axis": self.timed_points}
 
 
-def estimate_pair_wall_time(problem: PairProblem, threads: int = THREADS) -> PairWallEstimate:
+def estimate_pair_wall_time(problem: PairProblem, threads: int = THREADS,
+                            fft_effort: str = "FFTW_MEASURE") -> PairWallEstimate:
     """Time a few steps of the run's propagator and scale them to the run.
 
     The state stepped is a Gaussian (the step's cost does not depend on it), so the
-    problem needs no states. FFTW plans are estimated, not measured: the run's measured
-    plans are as fast or faster.
+    problem needs no states. The FFTW plans are made as the run makes them (measured,
+    about 1.5 s at 512^2 points the first time, then read from the kept wisdom when the
+    caller keeps it, :func:`tdse1d.io.wisdom.fftw_wisdom`): estimated plans were measured
+    3.4 times slower at 512^2 on two threads (14.3 against 4.2 ms a step, 2026-12-03), and
+    an estimate timed with them put the run at two to three times its measured wall time.
 
     Parameters
     ----------
     problem : PairProblem
     threads : int
         FFTW and kernel threads (one below :data:`THREADED_FROM_POINTS` points per axis, as the run).
+    fft_effort : str
+        FFTW planning effort, as :func:`simulate_pair` (default: the run's).
 
     Returns
     -------
@@ -155,7 +161,7 @@ def estimate_pair_wall_time(problem: PairProblem, threads: int = THREADS) -> Pai
     times = problem.time.times[:TIMED_STEPS + 2]
     with one_blas_thread(), _kernel_threads(threads):
         prop = Propagator(system, problem.field, times, gauge=cfg.propagation.gauge,
-                          scheme=SCHEMES[cfg.propagation.scheme_name], fft_effort="FFTW_ESTIMATE", threads=threads)
+                          scheme=SCHEMES[cfg.propagation.scheme_name], fft_effort=fft_effort, threads=threads)
         prop.start(psi0)
         prop.advance(1)  # loads the compiled kernels
         best = math.inf
