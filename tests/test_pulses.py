@@ -53,7 +53,7 @@ def half_maximum_width(t, y):
     return right - left
 
 
-@pytest.mark.parametrize("pulse", pulse_variants())
+@pytest.mark.parametrize("pulse", list(pulse_variants()))
 def test_zero_area_and_no_vector_potential_after(pulse):
     t, e, a = sample(pulse)
     area = np.trapezoid(e, t)
@@ -66,7 +66,7 @@ def test_zero_area_and_no_vector_potential_after(pulse):
     assert np.all(e[after] == 0) and np.all(e[before] == 0)
 
 
-@pytest.mark.parametrize("pulse", pulse_variants())
+@pytest.mark.parametrize("pulse", list(pulse_variants()))
 def test_field_is_minus_the_derivative_of_the_vector_potential(pulse):
     t, e, a = sample(pulse, margin=0.0)
     numerical = -np.gradient(a, t)
