@@ -17,6 +17,7 @@ from test_problem_store import INPUT as PROBLEM_STORE_INPUT
 
 from tdse1d.input import problem as problem_module
 from tdse1d.input.problem import build_problem
+from tdse1d.input.spec import InputError
 from tdse1d.io.problem_store import problem_store
 from tdse1d.physics import states as states_module
 from tdse1d.scans.plan import load_plan
@@ -91,9 +92,11 @@ def test_null_with_the_store_off_nothing_is_kept_and_the_point_solves(tmp_path, 
 def test_a_bad_point_is_left_to_report_its_own_error(tmp_path):
     """An Ip no softening reaches on this grid: the presolve solves nothing and raises
     nothing; the point's own run reports the input error."""
-    first, second = _points(tmp_path)
-    bad = [SimpleNamespace(raw=p.raw, config=p.config) for p in (first, second)]
-    for p in bad:
-        p.config = type(p.config)(**{**p.config.__dict__, "atom": type(p.config.atom)(
-            **{**p.config.atom.__dict__, "ionization_potential": 20.0})})
+    from dataclasses import replace
+
+    points = _points(tmp_path)
+    bad = [SimpleNamespace(raw=p.raw, config=replace(p.config, atom=replace(p.config.atom, ionization_potential=20.0)))
+           for p in points]  # 20 Hartree: no softening reaches it on this grid
     assert presolve_shared(bad) == 0
+    with pytest.raises(InputError, match="ionization potential"):  # what the point itself will report
+        build_problem(bad[0].config)
