@@ -123,7 +123,8 @@ def pair_rows(r: PairRecord) -> list[Row]:
     """
     radii = ", ".join(f"{x:g}" for x in r.radii)
     region_note = (f"quantum: region |x| = R = {r.radii[0]:g} bohr; uncertainty: the farthest reading at "
-                   f"R = {radii} bohr (docs/input.md)")
+                   f"R = {radii} bohr, the box not varied (a box too small reads the double yield low: "
+                   "docs/input.md, the two-electron atom)")
     source = "sequential: tunnelling of the atom, then of the ion"
     seq = r.sequential
     out = []
