@@ -17,44 +17,16 @@ import platform
 import time
 
 import numpy as np
+from floor import best_of, floor_runner
 
 from tdse1d.physics.absorbers import CosineMask
-from tdse1d.physics.fft import InPlaceFFT
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.propagation import Propagator, Strang
 from tdse1d.physics.pulses import AnalyticPulse, Field, Sin2
 from tdse1d.physics.systems import System
 
+#: the clock (``--clock cpu``: the process's CPU time, which adds up the threads)
 CLOCK = time.perf_counter
-
-
-def best_of(fn, repeats):
-    best = np.inf
-    for _ in range(repeats):
-        t0 = CLOCK()
-        count = fn()
-        best = min(best, (CLOCK() - t0) / count)
-    return best * 1e3
-
-
-def floor_time(n, threads, steps, repeats):
-    fft = InPlaceFFT((n, n), threads=threads)
-    fft.data[:] = np.exp(1j * np.linspace(0, 1, n * n)).reshape(n, n)
-    a = np.exp(-1j * np.linspace(0, 1, n * n)).reshape(n, n) / n
-    b, c = a.copy(), a.copy()
-    psi = fft.data
-
-    def run():
-        for _ in range(steps):
-            np.multiply(psi, a, out=psi)
-            fft.forward()
-            np.multiply(psi, b, out=psi)
-            fft.backward()
-            np.multiply(psi, c, out=psi)
-        return steps
-
-    run()
-    return best_of(run, repeats)
 
 
 def step_time(n, threads, steps, repeats):
@@ -78,7 +50,7 @@ def step_time(n, threads, steps, repeats):
     psi0 = np.exp(-(x1**2) - x2**2) * np.ones(grid.shape)
     prop.start(psi0 / np.sqrt(grid.integrate(abs(psi0) ** 2)))
     prop.advance(steps)
-    return best_of(lambda: prop.advance(steps), repeats)
+    return best_of(lambda: prop.advance(steps), repeats, CLOCK)
 
 
 def main():
@@ -95,7 +67,7 @@ def main():
     for n in args.sizes:
         steps = max(5, int(2e6 / n**2))
         for threads in (1, 2):
-            floor = floor_time(n, threads, steps, args.repeats)
+            floor = best_of(floor_runner((n, n), steps, threads), args.repeats, CLOCK)
             step = step_time(n, threads, steps, args.repeats)
             print(f"{n:>5} {threads:>7} {step:>10.2f} {floor:>11.2f} {step / floor:>6.2f}", flush=True)
 

@@ -26,41 +26,15 @@ import os
 import time
 
 import numpy as np
+from floor import floor_runner, timed_once
 
 from tdse1d.physics.absorbers import CosineMask
-from tdse1d.physics.fft import InPlaceFFT
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.pair_system import TwoElectrons
 from tdse1d.physics.propagation import Propagator, Strang
 from tdse1d.physics.pulses import AnalyticPulse, Field, Sin2
 from tdse1d.physics.threads import one_blas_thread
 from tdse1d.physics.two_electron import TwoElectronAtom
-
-
-def timed(fn):
-    t0 = time.perf_counter()
-    count = fn()
-    return (time.perf_counter() - t0) / count * 1e3
-
-
-def floor_runner(n, steps, threads):
-    fft = InPlaceFFT((n, n), "FFTW_MEASURE", threads)
-    psi = fft.data
-    psi[:] = np.exp(1j * np.linspace(0, 1, n * n)).reshape(n, n)
-    a = np.exp(-1j * np.linspace(0, 1, n * n)).reshape(n, n) / n
-    b, c = a.copy(), a.copy()
-
-    def run():
-        for _ in range(steps):
-            np.multiply(psi, a, out=psi)
-            fft.forward()
-            np.multiply(psi, b, out=psi)
-            fft.backward()
-            np.multiply(psi, c, out=psi)
-        return steps
-
-    run()
-    return run
 
 
 def step_runner(n, steps, rounds, threads, compiled, every, spacing=0.3):
@@ -106,11 +80,11 @@ def main():
     with one_blas_thread():
         for n in args.points:
             loops = [("compiled", True)] + ([("array", False)] if args.array else [])
-            floor = floor_runner(n, args.steps, args.threads)
+            floor = floor_runner((n, n), args.steps, args.threads)
             for name, compiled in loops:
                 step = step_runner(n, args.steps, args.rounds, args.threads, compiled, args.record_every)
                 load = os.getloadavg()[0]
-                pairs = [(timed(floor), timed(step)) for _ in range(args.rounds)]
+                pairs = [(timed_once(floor), timed_once(step)) for _ in range(args.rounds)]
                 f = min(p[0] for p in pairs)
                 s = min(p[1] for p in pairs)
                 median = float(np.median([p[1] / p[0] for p in pairs]))

@@ -24,9 +24,9 @@ import platform
 import time
 
 import numpy as np
+from floor import best_of, floor_runner
 
 from tdse1d.physics.absorbers import CosineMask
-from tdse1d.physics.fft import InPlaceFFT
 from tdse1d.physics.grid import Grid
 from tdse1d.physics.potentials import Centre, SoftCore
 from tdse1d.physics.propagation import Propagator, Strang
@@ -37,35 +37,6 @@ from tdse1d.physics.pulses import AnalyticPulse, Field, Sin2
 #: machine leaves out the time other processes held the cores (everything here runs
 #: on one thread, so on an idle machine the two agree)
 CLOCK = time.perf_counter
-
-
-def best_of(fn, repeats):
-    best = np.inf
-    for _ in range(repeats):
-        t0 = CLOCK()
-        count = fn()
-        best = min(best, (CLOCK() - t0) / count)
-    return best * 1e6
-
-
-def floor_time(n, steps, repeats):
-    fft = InPlaceFFT(n)
-    fft.data[:] = np.exp(1j * np.linspace(0, 1, n))
-    a = np.exp(-1j * np.linspace(0, 1, n)) * (1 / np.sqrt(n))
-    b, c = a.copy(), a.copy()
-    psi = fft.data
-
-    def run():
-        for _ in range(steps):
-            np.multiply(psi, a, out=psi)
-            fft.forward()
-            np.multiply(psi, b, out=psi)
-            fft.backward()
-            np.multiply(psi, c, out=psi)
-        return steps
-
-    run()
-    return best_of(run, repeats)
 
 
 def _propagator(n, total, compiled=True, every=1):
@@ -86,7 +57,7 @@ def step_time(n, steps, repeats, compiled=True):
     prop, psi0 = _propagator(n, steps * (repeats + 1), compiled)
     prop.start(psi0)
     prop.advance(steps)  # warm-up (numba compilation, caches)
-    return best_of(lambda: prop.advance(steps), repeats)
+    return best_of(lambda: prop.advance(steps), repeats, CLOCK, scale=1e6)
 
 
 def whole_run(n, total, every=1):
@@ -122,7 +93,7 @@ def main():
           f"{'run/step (us)':>13} {'run ratio':>9} {'run/step, k=8':>13} {'ratio':>6}")
     for n in args.sizes:
         steps = max(20, int(2e6 / n))
-        floor = floor_time(n, steps, args.repeats)
+        floor = best_of(floor_runner(n, steps), args.repeats, CLOCK, scale=1e6)
         step = step_time(n, steps, args.repeats)
         python = step_time(n, steps, args.repeats, compiled=False)
         run = run_cost_per_step(n, steps, args.repeats)
