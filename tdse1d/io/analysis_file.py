@@ -21,7 +21,7 @@ import numpy as np
 from .. import units
 from ..analysis.run_analysis import PHOTOELECTRON_METHOD_ORDER, RunAnalysis, _Inputs, _analyse, _pulse_rows
 from .layout import group_of, path
-from .result_file import write_dataset
+from .result_file import write_dataset, write_fields
 
 
 def _file_pulses(h5file):
@@ -130,11 +130,8 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
             write_dataset(c, name, float(getattr(s, name)))
         tr = analysis.trajectories
         g = c.create_group("trajectories")
-        write_dataset(g, "birth_time", tr.birth_time)
-        write_dataset(g, "return_time", tr.return_time)
-        write_dataset(g, "return_energy", tr.return_energy)
-        write_dataset(g, "drift_momentum", tr.drift_momentum)
-        write_dataset(g, "backscattered_momentum", tr.backscattered_momentum)
+        write_fields(g, tr, ("birth_time", "return_time", "return_energy", "drift_momentum",
+                             "backscattered_momentum"))
         b = c.create_group("branches")
         for branch in ("short", "long"):
             tables = getattr(s, f"{branch}_branch")
@@ -145,8 +142,7 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
             write_dataset(b, f"{branch}_half_cycle", labels.astype(int))
     if analysis.tunnelling_time.size:
         g = c.create_group("tunnelling")
-        write_dataset(g, "time", analysis.tunnelling_time)
-        write_dataset(g, "probability", analysis.tunnelling_probability)
+        write_fields(g, analysis, {"time": "tunnelling_time", "probability": "tunnelling_probability"})
     cut = analysis.cutoff
     if cut is not None and analysis.harmonic_floor_log10 is not None:
         h = f.require_group("spectra/harmonic")
@@ -156,19 +152,11 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
     if tf is not None:
         g = f.create_group("spectra/time_frequency")
         g.attrs["window"] = "gaussian"
-        write_dataset(g, "time", tf.time)
-        write_dataset(g, "frequency", tf.frequency)
-        write_dataset(g, "power", tf.power)
-        write_dataset(g, "width", tf.width)
+        write_fields(g, tf, ("time", "frequency", "power", "width"))
         em = analysis.emission
         if em is not None:
             e = g.create_group("emission")
-            write_dataset(e, "half_cycle", em.half_cycle)
-            write_dataset(e, "frequency", em.frequency)
-            write_dataset(e, "quantum", em.quantum)
-            write_dataset(e, "short", em.short)
-            write_dataset(e, "long", em.long)
-            write_dataset(e, "period", em.period)
+            write_fields(e, em, ("half_cycle", "frequency", "quantum", "short", "long", "period"))
     if analysis.edges is not None or analysis.ponderomotive is not None:
         g = f.create_group("spectra/photoelectron/edges")
         g.attrs["method"] = analysis.photoelectron_method or ""
@@ -176,8 +164,7 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
             ed = analysis.edges
             write_dataset(g, "direct", ed.direct, reason=ed.direct_reason)
             write_dataset(g, "backscattered", ed.backscattered, reason=ed.backscattered_reason)
-            write_dataset(g, "plateau_log10", ed.plateau_log10)
-            write_dataset(g, "noise_floor_log10", ed.noise_floor_log10)
+            write_fields(g, ed, ("plateau_log10", "noise_floor_log10"))
         pond = analysis.ponderomotive
         if pond is not None:
             write_dataset(g, "ponderomotive_shift", pond.measured, measurable=pond.measurable, reason=pond.reason)
@@ -185,17 +172,13 @@ def write_analysis(h5file, analysis: RunAnalysis) -> None:
         g = f.create_group("spectra/photoelectron/field_free")
         g.attrs["description"] = ("the same numerics with no field for one optical period: the method's floor "
                                   "(tdse1d.analysis.field_free_floor)")
-        write_dataset(g, "energy", analysis.photoelectron_floor[0])
-        write_dataset(g, "energy_density", analysis.photoelectron_floor[1])
+        for name, values in zip(("energy", "energy_density"), analysis.photoelectron_floor):
+            write_dataset(g, name, values)
     st = analysis.streaking
     if st is not None:
         g = f.create_group("streaking")
-        for name in ("xuv_time",):
-            write_dataset(g, name, st.xuv_time)
-        write_dataset(g, "xuv_photon_energy", st.xuv_photon_energy)
-        write_dataset(g, "photoelectric_energy", st.photoelectric_energy)
-        for name in ("initial_momentum", "vector_potential", "peak_right", "peak_left", "measured"):
-            write_dataset(g, name, getattr(st, name))
+        write_fields(g, st, ("xuv_time", "xuv_photon_energy", "photoelectric_energy", "initial_momentum",
+                             "vector_potential", "peak_right", "peak_left", "measured"))
         g.attrs["reason"] = st.reason
 
 

@@ -161,6 +161,25 @@ def write_dataset(group, name, data=None, *, layout=RESULT_LAYOUT, units=None, c
     return ds
 
 
+def write_fields(group, source, names, *, layout=RESULT_LAYOUT):
+    """One dataset per attribute of ``source``, each by :func:`write_dataset`.
+
+    Parameters
+    ----------
+    group : h5py.Group
+    source : object
+        Holds the values as attributes (a result, an analysis, a spectrum).
+    names : iterable of str, or dict
+        Dataset names that are also the attribute names, or a mapping dataset name ->
+        attribute name where the file's name differs from the object's.
+    layout : tuple of tdse1d.io.layout.Entry
+        As for :func:`write_dataset`.
+    """
+    pairs = names.items() if isinstance(names, dict) else ((n, n) for n in names)
+    for dataset, attribute in pairs:
+        write_dataset(group, dataset, getattr(source, attribute), layout=layout)
+
+
 class GuardedWriting:
     """How a result file ends: the part of :class:`ResultWriter` that other writers of
     a whole file share (the two-electron atom's, :mod:`tdse1d.io.pair_result_file`).
@@ -341,24 +360,14 @@ class ResultWriter(GuardedWriting):
         # the per-step series below hold every k-th step (docs/output.md, recorded time axis)
         f.attrs["record_stride"] = int(getattr(result, "record_every", 1))
         fld = f.create_group("field")
-        write_dataset(fld, "time", obs.time)
-        write_dataset(fld, "electric", obs.electric)
-        write_dataset(fld, "vector_potential", obs.vector_potential)
+        write_fields(fld, obs, ("time", "electric", "vector_potential"))
         o = f.create_group("observables")
-        write_dataset(o, "time", obs.time)
-        write_dataset(o, "dipole", obs.dipole)
-        write_dataset(o, "momentum", obs.momentum)
-        write_dataset(o, "acceleration", obs.acceleration)
-        write_dataset(o, "norm", obs.norm)
-        write_dataset(o, "initial_population", obs.initial_population)
-        write_dataset(o, "population_time", result.population_time)
-        write_dataset(o, "bound_population", result.bound_population)
+        write_fields(o, obs, ("time", "dipole", "momentum", "acceleration", "norm", "initial_population"))
+        write_fields(o, result, ("population_time", "bound_population"))
         write_dataset(o, "absorbed", obs.norm[0] - obs.norm)
         h = f.create_group("spectra/harmonic")
         hs = result.harmonic
-        write_dataset(h, "frequency", hs.frequency)
-        write_dataset(h, "order", hs.order)
-        write_dataset(h, "power", hs.power)
+        write_fields(h, hs, ("frequency", "order", "power"))
         h.attrs["window"] = self.problem.config.spectra.window
         if result.cutoff is not None:
             h.attrs["cutoff_energy"] = result.cutoff.frequency
@@ -369,22 +378,15 @@ class ResultWriter(GuardedWriting):
             g = f.create_group(f"spectra/photoelectron/{method}")
             g.attrs["method"] = method
             g.attrs["split"] = spec.split
-            write_dataset(g, "momentum", spec.momentum)
-            write_dataset(g, "density_left", spec.density_left)
-            write_dataset(g, "density_right", spec.density_right)
-            write_dataset(g, "energy", spec.energy)
-            write_dataset(g, "energy_density_left", spec.energy_density_left)
-            write_dataset(g, "energy_density_right", spec.energy_density_right)
+            write_fields(g, spec, ("momentum", "density_left", "density_right", "energy", "energy_density_left",
+                                   "energy_density_right"))
         ion = f.create_group("ionization")
         write_dataset(ion, "probability", result.ionization_probability)
         est = getattr(result, "ionization", None)
         if est is not None:
             write_dataset(ion, "probability_band", np.array([est.lower, est.upper]))
-            write_dataset(ion, "bound_held", est.held)
-            write_dataset(ion, "bound_edge", est.edge)
-            write_dataset(ion, "bound_beyond", est.beyond)
-            write_dataset(ion, "bound_unheld", est.unheld)
-            write_dataset(ion, "time", est.time)
+            write_fields(ion, est, {"bound_held": "held", "bound_edge": "edge", "bound_beyond": "beyond",
+                                    "bound_unheld": "unheld", "time": "time"})
             ion.attrs["states_found"] = est.states_found
             ion.attrs["states_held"] = est.states_held
             ion.attrs["states_complete"] = est.complete
