@@ -54,6 +54,10 @@ def linear_phase(theta, first, step, block, coarse, fine, offset=0.0):
 # written-out complex arithmetic vectorises where numba's complex type does not.
 # Reassociation lets LLVM vectorise the sums; "nnan"/"ninf" are left out so that a
 # blown-up wavefunction still shows up as a non-finite norm.
+# The kick loops below repeat their phase-factor lines on purpose: factored into one
+# inlined helper (tried 2026-12-03), the same products compile to different fused
+# multiply-adds under "contract", and the compiled loop is then no longer bitwise equal
+# to the array loop (tests/test_compiled_loop.py).
 _FAST = {"contract", "arcp", "nsz", "reassoc"}
 _JIT = dict(cache=True, nogil=True, fastmath=_FAST, error_model="numpy")
 
