@@ -4,13 +4,16 @@ must give no value.
 The family (``tdse1d.spectra.reading.cutoff_family``, docs/analysis.md "The cutoff
 family") reads where the plateau has fallen one decade, on three curves (smoothed log
 power, power per harmonic, harmonic peaks) from four plateau levels (median, mean of
-log10, highest, the plateau's end), and the knee of a two-line fit. The constructed
+log10, highest, the plateau's end), on the per-harmonic curves also as the last
+harmonic at or above the drop (the cutoff harmonic), and the knee of a two-line fit.
+The constructed
 spectra have exact answers:
 
 * a comb of odd harmonics on a flat plateau that ends at ``w_c`` in an exponential fall
   of ``s`` decades per order: every level is the same, and the 1-decade drop is crossed
   exactly ``1/s`` orders beyond ``w_c`` on every curve (below, why each curve reads it
-  exactly); the knee of the fall is ``w_c``;
+  exactly), and the last harmonic at or above it is the odd order just below that
+  crossing; the knee of the fall is ``w_c``;
 * the same comb on a plateau that slopes down: the levels differ as their definitions
   say (a law, not a number): counted from the highest level the drop is reached first,
   from the level at the plateau's end last;
@@ -23,7 +26,8 @@ import math
 import numpy as np
 import pytest
 
-from tdse1d.spectra.reading import PLATEAU_LEVELS, READING_CURVES, cutoff_family, harmonic_curves
+from tdse1d.spectra.reading import (HARMONIC_CURVES, LAST_HARMONIC, PLATEAU_LEVELS, READING_CURVES, cutoff_family,
+                                    harmonic_curves)
 
 W0 = 0.057          # photon energy of the constructed driving field (hartree)
 IP = 0.58           # ionization potential (hartree)
@@ -46,7 +50,8 @@ def _comb(rng, slope=SLOPE, w_c=W_C, plateau_slope=0.0, floor=1e-16):
 def test_every_rule_reads_the_analytic_edge():
     r = cutoff_family(*_comb(np.random.default_rng(1)), W0, IP)
     assert r.resolved, r.reason
-    assert set(r.rules) == {f"{c} {lv}" for c in READING_CURVES for lv in PLATEAU_LEVELS} | {"knee"}
+    last = {f"{c} {lv} {LAST_HARMONIC}" for c in HARMONIC_CURVES for lv in PLATEAU_LEVELS}
+    assert set(r.rules) == {f"{c} {lv}" for c in READING_CURVES for lv in PLATEAU_LEVELS} | last | {"knee"}
     # Band, argued before the run: on the flat plateau every level is the plateau's own.
     # The smoothed curve (running mean of log power over +-1 order, one comb period)
     # follows the linear fall of log power exactly once its window is clear of the kink;
@@ -58,8 +63,14 @@ def test_every_rule_reads_the_analytic_edge():
     # the residual ripple of the comb in the running mean.
     expected = W_C + 1.0 / SLOPE * W0
     for name, value in r.rules.items():
-        if name != "knee":
+        if name != "knee" and not name.endswith(LAST_HARMONIC):
             assert value == pytest.approx(expected, abs=0.25 * W0), name
+    # the last harmonic at or above the drop: the envelope stands 0.6 decade below the
+    # plateau at order 31 and 1.6 at order 33, so every such rule reads order 31 exactly
+    # (the per-harmonic curves' axis is the order times W0; the lines' width changes a
+    # sum by 0.003 decade, far from either threshold)
+    for name in last:
+        assert r.rules[name] == pytest.approx(31 * W0, rel=1e-12), name
     # the knee: the window rounds the kink over +-1 order, so within one order of it
     assert r.rules["knee"] == pytest.approx(W_C, abs=W0)
     assert r.low == min(r.rules.values()) and r.high == max(r.rules.values())
@@ -68,13 +79,16 @@ def test_every_rule_reads_the_analytic_edge():
 
 def test_every_rule_follows_the_edge_when_it_moves():
     # a law: moving the plateau end by 5 orders moves every rule by 5 orders (the
-    # crossing then lies between orders 35 and 37, again both beyond the kink at 34.8)
+    # crossing then lies between orders 35 and 37, again both beyond the kink at 34.8);
+    # a rule that names a harmonic can only move by whole harmonic spacings, from the
+    # last harmonic below 31.8 (31) to the last below 36.8 (35): by 4 orders exactly
     rng = np.random.default_rng(2)
     a = cutoff_family(*_comb(rng), W0, IP)
     b = cutoff_family(*_comb(rng, w_c=W_C + 5 * W0), W0, IP)
     assert a.resolved and b.resolved
     for name in a.rules:
-        assert b.rules[name] - a.rules[name] == pytest.approx(5 * W0, abs=0.25 * W0), name
+        moved = 4 * W0 if name.endswith(LAST_HARMONIC) else 5 * W0
+        assert b.rules[name] - a.rules[name] == pytest.approx(moved, abs=0.25 * W0), name
 
 
 def test_the_levels_of_a_sloping_plateau_order_as_defined():
@@ -89,6 +103,15 @@ def test_the_levels_of_a_sloping_plateau_order_as_defined():
     for curve in READING_CURVES:
         top, median, mean, end = (r.rules[f"{curve} {lv}"] for lv in ("top", "median", "mean", "end"))
         assert top < median < end and top < mean < end, curve
+    for curve in HARMONIC_CURVES:
+        # a named harmonic keeps that order, but two levels may name the same harmonic;
+        # and it never lies above the crossing it is the last sample before
+        named = {lv: r.rules[f"{curve} {lv} {LAST_HARMONIC}"] for lv in PLATEAU_LEVELS}
+        assert named["top"] <= named["median"] <= named["end"] and named["top"] <= named["mean"] <= named["end"]
+        assert named["top"] < named["end"], curve
+        for lv in PLATEAU_LEVELS:
+            assert 0.0 <= r.rules[f"{curve} {lv}"] - named[lv] < 2 * W0, (curve, lv)
+
     def drop_spread(reading):
         values = [v for k, v in reading.rules.items() if k != "knee"]
         return max(values) - min(values)

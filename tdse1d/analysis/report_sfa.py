@@ -122,7 +122,11 @@ def with_sfa(table, a, sfa: SfaReadings | None, orbits: dict | None = None) -> l
     out = []
     for r in table:
         value, u, reason, extra = math.nan, math.nan, "", ""
-        if r.key == "harmonic_cutoff":
+        if r.key == "harmonic_cutoff" and sfa.cutoff_family is not None:
+            # the run's cutoff in this row is the family's: the SFA's is read by it too
+            fam = sfa.cutoff_family
+            value, u, reason = fam.value, fam.uncertainty, fam.reason
+        elif r.key == "harmonic_cutoff":
             value, u = sfa.cutoff, sfa.cutoff_uncertainty
             reason = "" if math.isfinite(value) else (sfa.cutoff_reason or "not read")
         elif r.key == "direct_edge":

@@ -18,11 +18,12 @@ import numpy as np
 
 from ..semiclassical import sfa_harmonic, sfa_orbits, sfa_photoelectron
 from ..spectra.cutoff import read_cutoff, running_mean
+from ..spectra.reading import Reading, cutoff_family, unresolved
 from ..spectra.harmonic import HarmonicSpectrum, harmonic_spectrum
 from .photoelectrons import photoelectron_edges
 from .run_analysis import PHOTOELECTRON_METHOD_ORDER
 
-__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaEmissionDeviation", "emission_deviation", "deviating_rung", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH"]
+__all__ = ["SfaSpectra", "sfa_spectra", "run_energy_axis", "SfaEmissionDeviation", "emission_deviation", "deviating_rung", "SfaReadings", "sfa_readings", "direct_edge", "ENERGY_REACH", "sfa_cutoff_family"]
 
 #: the standalone photoelectron axis runs to this many Up: twice the 10 Up edge, so that
 #: the upper half of the axis, where the edge reader takes its flat noise floor
@@ -188,7 +189,37 @@ def reading_reach(spectra: SfaSpectra) -> float:
     reading rule would take for its noise floor (the run's spectrum has a flat floor up
     to its Nyquist energy); below it the spectrum has fallen exponentially from the
     cutoff, so the upper half of this axis is the SFA's floor."""
-    return 2 * (1.32 * spectra.ionization_potential + 3.17 * spectra.ponderomotive_energy) + 10 * spectra.omega0
+    return _reach(spectra.ionization_potential, spectra.ponderomotive_energy, spectra.omega0)
+
+
+def _reach(ionization_potential, ponderomotive_energy, omega0):
+    return 2 * (1.32 * ionization_potential + 3.17 * ponderomotive_energy) + 10 * omega0
+
+
+def sfa_cutoff_family(frequency, power, omega0, ionization_potential, ponderomotive_energy) -> Reading:
+    """The SFA harmonic cutoff read by the run's family of rules
+    (:func:`tdse1d.spectra.reading.cutoff_family`), on the axis up to
+    :func:`reading_reach`: the reading the report lays beside the run's own cutoff,
+    which is read by the same family.
+
+    Parameters
+    ----------
+    frequency, power : ndarray
+        The SFA harmonic spectrum (hartree, any unit of power).
+    omega0, ionization_potential, ponderomotive_energy : float
+        Photon energy, Ip and Up (hartree).
+
+    Returns
+    -------
+    Reading
+        Photon energies in hartree.
+    """
+    w = np.asarray(frequency, dtype=float)
+    keep = (w > 0) & (w <= _reach(ionization_potential, ponderomotive_energy, omega0))
+    try:
+        return cutoff_family(w[keep], np.asarray(power, dtype=float)[keep], omega0, ionization_potential)
+    except ValueError as exc:
+        return unresolved(f"unresolved: {exc}")
 
 
 @dataclass(frozen=True)
@@ -221,6 +252,10 @@ class SfaReadings:
         Crest of that half cycle (a.u.).
     cutoff_reason : str
         Empty when the cutoff was read.
+    cutoff_family : Reading, optional
+        The cutoff read by the run's family of rules (:func:`sfa_cutoff_family`), the
+        reading the report's SFA column shows beside the run's cutoff; ``cutoff``
+        above is the single rule of the validation case and of scans.
     """
 
     cutoff: float
@@ -233,17 +268,20 @@ class SfaReadings:
     emission_long: np.ndarray
     crest_time: float
     cutoff_reason: str = ""
+    cutoff_family: Reading | None = None
 
 
 def sfa_readings(spectra: SfaSpectra) -> SfaReadings:
     """Read the cutoff, edges and emission times per branch off :class:`SfaSpectra`."""
     nan = math.nan
-    cutoff, reason = nan, "no harmonic spectrum"
+    cutoff, reason, family = nan, "no harmonic spectrum", None
     if spectra.harmonic is not None:
         h = spectra.harmonic
         keep = (h.frequency > 0) & (h.frequency <= reading_reach(spectra))
         est = read_cutoff(h.frequency[keep], h.power[keep], spectra.omega0, spectra.ionization_potential)
         cutoff, reason = est.frequency, est.reason
+        family = sfa_cutoff_family(h.frequency, h.power, spectra.omega0, spectra.ionization_potential,
+                                   spectra.ponderomotive_energy)
     direct = back = nan
     pe = spectra.photoelectrons
     if pe is not None:
@@ -264,7 +302,7 @@ def sfa_readings(spectra: SfaSpectra) -> SfaReadings:
         orbit_cutoff, crest = best.cutoff, best.crest_time
         energy, short, long_ = best.energy, best.emission_short, best.emission_long
     return SfaReadings(float(cutoff), spectra.omega0, float(orbit_cutoff), float(direct), float(back),
-                       energy, short, long_, float(crest), reason)
+                       energy, short, long_, float(crest), reason, family)
 
 
 @dataclass(frozen=True)

@@ -46,6 +46,11 @@ class SfaOutcome:
             "omega0": clean(s.omega0),
             "cutoff": clean(r.cutoff), "cutoff_uncertainty": clean(r.cutoff_uncertainty),
             "cutoff_reason": r.cutoff_reason,
+            "cutoff_family": None if r.cutoff_family is None else {
+                "value": clean(r.cutoff_family.value), "uncertainty": clean(r.cutoff_family.uncertainty),
+                "rule_range": [clean(r.cutoff_family.low), clean(r.cutoff_family.high)],
+                "rules": {k: clean(v) for k, v in r.cutoff_family.rules.items()},
+                "reason": r.cutoff_family.reason or None},
             "orbit_cutoff": clean(r.orbit_cutoff),
             "direct_edge": clean(r.direct_edge), "backscattered_edge": clean(r.backscattered_edge),
             "crest_time": clean(r.crest_time),
@@ -95,15 +100,27 @@ def sfa(config: RunConfig | Problem | str, *, overrides=(), photoelectrons=True,
     return SfaOutcome(problem, spectra, sfa_readings(spectra))
 
 
+def _family_line(family, ev, w) -> str:
+    """The line of :func:`describe` for the cutoff family's reading."""
+    head = "harmonic cutoff (the family of rules the run's report reads with): "
+    if family is None:
+        return head + "not read"
+    if not family.resolved:
+        return head + family.reason
+    return (head + f"{family.value * ev:.2f} +- {family.uncertainty * ev:.2f} eV, order {family.value / w:.1f} "
+            f"(rules {family.low * ev:.2f} to {family.high * ev:.2f} eV)")
+
+
 def describe(outcome: SfaOutcome) -> str:
     """The readings as lines of text with units (eV, orders, Up, fs)."""
     r, s = outcome.readings, outcome.spectra
     ev, w, up = units.HARTREE_EV, s.omega0, s.ponderomotive_energy
     fs = units.au_to_fs(1.0)
     lines = [f"Ip = {s.ionization_potential * ev:.3f} eV, Up = {up * ev:.3f} eV, photon {w * ev:.4f} eV",
-             f"harmonic cutoff (read off the SFA spectrum): "
+             f"harmonic cutoff (read off the SFA spectrum, one rule as scans read it): "
              + (f"{r.cutoff * ev:.2f} +- {r.cutoff_uncertainty * ev:.2f} eV, order {r.cutoff / w:.1f}"
                 if math.isfinite(r.cutoff) else f"unresolved ({r.cutoff_reason})"),
+             _family_line(r.cutoff_family, ev, w),
              f"quantum-orbit cutoff of the strongest half cycle: {r.orbit_cutoff * ev:.2f} eV, "
              f"order {r.orbit_cutoff / w:.1f} (1.32 Ip + 3.17 Up = "
              f"{(1.32 * s.ionization_potential + 3.17 * up) * ev:.2f} eV)"]

@@ -16,7 +16,7 @@ import h5py
 import numpy as np
 
 from .. import __version__
-from ..analysis.sfa import SfaReadings, SfaSpectra
+from ..analysis.sfa import SfaReadings, SfaSpectra, sfa_cutoff_family
 from ..errors import OutputError
 from ..semiclassical.estimates import as_attributes
 from .guarded_file import COMPLETE_ATTR, PART_SUFFIX, GuardedFile, WriterLock, lock_path
@@ -106,9 +106,15 @@ def read_sfa_readings(h5file) -> SfaReadings | None:
         k = int(np.argmax(o["ponderomotive_energy"]))
         crest, orbit_cutoff = float(o["crest_time"][k]), float(o["cutoff"][k])
         energy, short, long_ = o["energy"], o["emission_short"][k], o["emission_long"][k]
+    family = None
+    if "frequency" in h and "power" in h:
+        # read off the stored spectrum (milliseconds), as the report reads the run's own
+        # cutoff afresh off its stored spectrum: both then follow the same family
+        family = sfa_cutoff_family(h["frequency"], h["power"], sfa["photon_energy"], sfa["ionization_potential"],
+                                   sfa["ponderomotive_energy"])
     return SfaReadings(float(h.get("cutoff_energy", nan)), float(h.get("cutoff_uncertainty", nan)), orbit_cutoff,
                        float(pe.get("direct_edge", nan)), float(pe.get("backscattered_edge", nan)),
-                       energy, short, long_, crest, h.get("cutoff_reason", "no harmonic spectrum"))
+                       energy, short, long_, crest, h.get("cutoff_reason", "no harmonic spectrum"), family)
 
 
 def write_sfa_point(path, problem, spectra: SfaSpectra, readings: SfaReadings) -> None:

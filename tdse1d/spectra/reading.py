@@ -44,6 +44,12 @@ READING_CURVES = ("smoothed", "sums", "peaks")
 #: the plateau levels a drop is counted from: the median and the mean of the curve's
 #: log10 over the plateau, its highest value, and the median over its last END_ORDERS
 PLATEAU_LEVELS = ("median", "mean", "top", "end")
+#: the curves sampled only at the harmonics, on which the family reads each drop twice:
+#: interpolated between the harmonics bracketing it, and as the last harmonic at or
+#: above it ("the cutoff harmonic", how a comb's cutoff is named)
+HARMONIC_CURVES = ("sums", "peaks")
+#: suffix of the rule names that read the last harmonic instead of the interpolated crossing
+LAST_HARMONIC = "last harmonic"
 #: harmonic orders at the plateau's end over which the "end" level is taken (five odd
 #: harmonics: longer than the beats of the short and long branches in the plateau)
 END_ORDERS = 10.0
@@ -252,7 +258,7 @@ def _plateau_level(curve, rule, axis, last, end_width):
 
 
 def drop_crossing(axis, curve, floor, level_rule, *, drop, start, end, end_width, beyond, margin=NOISE_MARGIN,
-                  max_iterations=20):
+                  max_iterations=20, interpolate=True):
     """Where a curve has fallen ``drop`` decades below its plateau level, for good.
 
     The plateau runs from ``start`` to the crossing; its level (``level_rule``, one of
@@ -261,7 +267,9 @@ def drop_crossing(axis, curve, floor, level_rule, *, drop, start, end, end_width
     fixed-point iteration started from the highest level (the rule of
     :func:`tdse1d.spectra.read_cutoff`). The crossing is the last sample with
     ``curve >= level - drop``, interpolated linearly in log10 to the next sample, so
-    dips of the plateau do not end it.
+    dips of the plateau do not end it. With ``interpolate=False`` the crossing is that
+    last sample itself (on a curve sampled at the harmonics: the last harmonic of the
+    plateau); the checks against the end of the data and the noise floor are the same.
 
     Parameters
     ----------
@@ -282,6 +290,9 @@ def drop_crossing(axis, curve, floor, level_rule, *, drop, start, end, end_width
         Decades the reading level ``level - drop`` must stand above the floor.
     max_iterations : int
         Cap on the fixed-point iteration.
+    interpolate : bool
+        Interpolate between the last sample at or above ``level - drop`` and the next
+        (default), or return that last sample.
 
     Returns
     -------
@@ -310,7 +321,7 @@ def drop_crossing(axis, curve, floor, level_rule, *, drop, start, end, end_width
     headroom = float(threshold - floor[region[last]])
     if not headroom >= margin:
         return math.nan, level, headroom, unresolved_reason(headroom)
-    return crossing, level, headroom, ""
+    return (crossing if interpolate else float(x[last])), level, headroom, ""
 
 
 def cutoff_family(frequency, power, omega0, ionization_potential, *, noise=None, max_frequency=None,
@@ -380,12 +391,15 @@ def cutoff_family(frequency, power, omega0, ionization_potential, *, noise=None,
         for level_rule in PLATEAU_LEVELS:
             for drop in drops:
                 rule = f"{name} {level_rule}" + (f" drop {drop:g}" if len(drops) > 1 else "")
-                value, level, room, why = drop_crossing(
-                    axis, curve, floor, level_rule, drop=drop, start=start, end=end, end_width=END_ORDERS * omega0,
-                    beyond=smooth_orders * omega0, margin=noise_margin if floors is not None else -math.inf)
-                values[rule], reasons[rule], levels[rule] = value, why, level
-                if floors is not None and math.isfinite(room):
-                    headrooms.append(room)
+                for interpolate in (True, False) if name in HARMONIC_CURVES else (True,):
+                    key = rule if interpolate else f"{rule} {LAST_HARMONIC}"
+                    value, level, room, why = drop_crossing(
+                        axis, curve, floor, level_rule, drop=drop, start=start, end=end,
+                        end_width=END_ORDERS * omega0, beyond=smooth_orders * omega0,
+                        margin=noise_margin if floors is not None else -math.inf, interpolate=interpolate)
+                    values[key], reasons[key], levels[key] = value, why, level
+                    if floors is not None and math.isfinite(room):
+                        headrooms.append(room)
     headroom = float(min(headrooms)) if headrooms else math.nan
     median_rule = "smoothed median" + (f" drop {min(drops):g}" if len(drops) > 1 else "")
     values["knee"], reasons["knee"] = _knee(w, curves["smoothed"][1], floors, omega0, start, end, values[median_rule],
@@ -426,4 +440,5 @@ def _knee(w, smoothed, floors, omega0, start, end, reading, level, reason, margi
 
 __all__ = ["Reading", "combine_rules", "unresolved", "two_line_knee", "cutoff_family", "harmonic_curves",
            "drop_crossing", "unresolved_reason", "CUTOFF_DROPS", "READING_CURVES", "PLATEAU_LEVELS", "END_ORDERS",
+           "HARMONIC_CURVES", "LAST_HARMONIC",
            "KNEE_FALL", "KNEE_CONTRAST"]
