@@ -1,8 +1,9 @@
 """A quantity read off a spectrum by a small family of rules, as a central value with
 the range across the rules (:class:`Reading`, :func:`combine_rules`), and the family of
 rules for the plateau cutoff of a harmonic spectrum (:func:`cutoff_family`: where the
-plateau has fallen one decade, read on three curves from four plateau levels, and the
-knee of a two-line fit in log power, :func:`two_line_knee`). Pure numerics on arrays,
+plateau has fallen one decade, read on three curves from four plateau levels, on the
+per-harmonic curves also as the last harmonic at or above the drop, and the knee of a
+two-line fit in log power, :func:`two_line_knee`). Pure numerics on arrays,
 Hartree atomic units.
 
 Why a family: a cutoff or an edge is not a sharp feature of a computed spectrum. Each
@@ -340,6 +341,9 @@ def cutoff_family(frequency, power, omega0, ionization_potential, *, noise=None,
       through the same curve; its reading level must stand ``noise_margin`` decades
       above it. One decade and not more: deeper drops read the evanescent tail beyond
       the classical edge (module docstring);
+    * ``"CURVE LEVEL last harmonic"`` for the curves of :data:`HARMONIC_CURVES`: the
+      same drop, read as the last harmonic at or above it instead of the interpolated
+      crossing (the cutoff harmonic, as a comb's cutoff is named);
     * ``"knee"``: :func:`two_line_knee` of the smoothed log power from the plateau start
       ``Ip + start_orders * omega0`` to the last energy where it is within
       :data:`KNEE_FALL` decades of the median plateau level. It counts only if the fall
