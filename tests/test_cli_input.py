@@ -439,8 +439,12 @@ def test_ctrl_c_in_a_real_process_while_it_starts(tmp_path):
     """The package and the command line import only the standard library before main()
     is running, so an interrupt during the heavy imports lands in main()'s handler. The
     handshake: the child raises the interrupt itself from inside the import of the
-    command module (the slow step that follows the first second), no timing involved."""
+    command module (the slow step that follows the first second), no timing involved.
+    The child first takes Python's own Ctrl-C handler: a process started from a
+    background job of a non-interactive shell (``pytest &``) inherits SIGINT ignored
+    (POSIX job control), and Python then installs no handler; a user at a terminal has it."""
     code = ("import signal, os, sys, importlib\n"
+            "signal.signal(signal.SIGINT, signal.default_int_handler)\n"
             "import tdse1d.cli.program as cli\n"
             "real = importlib.import_module\n"
             "def slow_import(name, *a):\n"
