@@ -18,8 +18,8 @@ import numpy as np
 
 from ..semiclassical import sfa_harmonic, sfa_orbits, sfa_photoelectron
 from ..spectra.cutoff import read_cutoff, running_mean
-from ..spectra.reading import Reading, cutoff_family, unresolved
 from ..spectra.harmonic import HarmonicSpectrum, harmonic_spectrum
+from ..spectra.reading import Reading, cutoff_family, unresolved
 from .photoelectrons import photoelectron_edges
 from .run_analysis import PHOTOELECTRON_METHOD_ORDER
 
@@ -196,6 +196,13 @@ def _reach(ionization_potential, ponderomotive_energy, omega0):
     return 2 * (1.32 * ionization_potential + 3.17 * ponderomotive_energy) + 10 * omega0
 
 
+def _reading_axis(frequency, power, omega0, ionization_potential, ponderomotive_energy):
+    """The SFA harmonic spectrum on the axis its cutoff is read on (0 < w <= the reach)."""
+    w = np.asarray(frequency, dtype=float)
+    keep = (w > 0) & (w <= _reach(ionization_potential, ponderomotive_energy, omega0))
+    return w[keep], np.asarray(power, dtype=float)[keep]
+
+
 def sfa_cutoff_family(frequency, power, omega0, ionization_potential, ponderomotive_energy) -> Reading:
     """The SFA harmonic cutoff read by the run's family of rules
     (:func:`tdse1d.spectra.reading.cutoff_family`), on the axis up to
@@ -214,10 +221,9 @@ def sfa_cutoff_family(frequency, power, omega0, ionization_potential, ponderomot
     Reading
         Photon energies in hartree.
     """
-    w = np.asarray(frequency, dtype=float)
-    keep = (w > 0) & (w <= _reach(ionization_potential, ponderomotive_energy, omega0))
+    w, p = _reading_axis(frequency, power, omega0, ionization_potential, ponderomotive_energy)
     try:
-        return cutoff_family(w[keep], np.asarray(power, dtype=float)[keep], omega0, ionization_potential)
+        return cutoff_family(w, p, omega0, ionization_potential)
     except ValueError as exc:
         return unresolved(f"unresolved: {exc}")
 
@@ -277,8 +283,9 @@ def sfa_readings(spectra: SfaSpectra) -> SfaReadings:
     cutoff, reason, family = nan, "no harmonic spectrum", None
     if spectra.harmonic is not None:
         h = spectra.harmonic
-        keep = (h.frequency > 0) & (h.frequency <= reading_reach(spectra))
-        est = read_cutoff(h.frequency[keep], h.power[keep], spectra.omega0, spectra.ionization_potential)
+        w, p = _reading_axis(h.frequency, h.power, spectra.omega0, spectra.ionization_potential,
+                             spectra.ponderomotive_energy)
+        est = read_cutoff(w, p, spectra.omega0, spectra.ionization_potential)
         cutoff, reason = est.frequency, est.reason
         family = sfa_cutoff_family(h.frequency, h.power, spectra.omega0, spectra.ionization_potential,
                                    spectra.ponderomotive_energy)
